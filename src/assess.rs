@@ -1,0 +1,273 @@
+//! Per-leg assessment of a simulated route (DESIGN 6.4, 6.5, 6.9): the plan's required
+//! curvature, the achievable curvature at the leg's speed, predicted deviation against the
+//! corridor, time, and a verdict with reasons in plain words.
+//!
+//! Units: metres, seconds, 1/m; deviations are distances to the plan near the progress point.
+
+use serde::Serialize;
+
+use crate::follow::{saturate_sides, FollowerLimits};
+use crate::kinematics::{Model, MotionModel};
+use crate::rollout::{Outcome, RouteDrive, Trace};
+use crate::route::Route;
+
+/// Resampling step for the plan's curvature (DESIGN 6.4).
+pub const CURVATURE_STEP_M: f64 = 0.1;
+/// Share of the achievable curvature above which a turn earns a caution.
+pub const CAUTION_CURVATURE_SHARE: f64 = 0.8;
+/// Share of the corridor above which a deviation earns a caution.
+pub const CAUTION_CORRIDOR_SHARE: f64 = 0.5;
+
+/// Screening verdict, ordered from best to worst.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Verdict {
+    Pass,
+    Caution,
+    Fail,
+}
+
+impl Verdict {
+    pub fn name(self) -> &'static str {
+        match self {
+            Verdict::Pass => "pass",
+            Verdict::Caution => "caution",
+            Verdict::Fail => "fail",
+        }
+    }
+}
+
+/// What limits the curvature the vehicle can drive on a leg.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum CurvatureLimit {
+    /// The yaw-rate clamp, side-speed saturation and the terrain's slip (kinematic model).
+    Kinematic,
+    /// Thrust on the outer track against traction, the thrust rating or the power rating.
+    Traction,
+}
+
+/// Achievable curvature of a leg and what binds it (DESIGN 6.5).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Achievable {
+    pub kinematic_per_m: f64,
+    /// Traction/thrust/power limit, when the effort model has computed one.
+    pub traction_per_m: Option<f64>,
+}
+
+impl Achievable {
+    pub fn curvature_per_m(&self) -> f64 {
+        self.traction_per_m.map_or(self.kinematic_per_m, |t| t.min(self.kinematic_per_m))
+    }
+    pub fn binding(&self) -> CurvatureLimit {
+        match self.traction_per_m {
+            Some(t) if t < self.kinematic_per_m => CurvatureLimit::Traction,
+            _ => CurvatureLimit::Kinematic,
+        }
+    }
+}
+
+/// Kinematic curvature limit at `speed_mps`: the actual curvature (omega / vx of the terrain
+/// model) when the controller commands its largest yaw rate, after the inverse model and
+/// side-speed saturation; the smaller of the left and right turn. Infinite where the terrain
+/// turns on the spot (vx <= 0) at that command.
+pub fn kinematic_curvature_limit(limits: &FollowerLimits, controller: &Model, actual: &Model, speed_mps: f64) -> f64 {
+    let v = speed_mps.min(limits.max_side_speed_mps);
+    let mut worst = f64::INFINITY;
+    for sign in [1.0, -1.0] {
+        let omega = sign * limits.max_yaw_rate_radps;
+        let half = 0.5 * omega * limits.track_width_m;
+        let (l, r) = controller.inverse(v, omega).unwrap_or((v - half, v + half));
+        let (l, r) = saturate_sides(l, r, limits.max_side_speed_mps);
+        let t = actual.twist(l, r);
+        let k = if t.vx_mps > 1e-9 { (t.omega_radps / t.vx_mps).abs() } else { f64::INFINITY };
+        worst = worst.min(k);
+    }
+    worst
+}
+
+/// The assessment of one leg.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct LegReport {
+    /// 1-based leg number within the route.
+    pub index: usize,
+    pub name: Option<String>,
+    pub terrain: String,
+    pub length_m: f64,
+    pub speed_mps: f64,
+    pub corridor_m: f64,
+    /// Tightest planned radius (1 / required curvature); `None` for a straight leg.
+    pub min_planned_radius_m: Option<f64>,
+    pub required_curvature_per_m: f64,
+    /// Arc length along the route where the tightest turn is.
+    pub tightest_turn_at_m: f64,
+    /// `None` when the vehicle can turn on the spot at this speed.
+    pub achievable_curvature_per_m: Option<f64>,
+    pub kinematic_curvature_per_m: Option<f64>,
+    pub traction_curvature_per_m: Option<f64>,
+    pub curvature_limited_by: CurvatureLimit,
+    pub max_deviation_m: f64,
+    pub rms_deviation_m: f64,
+    pub end_deviation_m: f64,
+    pub time_s: f64,
+    pub verdict: Verdict,
+    pub reasons: Vec<String>,
+}
+
+/// The assessment of one route.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RouteReport {
+    pub route: String,
+    pub source: String,
+    pub verdict: Verdict,
+    pub length_m: f64,
+    pub time_s: f64,
+    pub max_deviation_m: f64,
+    /// False when the rollout hit its time bound before the end.
+    pub completed: bool,
+    pub legs: Vec<LegReport>,
+}
+
+fn finite(x: f64) -> Option<f64> {
+    x.is_finite().then_some(x)
+}
+
+/// Deviation statistics of the steps on one leg: (max, rms, end, time).
+fn deviation_stats(trace: &Trace, leg: usize, dt_s: f64) -> (f64, f64, f64, f64) {
+    let (mut max, mut sum_sq, mut n, mut end) = (0.0_f64, 0.0, 0usize, 0.0);
+    for s in trace.steps.iter().filter(|s| s.leg == leg) {
+        max = max.max(s.deviation_m);
+        sum_sq += s.deviation_m * s.deviation_m;
+        n += 1;
+        end = s.deviation_m;
+    }
+    let rms = if n > 0 { (sum_sq / n as f64).sqrt() } else { 0.0 };
+    (max, rms, end, n as f64 * dt_s)
+}
+
+/// Assesses every leg of a simulated route. `traction_limits` gives the traction/thrust/power
+/// curvature limit per leg when the effort model has computed one.
+pub fn assess_route(route: &Route, drive: &RouteDrive, trace: &Trace, traction_limits: &[Option<f64>]) -> RouteReport {
+    let legs: Vec<LegReport> = (0..drive.legs.len())
+        .map(|i| assess_leg(route, drive, trace, i, traction_limits.get(i).copied().flatten()))
+        .collect();
+    let verdict = legs.iter().map(|l| l.verdict).max().unwrap_or(Verdict::Pass);
+    RouteReport {
+        route: route.name.clone(),
+        source: route.source.display().to_string(),
+        verdict,
+        length_m: drive.plan.length_m(),
+        time_s: trace.steps.last().map_or(0.0, |s| s.t_s),
+        max_deviation_m: legs.iter().map(|l| l.max_deviation_m).fold(0.0, f64::max),
+        completed: matches!(trace.outcome, Outcome::Reached),
+        legs,
+    }
+}
+
+fn assess_leg(route: &Route, drive: &RouteDrive, trace: &Trace, i: usize, traction_per_m: Option<f64>) -> LegReport {
+    let ld = &drive.legs[i];
+    let (start_m, end_m) = drive.plan.leg_bounds_m(i);
+    let scale_m = drive.curvature_scale_m;
+    let (required, at_m) = drive.plan.required_curvature(i, scale_m, CURVATURE_STEP_M);
+    let achievable = Achievable {
+        kinematic_per_m: kinematic_curvature_limit(&drive.limits, &ld.controller, &ld.actual, ld.speed_mps),
+        traction_per_m,
+    };
+    let (max_dev, rms_dev, end_dev, time_s) = deviation_stats(trace, i, drive.limits.dt_s);
+    let mut leg = LegReport {
+        index: i + 1,
+        name: route.legs.get(i).and_then(|l| l.name.clone()),
+        terrain: ld.terrain.clone(),
+        length_m: end_m - start_m,
+        speed_mps: ld.speed_mps,
+        corridor_m: ld.corridor_m,
+        min_planned_radius_m: (required > 1e-9).then(|| 1.0 / required),
+        required_curvature_per_m: required,
+        tightest_turn_at_m: at_m,
+        achievable_curvature_per_m: finite(achievable.curvature_per_m()),
+        kinematic_curvature_per_m: finite(achievable.kinematic_per_m),
+        traction_curvature_per_m: traction_per_m,
+        curvature_limited_by: achievable.binding(),
+        max_deviation_m: max_dev,
+        rms_deviation_m: rms_dev,
+        end_deviation_m: end_dev,
+        time_s,
+        verdict: Verdict::Pass,
+        reasons: Vec::new(),
+    };
+    judge(&mut leg, &achievable, drive, trace, i);
+    leg
+}
+
+/// Applies DESIGN 6.9 and writes the reasons.
+fn judge(leg: &mut LegReport, achievable: &Achievable, drive: &RouteDrive, trace: &Trace, i: usize) {
+    let mut add = |v: Verdict, why: String| {
+        leg.verdict = leg.verdict.max(v);
+        leg.reasons.push(why);
+    };
+    let ach = achievable.curvature_per_m();
+    let req = leg.required_curvature_per_m;
+    let limiter = match achievable.binding() {
+        CurvatureLimit::Kinematic => "slip and the yaw-rate limit",
+        CurvatureLimit::Traction => "traction",
+    };
+    let at = format!("{:.0} m along the route", leg.tightest_turn_at_m);
+    if req > ach {
+        add(
+            Verdict::Fail,
+            format!(
+                "turn needs radius {:.1} m ({at}); at {:.1} m/s on {} the tightest is {:.1} m ({limiter})",
+                1.0 / req,
+                leg.speed_mps,
+                leg.terrain,
+                1.0 / ach
+            ),
+        );
+    } else if req > CAUTION_CURVATURE_SHARE * ach {
+        add(
+            Verdict::Caution,
+            format!(
+                "turn radius {:.1} m ({at}) uses {:.0} % of what {} allows at {:.1} m/s (tightest {:.1} m)",
+                1.0 / req,
+                100.0 * req / ach,
+                leg.terrain,
+                leg.speed_mps,
+                1.0 / ach
+            ),
+        );
+    }
+    if leg.max_deviation_m > leg.corridor_m {
+        add(
+            Verdict::Fail,
+            format!("predicted deviation {:.2} m leaves the {:.2} m corridor", leg.max_deviation_m, leg.corridor_m),
+        );
+    } else if leg.max_deviation_m > CAUTION_CORRIDOR_SHARE * leg.corridor_m {
+        add(
+            Verdict::Caution,
+            format!(
+                "predicted deviation {:.2} m is over half the {:.2} m corridor",
+                leg.max_deviation_m, leg.corridor_m
+            ),
+        );
+    }
+    if leg.speed_mps > drive.limits.max_side_speed_mps {
+        add(
+            Verdict::Caution,
+            format!(
+                "planned speed {:.1} m/s is above the top side speed {:.1} m/s; the prediction drives slower",
+                leg.speed_mps, drive.limits.max_side_speed_mps
+            ),
+        );
+    }
+    if let Outcome::TimedOut { limit_s, progress_m } = trace.outcome {
+        let (start_m, end_m) = drive.plan.leg_bounds_m(i);
+        if progress_m < end_m && progress_m >= start_m {
+            add(
+                Verdict::Fail,
+                format!("the vehicle did not get past {progress_m:.0} m along the route within {limit_s:.0} s (stalled or circling)"),
+            );
+        } else if progress_m < start_m {
+            add(Verdict::Fail, "the vehicle never reached this leg (stalled or circling earlier)".to_string());
+        }
+    }
+}

@@ -1,0 +1,14 @@
+//! Crate-level error: wraps each module's error so the binary can map all of them to exit code 2.
+
+use thiserror::Error;
+
+/// Any error the library returns. Every variant is an input, usage or I/O problem (exit code 2).
+#[derive(Debug, Error)]
+pub enum Error {
+    #[error(transparent)]
+    Route(#[from] crate::route::RouteError),
+    #[error(transparent)]
+    Vehicle(#[from] crate::vehicle::VehicleError),
+    #[error(transparent)]
+    Report(#[from] crate::report::ReportError),
+}

@@ -1,0 +1,251 @@
+//! The path follower being predicted (DESIGN 6.3): pure pursuit on a forward-only progress
+//! point, a speed profile ramped at the side-acceleration limit that slows for slower legs and
+//! stops at the end, a yaw-rate clamp, side speeds from the controller's inverse model,
+//! curvature-keeping side-speed saturation and a per-side acceleration limit.
+//!
+//! Pure pursuit: Coulter 1992, "Implementation of the pure pursuit path tracking algorithm",
+//! CMU-RI-TR-92-01. Units: metres, seconds, radians; poses in the local frame.
+
+use crate::kinematics::{Model, MotionModel, Pose};
+use crate::route::PlanPath;
+
+/// Controller limits and rates, taken from the profile.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FollowerLimits {
+    pub lookahead_m: f64,
+    pub dt_s: f64,
+    pub max_yaw_rate_radps: f64,
+    pub max_side_speed_mps: f64,
+    pub max_side_accel_mps2: f64,
+    pub track_width_m: f64,
+}
+
+/// Speed the controller creeps at on the final approach so it always reaches the end point.
+const CREEP_SPEED_MPS: f64 = 0.05;
+
+/// Pure-pursuit curvature to a goal at body-frame `(x_m, y_m)`: kappa = 2 y / L^2 with L the
+/// distance to the goal (Coulter 1992, the arc through the goal point). A goal behind the
+/// vehicle (x < 0) would give a nearly straight arc that drives away from it; there the
+/// curvature is held at its value for a goal abeam, 2 / L towards the goal's side, so the
+/// vehicle turns back as tightly as the yaw-rate clamp lets it.
+#[inline]
+pub fn pursuit_curvature(goal_x_m: f64, goal_y_m: f64) -> f64 {
+    let l2 = goal_x_m * goal_x_m + goal_y_m * goal_y_m;
+    if l2 <= 1e-18 {
+        return 0.0;
+    }
+    if goal_x_m < 0.0 {
+        let side = if goal_y_m < 0.0 { -1.0 } else { 1.0 };
+        return side * 2.0 / l2.sqrt();
+    }
+    2.0 * goal_y_m / l2
+}
+
+/// Saturates side speeds at `max_mps` by scaling both together, which keeps the curvature.
+#[inline]
+pub fn saturate_sides(left_mps: f64, right_mps: f64, max_mps: f64) -> (f64, f64) {
+    let peak = left_mps.abs().max(right_mps.abs());
+    if peak > max_mps && peak > 0.0 {
+        let k = max_mps / peak;
+        (left_mps * k, right_mps * k)
+    } else {
+        (left_mps, right_mps)
+    }
+}
+
+/// The side speeds one control step commands, and what they were derived from.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Command {
+    pub left_mps: f64,
+    pub right_mps: f64,
+    /// Forward speed after the speed profile and ramp.
+    pub speed_mps: f64,
+    /// Pure-pursuit curvature before the yaw-rate clamp.
+    pub curvature_per_m: f64,
+}
+
+/// Follower state along one route. Create one per rollout (or per Monte Carlo sample).
+#[derive(Debug, Clone)]
+pub struct Follower<'a> {
+    plan: &'a PlanPath,
+    /// Target speed of each leg.
+    leg_speed_mps: &'a [f64],
+    limits: FollowerLimits,
+    progress_m: f64,
+    speed_mps: f64,
+    left_mps: f64,
+    right_mps: f64,
+}
+
+impl<'a> Follower<'a> {
+    pub fn new(plan: &'a PlanPath, leg_speed_mps: &'a [f64], limits: FollowerLimits) -> Self {
+        Follower { plan, leg_speed_mps, limits, progress_m: 0.0, speed_mps: 0.0, left_mps: 0.0, right_mps: 0.0 }
+    }
+
+    /// Arc length of the progress point.
+    pub fn progress_m(&self) -> f64 {
+        self.progress_m
+    }
+
+    /// Leg of the progress point.
+    pub fn leg(&self) -> usize {
+        self.plan.leg_at(self.progress_m)
+    }
+
+    /// Moves the progress point forward to the nearest plan point within one lookahead ahead;
+    /// it never moves back, so loops and self-crossings are followed in order. While the
+    /// vehicle is farther than a lookahead from the plan it is lost and the progress point
+    /// holds (otherwise the window would drag it along the plan), so the goal stays where the
+    /// vehicle left the plan and the controller steers back to it.
+    #[inline]
+    pub fn update_progress(&mut self, pose: Pose) {
+        let near =
+            self.plan.nearest_within([pose.x_m, pose.y_m], self.progress_m, self.progress_m + self.limits.lookahead_m);
+        if near.s_m > self.progress_m && near.distance_m <= self.limits.lookahead_m {
+            self.progress_m = near.s_m;
+        }
+    }
+
+    /// Target speed at the progress point: the leg's speed, limited so the vehicle can slow to
+    /// the next leg's speed at its start and stop at the end within the acceleration limit.
+    #[inline]
+    fn target_speed_mps(&self) -> f64 {
+        let a = self.limits.max_side_accel_mps2;
+        let leg = self.plan.leg_at(self.progress_m);
+        let mut v = self.leg_speed_mps[leg];
+        if let Some(&next_v) = self.leg_speed_mps.get(leg + 1) {
+            let to_boundary = (self.plan.leg_bounds_m(leg).1 - self.progress_m).max(0.0);
+            v = v.min((next_v * next_v + 2.0 * a * to_boundary).sqrt());
+        }
+        let remaining = (self.plan.length_m() - self.progress_m).max(0.0);
+        v.min((2.0 * a * remaining).sqrt().max(CREEP_SPEED_MPS))
+    }
+
+    /// One control step: pure pursuit on `pose` (the pose the controller believes), then the
+    /// speed ramp, yaw-rate clamp, inverse model, saturation and per-side acceleration limit.
+    #[inline]
+    pub fn command(&mut self, pose: Pose, controller: &Model) -> Command {
+        let lim = self.limits;
+        let goal =
+            self.plan.pursuit_goal([pose.x_m, pose.y_m], self.progress_m, lim.lookahead_m, 3.0 * lim.lookahead_m);
+        let (gx, gy) = pose.to_body(goal[0], goal[1]);
+        let kappa = pursuit_curvature(gx, gy);
+        let dv = lim.max_side_accel_mps2 * lim.dt_s;
+        self.speed_mps += (self.target_speed_mps() - self.speed_mps).clamp(-dv, dv);
+        let omega = (kappa * self.speed_mps).clamp(-lim.max_yaw_rate_radps, lim.max_yaw_rate_radps);
+        let half = 0.5 * omega * lim.track_width_m;
+        let (l, r) =
+            controller.inverse(self.speed_mps, omega).unwrap_or((self.speed_mps - half, self.speed_mps + half));
+        let (l, r) = saturate_sides(l, r, lim.max_side_speed_mps);
+        self.left_mps += (l - self.left_mps).clamp(-dv, dv);
+        self.right_mps += (r - self.right_mps).clamp(-dv, dv);
+        Command {
+            left_mps: self.left_mps,
+            right_mps: self.right_mps,
+            speed_mps: self.speed_mps,
+            curvature_per_m: kappa,
+        }
+    }
+
+    /// True once the vehicle has passed the normal through the last plan point (with its
+    /// progress point within a lookahead of the end), or has stopped within 0.2 m of it.
+    #[inline]
+    pub fn finished(&self, pose: Pose) -> bool {
+        let total = self.plan.length_m();
+        if self.progress_m < total - self.limits.lookahead_m {
+            return false;
+        }
+        let end = self.plan.point_at(total);
+        let dir = self.plan.direction_at(total);
+        let (ex, ey) = (pose.x_m - end[0], pose.y_m - end[1]);
+        let passed = ex * dir[0] + ey * dir[1] >= 0.0;
+        let stopped_near = self.left_mps.abs().max(self.right_mps.abs()) < 1e-3 && (ex * ex + ey * ey).sqrt() < 0.2;
+        passed || stopped_near
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    #[test]
+    fn pure_pursuit_reference_curvature() {
+        // Coulter 1992 (CMU-RI-TR-92-01): curvature 2 y / L^2; goal (3, 1) in the body frame
+        // gives 2 * 1 / 10 = 0.2 1/m.
+        assert_relative_eq!(pursuit_curvature(3.0, 1.0), 0.2, epsilon = 1e-12);
+        assert_relative_eq!(pursuit_curvature(3.0, -1.0), -0.2, epsilon = 1e-12);
+        assert_eq!(pursuit_curvature(0.0, 0.0), 0.0);
+    }
+
+    #[test]
+    fn goal_behind_turns_towards_it_at_the_abeam_curvature() {
+        // Continuous at the abeam goal: 2 y / L^2 = 2 / L for x = 0.
+        assert_relative_eq!(pursuit_curvature(0.0, 2.0), 1.0, epsilon = 1e-12);
+        assert_relative_eq!(pursuit_curvature(-1e-9, 2.0), 1.0, epsilon = 1e-6);
+        assert_relative_eq!(pursuit_curvature(-3.0, -0.1), -2.0 / (9.01_f64).sqrt(), epsilon = 1e-12);
+    }
+
+    #[test]
+    fn saturation_keeps_curvature() {
+        let (l, r) = saturate_sides(1.5, 3.0, 2.0);
+        assert_relative_eq!(r, 2.0);
+        assert_relative_eq!(l, 1.0);
+        assert_relative_eq!(r / l, 3.0 / 1.5);
+        assert_eq!(saturate_sides(0.5, -0.7, 2.0), (0.5, -0.7));
+    }
+
+    fn limits() -> FollowerLimits {
+        FollowerLimits {
+            lookahead_m: 1.5,
+            dt_s: 0.05,
+            max_yaw_rate_radps: 1.2,
+            max_side_speed_mps: 2.0,
+            max_side_accel_mps2: 1.0,
+            track_width_m: 0.9,
+        }
+    }
+
+    #[test]
+    fn speed_ramps_at_the_acceleration_limit_and_sides_respect_limits() {
+        let plan = PlanPath::from_parts(vec![[0.0, 0.0], [50.0, 0.0]], &[0], None);
+        let speeds = [1.5];
+        let mut f = Follower::new(&plan, &speeds, limits());
+        let model = Model::ideal(0.9);
+        let mut prev = Command::default();
+        for k in 1..=10 {
+            let c = f.command(Pose::default(), &model);
+            assert_relative_eq!(c.speed_mps, 0.05 * k as f64, epsilon = 1e-12);
+            assert!((c.left_mps - prev.left_mps).abs() <= 0.05 + 1e-12);
+            assert!((c.right_mps - prev.right_mps).abs() <= 0.05 + 1e-12);
+            prev = c;
+        }
+    }
+
+    #[test]
+    fn yaw_rate_is_clamped() {
+        // A goal far to the left asks for a tight turn; the side-speed difference is bounded by
+        // the yaw-rate clamp once the speed has ramped up.
+        let plan = PlanPath::from_parts(vec![[0.0, 0.0], [0.1, 0.0], [0.1, 30.0]], &[0], None);
+        let speeds = [2.0];
+        let mut lim = limits();
+        lim.max_side_accel_mps2 = 100.0;
+        let mut f = Follower::new(&plan, &speeds, lim);
+        let model = Model::ideal(0.9);
+        let c = f.command(Pose::default(), &model);
+        let omega = (c.right_mps - c.left_mps) / 0.9;
+        assert!(omega <= 1.2 + 1e-9, "omega {omega}");
+    }
+
+    #[test]
+    fn progress_never_moves_back() {
+        let plan = PlanPath::from_parts(vec![[0.0, 0.0], [10.0, 0.0]], &[0], None);
+        let speeds = [1.0];
+        let mut f = Follower::new(&plan, &speeds, limits());
+        f.update_progress(Pose::new(1.0, 0.2, 0.0));
+        let s = f.progress_m();
+        assert_relative_eq!(s, 1.0);
+        f.update_progress(Pose::new(0.5, 0.0, 0.0));
+        assert_eq!(f.progress_m(), s);
+    }
+}

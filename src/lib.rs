@@ -1,0 +1,23 @@
+//! skidroute: screen planned routes for skid-steered ground vehicles on mixed terrain.
+//!
+//! Data flow (see README.md): `route` (read + project + plan geometry) -> `vehicle` (profile)
+//! -> `kinematics` (model families, SE(2)) -> `follow` (controller) -> `rollout` (simulation)
+//! -> `assess` (per-leg verdicts) -> `report` (table, JSON, CSV, GeoJSON, plots).
+//! Everything inside is SI, local frame x east, y north, yaw anticlockwise from x.
+
+pub mod assess;
+pub mod check;
+pub mod error;
+pub mod follow;
+pub mod kinematics;
+pub mod report;
+pub mod rollout;
+pub mod route;
+pub mod vehicle;
+
+pub use error::Error;
+
+/// The caution carried by every report and the README.
+pub const CAUTION: &str = "Predictions come from a model calibrated on past drives; they are estimates, \
+not guarantees. Trial new routes under supervision at reduced speed, keep people clear of the \
+vehicle's path, and follow local regulations and site safety rules, which take precedence over this tool.";

@@ -1,0 +1,35 @@
+//! The check report as a JSON document (`"format": "skidroute-check/1"`, DESIGN 5).
+
+use serde::Serialize;
+
+use crate::assess::{RouteReport, Verdict};
+use crate::check::CheckRun;
+use crate::CAUTION;
+
+/// Format tag of the check document.
+pub const CHECK_FORMAT: &str = "skidroute-check/1";
+
+#[derive(Serialize)]
+struct CheckDocument<'a> {
+    format: &'static str,
+    vehicle: &'a str,
+    demo_profile: bool,
+    verdict: Verdict,
+    caution: &'static str,
+    routes: Vec<&'a RouteReport>,
+}
+
+/// The JSON document of a check run, pretty-printed, ending in a newline.
+pub fn check_json(run: &CheckRun) -> String {
+    let doc = CheckDocument {
+        format: CHECK_FORMAT,
+        vehicle: &run.vehicle_name,
+        demo_profile: run.demo_profile,
+        verdict: run.verdict(),
+        caution: CAUTION,
+        routes: run.routes.iter().map(|r| &r.report).collect(),
+    };
+    let mut s = serde_json::to_string_pretty(&doc).unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"));
+    s.push('\n');
+    s
+}

@@ -1,0 +1,76 @@
+//! Reports of a check: the terminal table, the JSON document, the trace CSV, the predicted
+//! path as GeoJSON and the plot. This is the only module that writes files; every file is
+//! written to a temporary file in the target folder and renamed into place, so a failure never
+//! leaves a partial output.
+
+mod atomic;
+pub mod json;
+pub mod plot;
+pub mod predicted;
+pub mod table;
+pub mod trace_csv;
+
+use std::path::PathBuf;
+
+pub use atomic::{write_atomic, write_atomic_with};
+
+/// An output could not be produced or written.
+#[derive(Debug, thiserror::Error)]
+pub enum ReportError {
+    #[error("{file}: cannot write: {source}")]
+    Io { file: PathBuf, source: std::io::Error },
+    #[error("{file}: {what}")]
+    Output { file: PathBuf, what: String },
+}
+
+/// Where the outputs of a check go; `None` skips an output.
+#[derive(Debug, Clone, Default)]
+pub struct CheckOutputs {
+    pub report_json: Option<PathBuf>,
+    pub trace_csv: Option<PathBuf>,
+    pub predicted_geojson: Option<PathBuf>,
+    pub plot: Option<PathBuf>,
+}
+
+impl CheckOutputs {
+    /// All output paths that are set.
+    pub fn paths(&self) -> impl Iterator<Item = &PathBuf> {
+        [&self.report_json, &self.trace_csv, &self.predicted_geojson, &self.plot].into_iter().flatten()
+    }
+}
+
+/// Writes every requested file output of a check run.
+pub fn write_check_outputs(run: &crate::check::CheckRun, out: &CheckOutputs) -> Result<(), ReportError> {
+    if let Some(p) = &out.predicted_geojson {
+        let text = predicted::predicted_geojson(run).map_err(|what| ReportError::Output { file: p.clone(), what })?;
+        write_atomic(p, text.as_bytes())?;
+    }
+    if let Some(p) = &out.report_json {
+        write_atomic(p, json::check_json(run).as_bytes())?;
+    }
+    if let Some(p) = &out.trace_csv {
+        write_atomic(p, trace_csv::trace_csv(run).as_bytes())?;
+    }
+    if let Some(p) = &out.plot {
+        plot::write_plot(run, p)?;
+    }
+    Ok(())
+}
+
+/// Refuses an output path that names one of the inputs (nothing the user gave is overwritten).
+pub fn refuse_overwriting_inputs<'a>(
+    inputs: impl IntoIterator<Item = &'a PathBuf>,
+    outputs: impl IntoIterator<Item = &'a PathBuf>,
+) -> Result<(), ReportError> {
+    let canon = |p: &PathBuf| std::fs::canonicalize(p).unwrap_or_else(|_| p.clone());
+    let inputs: Vec<PathBuf> = inputs.into_iter().map(canon).collect();
+    for out in outputs {
+        if inputs.contains(&canon(out)) {
+            return Err(ReportError::Output {
+                file: out.clone(),
+                what: "is one of the inputs; refusing to overwrite it".into(),
+            });
+        }
+    }
+    Ok(())
+}

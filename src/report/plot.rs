@@ -1,0 +1,348 @@
+//! The check plot (SVG or PNG by extension): per route, a top view with the plan coloured by
+//! terrain, the predicted path, failing legs marked, equal axis scales in metres; below it the
+//! deviation against distance along the route with each leg's corridor.
+//!
+//! Text is drawn with a bundled DejaVu Sans (Bitstream Vera licence, see fonts/LICENSE-DejaVu)
+//! through plotters' pure-Rust font path, so no system font library is needed.
+
+use std::path::Path;
+use std::sync::Once;
+
+use plotters::coord::Shift;
+use plotters::prelude::*;
+use plotters::style::FontStyle;
+
+use super::ReportError;
+use crate::assess::Verdict;
+use crate::check::{CheckRun, CheckedRoute};
+
+/// Width of the image in pixels.
+const WIDTH_PX: u32 = 1400;
+/// Height of the panels of one route in pixels.
+const ROUTE_HEIGHT_PX: u32 = 1050;
+/// Width of the legend column beside the top view.
+const LEGEND_WIDTH_PX: u32 = 330;
+/// Routes drawn at most in one image.
+pub const MAX_ROUTES_PLOTTED: usize = 6;
+
+static FONTS: Once = Once::new();
+
+/// Registers the bundled font with plotters (needed for SVG too: layout needs metrics).
+pub fn register_fonts() {
+    FONTS.call_once(|| {
+        let _ = plotters::style::register_font("sans-serif", FontStyle::Normal, dejavu::sans::regular());
+        let _ = plotters::style::register_font("sans-serif", FontStyle::Bold, dejavu::sans::bold());
+    });
+}
+
+/// Colour of a terrain on plots. The known terrains have fixed colours of our own choosing;
+/// others take one from a fallback palette by a stable hash of the name.
+pub fn terrain_color(terrain: &str) -> RGBColor {
+    match terrain {
+        "asphalt" => RGBColor(70, 70, 78),
+        "gravel" => RGBColor(184, 134, 72),
+        "grass" => RGBColor(76, 154, 42),
+        "packed-snow" => RGBColor(96, 170, 220),
+        "deep-snow" => RGBColor(36, 84, 150),
+        "slush" => RGBColor(150, 120, 200),
+        "mud" => RGBColor(110, 80, 50),
+        "ice" => RGBColor(0, 190, 190),
+        other => {
+            const PALETTE: [RGBColor; 6] = [
+                RGBColor(230, 150, 20),
+                RGBColor(200, 60, 150),
+                RGBColor(20, 150, 130),
+                RGBColor(130, 130, 20),
+                RGBColor(90, 90, 200),
+                RGBColor(200, 100, 80),
+            ];
+            let h = other.bytes().fold(5381u32, |h, b| h.wrapping_mul(33) ^ u32::from(b));
+            PALETTE[(h % PALETTE.len() as u32) as usize]
+        }
+    }
+}
+
+const FAIL_RED: RGBColor = RGBColor(220, 30, 30);
+const CAUTION_AMBER: RGBColor = RGBColor(240, 170, 0);
+
+/// Writes the plot of a run; the format follows the extension (`.svg` or `.png`).
+pub fn write_plot(run: &CheckRun, path: &Path) -> Result<(), ReportError> {
+    register_fonts();
+    let n = run.routes.len().clamp(1, MAX_ROUTES_PLOTTED) as u32;
+    let size = (WIDTH_PX, ROUTE_HEIGHT_PX * n);
+    let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
+    let fail = |what: String| ReportError::Output { file: path.to_path_buf(), what };
+    match ext.as_str() {
+        "svg" => {
+            let mut svg = String::new();
+            {
+                let root = SVGBackend::with_string(&mut svg, size).into_drawing_area();
+                draw_run(&root, run).map_err(fail)?;
+                root.present().map_err(|e| fail(e.to_string()))?;
+            }
+            super::write_atomic(path, svg.as_bytes())
+        }
+        "png" => super::write_atomic_with(path, |tmp| {
+            let root = BitMapBackend::new(tmp, size).into_drawing_area();
+            draw_run(&root, run).map_err(std::io::Error::other)?;
+            root.present().map_err(|e| std::io::Error::other(e.to_string()))
+        }),
+        _ => Err(fail(format!("unknown plot format '.{ext}': expected .svg or .png"))),
+    }
+}
+
+fn draw_run<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, run: &CheckRun) -> Result<(), String>
+where
+    DB::ErrorType: 'static,
+{
+    root.fill(&WHITE).map_err(|e| e.to_string())?;
+    let n = run.routes.len().clamp(1, MAX_ROUTES_PLOTTED);
+    let areas = root.split_evenly((n, 1));
+    for (cr, area) in run.routes.iter().zip(areas.iter()) {
+        draw_route(area, cr, run).map_err(|e| format!("drawing route '{}': {e}", cr.route.name))?;
+    }
+    Ok(())
+}
+
+type DrawResult<T> = Result<T, Box<dyn std::error::Error>>;
+
+fn draw_route<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, cr: &CheckedRoute, run: &CheckRun) -> DrawResult<()>
+where
+    DB::ErrorType: 'static,
+{
+    let r = &cr.report;
+    let profile = if run.demo_profile { "built-in demo profile" } else { run.vehicle_name.as_str() };
+    let title =
+        format!("route '{}': {}   ({:.0} m, {})", r.route, r.verdict.name().to_uppercase(), r.length_m, profile);
+    let body = area.titled(&title, ("sans-serif", 26))?;
+    let (w, h) = body.dim_in_pixel();
+    let (top, bottom) = body.split_vertically((h as f64 * 0.72) as u32);
+    let (map, legend) = top.split_horizontally(w.saturating_sub(LEGEND_WIDTH_PX));
+    draw_top_view(&map, cr)?;
+    draw_legend(&legend, &legend_entries(cr))?;
+    draw_deviation(&bottom, cr)?;
+    Ok(())
+}
+
+/// Axis ranges with equal metres per pixel on both axes, padded by 6 %.
+fn equal_ranges(points: impl Iterator<Item = (f64, f64)>, w_px: f64, h_px: f64) -> ((f64, f64), (f64, f64)) {
+    let (mut x0, mut x1, mut y0, mut y1) = (f64::INFINITY, f64::NEG_INFINITY, f64::INFINITY, f64::NEG_INFINITY);
+    for (x, y) in points {
+        x0 = x0.min(x);
+        x1 = x1.max(x);
+        y0 = y0.min(y);
+        y1 = y1.max(y);
+    }
+    if !x0.is_finite() {
+        return ((-1.0, 1.0), (-1.0, 1.0));
+    }
+    let (cx, cy) = (0.5 * (x0 + x1), 0.5 * (y0 + y1));
+    let m_per_px = ((x1 - x0).max(1.0) / w_px).max((y1 - y0).max(1.0) / h_px) * 1.06;
+    let (hw, hh) = (0.5 * m_per_px * w_px, 0.5 * m_per_px * h_px);
+    ((cx - hw, cx + hw), (cy - hh, cy + hh))
+}
+
+fn draw_top_view<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, cr: &CheckedRoute) -> DrawResult<()>
+where
+    DB::ErrorType: 'static,
+{
+    let (margin, x_lab, y_lab) = (12u32, 45u32, 70u32);
+    let (w, h) = area.dim_in_pixel();
+    let plot_w = f64::from(w.saturating_sub(2 * margin + y_lab).max(10));
+    let plot_h = f64::from(h.saturating_sub(2 * margin + x_lab).max(10));
+    let plan_pts = cr.drive.plan.points().iter().map(|p| (p[0], p[1]));
+    let trace_pts = cr.trace.steps.iter().map(|s| (s.pose.x_m, s.pose.y_m));
+    let ((x0, x1), (y0, y1)) = equal_ranges(plan_pts.chain(trace_pts), plot_w, plot_h);
+    let mut chart = ChartBuilder::on(area)
+        .margin(margin)
+        .x_label_area_size(x_lab)
+        .y_label_area_size(y_lab)
+        .build_cartesian_2d(x0..x1, y0..y1)?;
+    let frame = if cr.route.origin.is_some() { "of the route start" } else { "in the map frame" };
+    chart
+        .configure_mesh()
+        .x_desc(format!("east {frame} (m)"))
+        .y_desc(format!("north {frame} (m)"))
+        .label_style(("sans-serif", 16))
+        .axis_desc_style(("sans-serif", 17))
+        .light_line_style(RGBColor(235, 235, 235))
+        .bold_line_style(RGBColor(215, 215, 215))
+        .draw()?;
+    draw_plan_legs(&mut chart, cr)?;
+    let pred = cr.trace.steps.iter().map(|s| (s.pose.x_m, s.pose.y_m));
+    chart.draw_series(LineSeries::new(pred, BLACK.stroke_width(2)))?;
+    draw_markers(&mut chart, cr)?;
+    Ok(())
+}
+
+type TopChart<'a, DB> =
+    ChartContext<'a, DB, Cartesian2d<plotters::coord::types::RangedCoordf64, plotters::coord::types::RangedCoordf64>>;
+
+fn leg_points(cr: &CheckedRoute, leg: usize, step_m: f64) -> Vec<(f64, f64)> {
+    let (a, b) = cr.drive.plan.leg_bounds_m(leg);
+    let n = (((b - a) / step_m).ceil() as usize).clamp(1, 20_000);
+    (0..=n)
+        .map(|k| {
+            let p = cr.drive.plan.point_at(a + (b - a) * k as f64 / n as f64);
+            (p[0], p[1])
+        })
+        .collect()
+}
+
+fn draw_plan_legs<DB: DrawingBackend>(chart: &mut TopChart<'_, DB>, cr: &CheckedRoute) -> DrawResult<()>
+where
+    DB::ErrorType: 'static,
+{
+    let step_m = (cr.drive.plan.length_m() / 4000.0).max(0.05);
+    for leg in &cr.report.legs {
+        let pts = leg_points(cr, leg.index - 1, step_m);
+        let halo = match leg.verdict {
+            Verdict::Fail => Some(FAIL_RED),
+            Verdict::Caution => Some(CAUTION_AMBER),
+            Verdict::Pass => None,
+        };
+        if let Some(c) = halo {
+            chart.draw_series(LineSeries::new(pts.clone(), c.mix(0.45).stroke_width(16)))?;
+        }
+    }
+    for leg in &cr.report.legs {
+        let pts = leg_points(cr, leg.index - 1, step_m);
+        chart.draw_series(LineSeries::new(pts, terrain_color(&leg.terrain).stroke_width(7)))?;
+    }
+    Ok(())
+}
+
+fn draw_markers<DB: DrawingBackend>(chart: &mut TopChart<'_, DB>, cr: &CheckedRoute) -> DrawResult<()>
+where
+    DB::ErrorType: 'static,
+{
+    let plan = &cr.drive.plan;
+    let start = plan.point_at(0.0);
+    let end = plan.point_at(plan.length_m());
+    chart.draw_series(std::iter::once(Circle::new((start[0], start[1]), 7, RGBColor(0, 140, 0).filled())))?;
+    chart.draw_series(std::iter::once(
+        EmptyElement::at((end[0], end[1])) + Rectangle::new([(-6, -6), (6, 6)], BLACK.filled()),
+    ))?;
+    for leg in cr.report.legs.iter().filter(|l| l.verdict != Verdict::Pass) {
+        let color = if leg.verdict == Verdict::Fail { FAIL_RED } else { CAUTION_AMBER };
+        let p = plan.point_at(leg.tightest_turn_at_m);
+        let label = format!("leg {} {}", leg.index, leg.verdict.name().to_uppercase());
+        chart.draw_series(std::iter::once(
+            EmptyElement::at((p[0], p[1])) + Cross::new((0, 0), 9, color.stroke_width(4)),
+        ))?;
+        chart.draw_series(std::iter::once(Text::new(
+            label,
+            (p[0], p[1]),
+            ("sans-serif", 18).into_font().color(&color).pos(plotters::style::text_anchor::Pos::new(
+                plotters::style::text_anchor::HPos::Left,
+                plotters::style::text_anchor::VPos::Bottom,
+            )),
+        )))?;
+    }
+    Ok(())
+}
+
+/// A legend line: what its glyph looks like and its text.
+enum Glyph {
+    Line(RGBColor, u32),
+    Halo(RGBColor),
+    Cross(RGBColor),
+    Dot(RGBColor),
+    Square,
+}
+
+fn legend_entries(cr: &CheckedRoute) -> Vec<(Glyph, String)> {
+    let mut entries = Vec::new();
+    let mut seen: Vec<&str> = Vec::new();
+    for leg in &cr.report.legs {
+        if !seen.contains(&leg.terrain.as_str()) {
+            seen.push(&leg.terrain);
+            entries.push((Glyph::Line(terrain_color(&leg.terrain), 7), format!("plan on {}", leg.terrain)));
+        }
+    }
+    entries.push((Glyph::Line(BLACK, 2), "predicted path".to_string()));
+    entries.push((Glyph::Dot(RGBColor(0, 140, 0)), "start".to_string()));
+    entries.push((Glyph::Square, "end".to_string()));
+    let worst = cr.report.legs.iter().map(|l| l.verdict).max().unwrap_or(Verdict::Pass);
+    if worst >= Verdict::Caution {
+        entries.push((Glyph::Halo(CAUTION_AMBER), "leg with a caution".to_string()));
+        entries.push((Glyph::Halo(FAIL_RED), "failing leg".to_string()));
+        entries.push((Glyph::Cross(FAIL_RED), "tightest turn of the leg".to_string()));
+    }
+    entries
+}
+
+fn draw_legend<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, entries: &[(Glyph, String)]) -> DrawResult<()>
+where
+    DB::ErrorType: 'static,
+{
+    let (x0, mut y) = (16i32, 24i32);
+    let font = ("sans-serif", 17).into_font();
+    area.draw(&Text::new("legend", (x0, y - 8), ("sans-serif", 18).into_font()))?;
+    y += 22;
+    for (glyph, text) in entries {
+        let seg = vec![(x0, y), (x0 + 34, y)];
+        match glyph {
+            Glyph::Line(c, w) => area.draw(&PathElement::new(seg, c.stroke_width(*w)))?,
+            Glyph::Halo(c) => area.draw(&PathElement::new(seg, c.mix(0.45).stroke_width(14)))?,
+            Glyph::Cross(c) => area.draw(&Cross::new((x0 + 17, y), 8, c.stroke_width(4)))?,
+            Glyph::Dot(c) => area.draw(&Circle::new((x0 + 17, y), 7, c.filled()))?,
+            Glyph::Square => area.draw(&Rectangle::new([(x0 + 11, y - 6), (x0 + 23, y + 6)], BLACK.filled()))?,
+        }
+        area.draw(&Text::new(text.as_str(), (x0 + 46, y - 9), font.clone()))?;
+        y += 30;
+    }
+    Ok(())
+}
+
+fn draw_deviation<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, cr: &CheckedRoute) -> DrawResult<()>
+where
+    DB::ErrorType: 'static,
+{
+    let total_m = cr.drive.plan.length_m().max(1.0);
+    let max_corr = cr.report.legs.iter().map(|l| l.corridor_m).fold(0.0, f64::max);
+    let y_max = (cr.report.max_deviation_m.max(max_corr) * 1.15).max(0.1);
+    let mut chart = ChartBuilder::on(area)
+        .margin(12)
+        .x_label_area_size(45)
+        .y_label_area_size(70)
+        .build_cartesian_2d(0.0..total_m, 0.0..y_max)?;
+    chart
+        .configure_mesh()
+        .x_desc("distance along the route (m)")
+        .y_desc("deviation (m)")
+        .label_style(("sans-serif", 16))
+        .axis_desc_style(("sans-serif", 17))
+        .light_line_style(RGBColor(240, 240, 240))
+        .draw()?;
+    for leg in &cr.report.legs {
+        let (a, b) = cr.drive.plan.leg_bounds_m(leg.index - 1);
+        chart.draw_series(std::iter::once(PathElement::new(
+            vec![(a, 0.0), (a, y_max)],
+            RGBColor(190, 190, 190).stroke_width(1),
+        )))?;
+        let color = terrain_color(&leg.terrain);
+        chart.draw_series(std::iter::once(Rectangle::new([(a, 0.0), (b, y_max * 0.03)], color.filled())))?;
+    }
+    let corridor = cr.report.legs.iter().flat_map(|l| {
+        let (a, b) = cr.drive.plan.leg_bounds_m(l.index - 1);
+        [(a, l.corridor_m), (b, l.corridor_m)]
+    });
+    chart
+        .draw_series(DashedLineSeries::new(corridor, 10, 6, FAIL_RED.stroke_width(2)))?
+        .label("corridor")
+        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 24, y)], FAIL_RED.stroke_width(2)));
+    let dev = cr.trace.steps.iter().map(|s| (s.progress_m, s.deviation_m));
+    chart
+        .draw_series(LineSeries::new(dev, BLACK.stroke_width(2)))?
+        .label("predicted deviation")
+        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 24, y)], BLACK.stroke_width(2)));
+    chart
+        .configure_series_labels()
+        .position(SeriesLabelPosition::UpperLeft)
+        .label_font(("sans-serif", 16))
+        .background_style(WHITE.mix(0.85))
+        .border_style(RGBColor(160, 160, 160))
+        .draw()?;
+    Ok(())
+}

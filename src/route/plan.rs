@@ -1,0 +1,357 @@
+//! The plan as one polyline per route, in local metres, with arc length, leg boundaries and the
+//! queries the follower and the assessment need: point at arc length, nearest point within a
+//! window of arc length (so a loop's far side never counts), pure-pursuit goal search, and the
+//! plan's curvature measured at a stated scale (DESIGN 6.4).
+//!
+//! All queries are allocation-free.
+
+use super::Route;
+
+/// A route's plan as one polyline. Leg boundaries are arc lengths; the boundary point is shared.
+#[derive(Debug, Clone)]
+pub struct PlanPath {
+    points: Vec<[f64; 2]>,
+    /// Arc length at each point, metres; `s_m[0] == 0`.
+    s_m: Vec<f64>,
+    /// Arc length where each leg starts and ends.
+    leg_bounds_m: Vec<(f64, f64)>,
+    /// Altitude at each point when every leg carries it.
+    altitude_m: Option<Vec<f64>>,
+}
+
+/// The nearest point of the plan to a query point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Nearest {
+    pub s_m: f64,
+    pub distance_m: f64,
+    /// Positive when the query point lies left of the plan's direction.
+    pub signed_offset_m: f64,
+}
+
+impl PlanPath {
+    /// Joins the legs of a route (a leg's first point replaces the previous leg's last point,
+    /// which the reader has checked lies within the join tolerance).
+    pub fn new(route: &Route) -> PlanPath {
+        let mut points: Vec<[f64; 2]> = Vec::new();
+        let mut alt: Vec<f64> = Vec::new();
+        let has_alt = route.legs.iter().all(|l| l.altitude_m.is_some());
+        let mut leg_first_index = Vec::with_capacity(route.legs.len());
+        for leg in &route.legs {
+            if !points.is_empty() {
+                points.pop();
+                alt.pop();
+            }
+            leg_first_index.push(points.len());
+            points.extend_from_slice(&leg.points);
+            if let Some(a) = &leg.altitude_m {
+                alt.extend_from_slice(a);
+            }
+        }
+        Self::from_parts(points, &leg_first_index, has_alt.then_some(alt))
+    }
+
+    /// A plan from raw points and the index of each leg's first point (for tests and tools).
+    pub fn from_parts(points: Vec<[f64; 2]>, leg_first_index: &[usize], altitude_m: Option<Vec<f64>>) -> PlanPath {
+        let mut s_m = Vec::with_capacity(points.len());
+        let mut s = 0.0;
+        for (i, p) in points.iter().enumerate() {
+            if i > 0 {
+                s += dist(points[i - 1], *p);
+            }
+            s_m.push(s);
+        }
+        let total = s;
+        let leg_bounds_m = leg_first_index
+            .iter()
+            .enumerate()
+            .map(|(k, &i)| {
+                let start = s_m.get(i).copied().unwrap_or(total);
+                let end = leg_first_index.get(k + 1).and_then(|&j| s_m.get(j).copied()).unwrap_or(total);
+                (start, end)
+            })
+            .collect();
+        PlanPath { points, s_m, leg_bounds_m, altitude_m }
+    }
+
+    pub fn length_m(&self) -> f64 {
+        self.s_m.last().copied().unwrap_or(0.0)
+    }
+
+    pub fn points(&self) -> &[[f64; 2]] {
+        &self.points
+    }
+
+    pub fn leg_count(&self) -> usize {
+        self.leg_bounds_m.len()
+    }
+
+    /// (start, end) arc length of leg `leg`.
+    pub fn leg_bounds_m(&self, leg: usize) -> (f64, f64) {
+        self.leg_bounds_m[leg]
+    }
+
+    /// The leg containing arc length `s_m` (a boundary belongs to the leg it starts).
+    pub fn leg_at(&self, s_m: f64) -> usize {
+        let n = self.leg_bounds_m.len();
+        let i = self.leg_bounds_m.partition_point(|&(start, _)| start <= s_m);
+        i.saturating_sub(1).min(n.saturating_sub(1))
+    }
+
+    /// Index of the segment containing arc length `s_m` (clamped to the path).
+    #[inline]
+    fn segment_at(&self, s_m: f64) -> usize {
+        let i = self.s_m.partition_point(|&s| s <= s_m);
+        i.saturating_sub(1).min(self.points.len().saturating_sub(2))
+    }
+
+    /// Point at arc length `s_m`, clamped to the ends.
+    #[inline]
+    pub fn point_at(&self, s_m: f64) -> [f64; 2] {
+        let i = self.segment_at(s_m);
+        self.point_on_segment(i, s_m)
+    }
+
+    #[inline]
+    fn point_on_segment(&self, i: usize, s_m: f64) -> [f64; 2] {
+        let (a, b) = (self.points[i], self.points[i + 1]);
+        let len = self.s_m[i + 1] - self.s_m[i];
+        let t = if len > 0.0 { ((s_m - self.s_m[i]) / len).clamp(0.0, 1.0) } else { 0.0 };
+        [a[0] + t * (b[0] - a[0]), a[1] + t * (b[1] - a[1])]
+    }
+
+    /// Unit direction of the plan at arc length `s_m`.
+    pub fn direction_at(&self, s_m: f64) -> [f64; 2] {
+        let i = self.segment_at(s_m);
+        let (a, b) = (self.points[i], self.points[i + 1]);
+        let len = dist(a, b).max(1e-12);
+        [(b[0] - a[0]) / len, (b[1] - a[1]) / len]
+    }
+
+    /// Altitude at arc length `s_m`, when the plan has altitude.
+    pub fn altitude_at(&self, s_m: f64) -> Option<f64> {
+        let alt = self.altitude_m.as_ref()?;
+        let i = self.segment_at(s_m);
+        let len = self.s_m[i + 1] - self.s_m[i];
+        let t = if len > 0.0 { ((s_m - self.s_m[i]) / len).clamp(0.0, 1.0) } else { 0.0 };
+        Some(alt[i] + t * (alt[i + 1] - alt[i]))
+    }
+
+    pub fn has_altitude(&self) -> bool {
+        self.altitude_m.is_some()
+    }
+
+    /// Nearest point of the plan to `p` among the parts with arc length in `[from_m, to_m]`.
+    #[inline]
+    pub fn nearest_within(&self, p: [f64; 2], from_m: f64, to_m: f64) -> Nearest {
+        let (first, last) = (self.segment_at(from_m), self.segment_at(to_m));
+        let mut best = Nearest { s_m: from_m, distance_m: f64::INFINITY, signed_offset_m: 0.0 };
+        for i in first..=last {
+            let (a, b) = (self.points[i], self.points[i + 1]);
+            let (s0, s1) = (self.s_m[i].max(from_m), self.s_m[i + 1].min(to_m));
+            let len = self.s_m[i + 1] - self.s_m[i];
+            if len <= 0.0 || s1 < s0 {
+                continue;
+            }
+            let d = [(b[0] - a[0]) / len, (b[1] - a[1]) / len];
+            let along = (p[0] - a[0]) * d[0] + (p[1] - a[1]) * d[1];
+            let s = (self.s_m[i] + along).clamp(s0, s1);
+            let q = self.point_on_segment(i, s);
+            let (ex, ey) = (p[0] - q[0], p[1] - q[1]);
+            // Before the start or past the end of the plan only the lateral offset counts (the
+            // plan's end lines extend straight), so overshooting the end is not a deviation.
+            let raw_s = self.s_m[i] + along;
+            let off_ends = (i == 0 && raw_s < 0.0 && s0 <= 0.0)
+                || (i + 2 == self.points.len() && raw_s > s1 && s1 >= self.length_m());
+            let dist_m = if off_ends { (d[0] * ey - d[1] * ex).abs() } else { (ex * ex + ey * ey).sqrt() };
+            if dist_m < best.distance_m {
+                let side = d[0] * ey - d[1] * ex;
+                best =
+                    Nearest { s_m: s, distance_m: dist_m, signed_offset_m: if side >= 0.0 { dist_m } else { -dist_m } };
+            }
+        }
+        best
+    }
+
+    /// The pure-pursuit goal: the first point of the plan beyond arc length `from_m` that lies at
+    /// Euclidean distance `lookahead_m` from `p`, searched up to `from_m + search_m`. When the
+    /// vehicle is farther than the lookahead from the plan, no such point exists and the goal is
+    /// the point `lookahead_m` ahead of the progress point; past the end it is the end point.
+    #[inline]
+    pub fn pursuit_goal(&self, p: [f64; 2], from_m: f64, lookahead_m: f64, search_m: f64) -> [f64; 2] {
+        let total = self.length_m();
+        let to_m = (from_m + search_m).min(total);
+        let (first, last) = (self.segment_at(from_m), self.segment_at(to_m));
+        let l2 = lookahead_m * lookahead_m;
+        for i in first..=last {
+            let len = self.s_m[i + 1] - self.s_m[i];
+            if len <= 0.0 {
+                continue;
+            }
+            let a = self.point_on_segment(i, from_m.max(self.s_m[i]));
+            let b = self.point_on_segment(i, to_m.min(self.s_m[i + 1]));
+            // Points of a + t (b - a), t in [0, 1], at distance L from p: the larger root.
+            let (dx, dy) = (b[0] - a[0], b[1] - a[1]);
+            let (fx, fy) = (a[0] - p[0], a[1] - p[1]);
+            let qa = dx * dx + dy * dy;
+            if qa <= 0.0 {
+                continue;
+            }
+            let qb = 2.0 * (fx * dx + fy * dy);
+            let qc = fx * fx + fy * fy - l2;
+            let disc = qb * qb - 4.0 * qa * qc;
+            if disc < 0.0 {
+                continue;
+            }
+            let t = (-qb + disc.sqrt()) / (2.0 * qa);
+            if (0.0..=1.0).contains(&t) {
+                return [a[0] + t * dx, a[1] + t * dy];
+            }
+        }
+        if to_m >= total && dist(p, self.point_at(total)) < lookahead_m {
+            return self.point_at(total);
+        }
+        self.point_at((from_m + lookahead_m).min(total))
+    }
+
+    /// Signed Menger curvature of the plan at arc length `s_m`, from the points `scale_m`
+    /// before and after (DESIGN 6.4): kappa = 2 cross(p2 - p1, p3 - p2) / (|p1p2| |p2p3| |p1p3|).
+    /// Zero where the points before or after fall off the ends of the plan.
+    pub fn curvature_at(&self, s_m: f64, scale_m: f64) -> f64 {
+        if s_m - scale_m < 0.0 || s_m + scale_m > self.length_m() {
+            return 0.0;
+        }
+        menger_curvature(self.point_at(s_m - scale_m), self.point_at(s_m), self.point_at(s_m + scale_m))
+    }
+
+    /// Largest |curvature| over leg `leg`, sampled every `step_m` (0.1 m in DESIGN 6.4), with
+    /// the neighbouring legs' points used near the boundaries; returns (|kappa|, arc length).
+    pub fn required_curvature(&self, leg: usize, scale_m: f64, step_m: f64) -> (f64, f64) {
+        let (start, end) = self.leg_bounds_m[leg];
+        let n = ((end - start) / step_m).ceil().max(1.0) as usize;
+        let mut best = (0.0, start);
+        for k in 0..=n {
+            let s = (start + k as f64 * step_m).min(end);
+            let kappa = self.curvature_at(s, scale_m).abs();
+            if kappa > best.0 {
+                best = (kappa, s);
+            }
+        }
+        best
+    }
+}
+
+/// Signed Menger curvature of three points: 2 cross(p2 - p1, p3 - p2) / (|p1p2| |p2p3| |p1p3|);
+/// positive for a left turn, 0 for coincident points.
+#[inline]
+pub fn menger_curvature(p1: [f64; 2], p2: [f64; 2], p3: [f64; 2]) -> f64 {
+    let cross = (p2[0] - p1[0]) * (p3[1] - p2[1]) - (p2[1] - p1[1]) * (p3[0] - p2[0]);
+    let denom = dist(p1, p2) * dist(p2, p3) * dist(p1, p3);
+    if denom <= 0.0 {
+        return 0.0;
+    }
+    2.0 * cross / denom
+}
+
+#[inline]
+pub fn dist(a: [f64; 2], b: [f64; 2]) -> f64 {
+    ((b[0] - a[0]).powi(2) + (b[1] - a[1]).powi(2)).sqrt()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    fn circle(radius_m: f64, n: usize, turns: f64) -> Vec<[f64; 2]> {
+        (0..=n)
+            .map(|i| {
+                let a = turns * std::f64::consts::TAU * i as f64 / n as f64 - std::f64::consts::FRAC_PI_2;
+                [radius_m * a.cos(), radius_m + radius_m * a.sin()]
+            })
+            .collect()
+    }
+
+    #[test]
+    fn menger_reference_values() {
+        // Menger curvature (plane geometry: the circumscribed circle of three points has
+        // radius abc / (4 area)): (0,0),(1,1),(2,0) lie on a circle of radius 1 turning right.
+        assert_relative_eq!(menger_curvature([0.0, 0.0], [1.0, 1.0], [2.0, 0.0]), -1.0, epsilon = 1e-12);
+        for r in [0.5, 3.0, 40.0] {
+            let (a, b, c) = (0.3_f64, 1.1_f64, 2.0_f64);
+            let on = |t: f64| [r * t.cos(), r * t.sin()];
+            assert_relative_eq!(menger_curvature(on(a), on(b), on(c)), 1.0 / r, max_relative = 1e-12);
+        }
+        assert_eq!(menger_curvature([1.0, 1.0], [1.0, 1.0], [2.0, 3.0]), 0.0);
+    }
+
+    #[test]
+    fn sharp_corner_reads_two_sin_half_angle_over_scale() {
+        // DESIGN 6.4 (plane geometry): an isosceles triangle with legs s and turning angle theta
+        // has circumradius s / (2 sin(theta/2)).
+        let theta = 1.2_f64;
+        let pts = vec![[-10.0, 0.0], [0.0, 0.0], [10.0 * theta.cos(), 10.0 * theta.sin()]];
+        let plan = PlanPath::from_parts(pts, &[0], None);
+        let s = 0.5;
+        let (k, at) = plan.required_curvature(0, s, 0.1);
+        assert_relative_eq!(k, 2.0 * (theta / 2.0).sin() / s, max_relative = 1e-9);
+        assert_relative_eq!(at, 10.0, epsilon = 1e-9);
+    }
+
+    #[test]
+    fn circle_curvature_is_inverse_radius() {
+        let plan = PlanPath::from_parts(circle(5.0, 2000, 0.75), &[0], None);
+        let (k, _) = plan.required_curvature(0, 0.5, 0.1);
+        assert_relative_eq!(k, 0.2, max_relative = 1e-3);
+    }
+
+    #[test]
+    fn nearest_within_ignores_far_side_of_a_loop() {
+        // A hairpin: out along y = 0, back along y = 1.
+        let pts = vec![[0.0, 0.0], [10.0, 0.0], [10.0, 1.0], [0.0, 1.0]];
+        let plan = PlanPath::from_parts(pts, &[0], None);
+        let p = [5.0, 0.8];
+        let near = plan.nearest_within(p, 3.0, 7.0);
+        assert_relative_eq!(near.distance_m, 0.8, epsilon = 1e-12);
+        assert!(near.signed_offset_m > 0.0);
+        let all = plan.nearest_within(p, 0.0, plan.length_m());
+        assert_relative_eq!(all.distance_m, 0.2, epsilon = 1e-12);
+    }
+
+    #[test]
+    fn beyond_the_ends_only_the_lateral_offset_counts() {
+        let plan = PlanPath::from_parts(vec![[0.0, 0.0], [10.0, 0.0]], &[0], None);
+        let past = plan.nearest_within([10.5, 0.1], 9.0, 10.0);
+        assert_relative_eq!(past.distance_m, 0.1, epsilon = 1e-12);
+        assert_relative_eq!(past.s_m, 10.0, epsilon = 1e-12);
+        let before = plan.nearest_within([-0.5, -0.2], 0.0, 1.0);
+        assert_relative_eq!(before.distance_m, 0.2, epsilon = 1e-12);
+        assert!(before.signed_offset_m < 0.0);
+        // Inside the plan the end clamps as usual.
+        let inside = plan.nearest_within([10.5, 0.1], 2.0, 5.0);
+        assert_relative_eq!(inside.distance_m, (5.5f64 * 5.5 + 0.01).sqrt(), epsilon = 1e-12);
+    }
+
+    #[test]
+    fn pursuit_goal_lies_at_lookahead_ahead() {
+        let plan = PlanPath::from_parts(vec![[0.0, 0.0], [20.0, 0.0]], &[0], None);
+        let g = plan.pursuit_goal([2.0, 0.5], 2.0, 1.5, 10.0);
+        assert_relative_eq!(dist(g, [2.0, 0.5]), 1.5, epsilon = 1e-12);
+        assert!(g[0] > 2.0 && g[1] == 0.0);
+        let far = plan.pursuit_goal([2.0, 5.0], 2.0, 1.5, 10.0);
+        assert_relative_eq!(far[0], 3.5, epsilon = 1e-12);
+        let end = plan.pursuit_goal([19.5, 0.0], 19.5, 1.5, 10.0);
+        assert_eq!(end, [20.0, 0.0]);
+    }
+
+    #[test]
+    fn legs_and_boundaries() {
+        let pts = vec![[0.0, 0.0], [3.0, 0.0], [3.0, 4.0], [6.0, 4.0]];
+        let plan = PlanPath::from_parts(pts, &[0, 1, 2], None);
+        assert_eq!(plan.leg_bounds_m(1), (3.0, 7.0));
+        assert_eq!(plan.leg_at(0.0), 0);
+        assert_eq!(plan.leg_at(3.0), 1);
+        assert_eq!(plan.leg_at(9.9), 2);
+        assert_eq!(plan.leg_at(100.0), 2);
+        assert_relative_eq!(plan.length_m(), 10.0);
+    }
+}

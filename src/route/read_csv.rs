@@ -1,0 +1,460 @@
+//! Reads a CSV route file: planner output already in a local map frame (x east, y north, metres),
+//! kept as is so traces and plots line up with the planner's map (DESIGN 3, 4).
+//!
+//! Header `x_m,y_m,terrain` with optional `z_m`, `speed_mps`, `corridor_m`, `leg`, `route`, in any
+//! order; an unknown column is an error, so a typo cannot silently drop a speed or corridor.
+//! Rows are grouped by `route`; within a route a new leg starts where `leg` changes or, without a
+//! `leg` column, where terrain, speed or corridor changes. The boundary point belongs to both legs.
+
+use std::path::Path;
+
+use csv::{ReaderBuilder, StringRecord, Trim};
+
+use super::{
+    file_stem_name, find_duplicate_point, group_in_order, Leg, Route, RouteError, SourcePosition, DUPLICATE_POINT_M,
+};
+
+const KNOWN_COLUMNS: &str = "x_m, y_m, terrain and optionally z_m, speed_mps, corridor_m, leg, route";
+
+/// Where each column is in a record.
+#[derive(Default)]
+struct Columns {
+    x_m: Option<usize>,
+    y_m: Option<usize>,
+    terrain: Option<usize>,
+    z_m: Option<usize>,
+    speed_mps: Option<usize>,
+    corridor_m: Option<usize>,
+    leg: Option<usize>,
+    route: Option<usize>,
+}
+
+/// One data row, validated.
+struct Row {
+    line: usize,
+    point: [f64; 2],
+    z_m: Option<f64>,
+    terrain: String,
+    speed_mps: Option<f64>,
+    corridor_m: Option<f64>,
+    leg: Option<String>,
+}
+
+/// A leg being assembled from rows, with the line of each point for messages.
+struct LegBuilder {
+    leg: Leg,
+    lines: Vec<usize>,
+}
+
+/// Parses a CSV route file; `path` is only used in messages and `Route::source`.
+pub(super) fn parse(path: &Path, text: &str) -> Result<Vec<Route>, RouteError> {
+    let file_error = |what: &str| RouteError::File { file: path.to_path_buf(), what: what.to_string() };
+    // Spreadsheet and Windows tools often prepend a UTF-8 byte-order mark.
+    let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+    if text.trim().is_empty() {
+        return Err(file_error("file is empty"));
+    }
+    let mut reader = ReaderBuilder::new().trim(Trim::All).from_reader(text.as_bytes());
+    let header = reader.headers().map_err(|e| csv_error(path, &e, 1))?.clone();
+    let columns = read_header(&header).map_err(|what| at(path, 1, what))?;
+    let mut rows = Vec::new();
+    for (k, record) in reader.records().enumerate() {
+        let record = record.map_err(|e| csv_error(path, &e, k + 2))?;
+        let line = record.position().and_then(|p| usize::try_from(p.line()).ok()).unwrap_or(k + 2);
+        let route = cell(&record, columns.route).filter(|r| !r.is_empty()).map(str::to_string);
+        let row = read_row(&columns, &record, line).map_err(|what| at(path, line, what))?;
+        rows.push((route, row));
+    }
+    if rows.is_empty() {
+        return Err(file_error("has a header but no data rows"));
+    }
+    let stem = file_stem_name(path);
+    let groups = group_in_order(rows.into_iter().map(|(route, row)| (route.unwrap_or_else(|| stem.clone()), row)));
+    groups
+        .into_iter()
+        .map(|(name, rows)| {
+            let legs = split_legs(path, &rows, columns.leg.is_some())?;
+            Ok(Route { name, source: path.to_path_buf(), origin: None, legs })
+        })
+        .collect()
+}
+
+fn at(path: &Path, line: usize, what: String) -> RouteError {
+    RouteError::At { file: path.to_path_buf(), position: SourcePosition::Line(line), what }
+}
+
+fn csv_error(path: &Path, error: &csv::Error, fallback_line: usize) -> RouteError {
+    let line = error.position().and_then(|p| usize::try_from(p.line()).ok()).unwrap_or(fallback_line);
+    let what = match error.kind() {
+        csv::ErrorKind::UnequalLengths { expected_len, len, .. } => {
+            format!("has {len} fields, the header has {expected_len}")
+        }
+        _ => format!("cannot parse CSV: {error}"),
+    };
+    at(path, line, what)
+}
+
+fn read_header(header: &StringRecord) -> Result<Columns, String> {
+    let mut columns = Columns::default();
+    for (index, name) in header.iter().enumerate() {
+        let slot = match name {
+            "x_m" => &mut columns.x_m,
+            "y_m" => &mut columns.y_m,
+            "terrain" => &mut columns.terrain,
+            "z_m" => &mut columns.z_m,
+            "speed_mps" => &mut columns.speed_mps,
+            "corridor_m" => &mut columns.corridor_m,
+            "leg" => &mut columns.leg,
+            "route" => &mut columns.route,
+            _ => return Err(format!("unknown column '{name}' (expected {KNOWN_COLUMNS})")),
+        };
+        if slot.replace(index).is_some() {
+            return Err(format!("column {name} appears twice"));
+        }
+    }
+    for (name, slot) in [("x_m", columns.x_m), ("y_m", columns.y_m), ("terrain", columns.terrain)] {
+        if slot.is_none() {
+            return Err(format!("header lacks the required column {name} (expected {KNOWN_COLUMNS})"));
+        }
+    }
+    Ok(columns)
+}
+
+fn cell(record: &StringRecord, index: Option<usize>) -> Option<&str> {
+    index.and_then(|i| record.get(i))
+}
+
+fn read_row(columns: &Columns, record: &StringRecord, line: usize) -> Result<Row, String> {
+    let terrain = required_cell(record, columns.terrain, "terrain")?.to_string();
+    let z_m = match columns.z_m {
+        Some(_) => Some(number(required_cell(record, columns.z_m, "z_m")?, "z_m")?),
+        None => None,
+    };
+    Ok(Row {
+        line,
+        point: [
+            number(required_cell(record, columns.x_m, "x_m")?, "x_m")?,
+            number(required_cell(record, columns.y_m, "y_m")?, "y_m")?,
+        ],
+        z_m,
+        terrain,
+        speed_mps: positive_cell(record, columns.speed_mps, "speed_mps")?,
+        corridor_m: positive_cell(record, columns.corridor_m, "corridor_m")?,
+        leg: cell(record, columns.leg).filter(|l| !l.is_empty()).map(str::to_string),
+    })
+}
+
+fn required_cell<'r>(record: &'r StringRecord, index: Option<usize>, column: &str) -> Result<&'r str, String> {
+    match cell(record, index) {
+        Some(value) if !value.is_empty() => Ok(value),
+        _ => Err(format!("column {column} is empty")),
+    }
+}
+
+fn number(text: &str, column: &str) -> Result<f64, String> {
+    match text.parse::<f64>() {
+        Ok(value) if value.is_finite() => Ok(value),
+        Ok(_) => Err(format!("column {column}: '{text}' is not a finite number")),
+        Err(_) => Err(format!("column {column}: '{text}' is not a number")),
+    }
+}
+
+/// An optional speed or corridor: an empty cell means "use the profile's default".
+fn positive_cell(record: &StringRecord, index: Option<usize>, column: &str) -> Result<Option<f64>, String> {
+    match cell(record, index) {
+        None | Some("") => Ok(None),
+        Some(text) => match number(text, column)? {
+            value if value > 0.0 => Ok(Some(value)),
+            value => Err(format!("column {column}: {value} must be > 0")),
+        },
+    }
+}
+
+/// Splits one route's rows into legs, the first row of each new leg closing the previous one.
+fn split_legs(path: &Path, rows: &[Row], has_leg_column: bool) -> Result<Vec<Leg>, RouteError> {
+    let mut finished = Vec::new();
+    let mut current: Option<LegBuilder> = None;
+    for row in rows {
+        current = Some(match current.take() {
+            None => LegBuilder::start(row),
+            Some(mut builder) => {
+                if !starts_new_leg(&builder.leg, row, has_leg_column).map_err(|what| at(path, row.line, what))? {
+                    builder.push(row);
+                    builder
+                } else {
+                    builder.close_with(row);
+                    finished.push(builder);
+                    LegBuilder::start(row)
+                }
+            }
+        });
+    }
+    finished.extend(current);
+    finished.into_iter().map(|builder| builder.finish(path)).collect()
+}
+
+/// Whether `row` begins a new leg. With a `leg` column, only a change of `leg` does, and a change
+/// of terrain, speed or corridor inside one leg is an error (which would apply is ambiguous).
+fn starts_new_leg(leg: &Leg, row: &Row, has_leg_column: bool) -> Result<bool, String> {
+    let same_attributes =
+        leg.terrain == row.terrain && leg.speed_mps == row.speed_mps && leg.corridor_m == row.corridor_m;
+    if !has_leg_column {
+        return Ok(!same_attributes);
+    }
+    if leg.name != row.leg {
+        return Ok(true);
+    }
+    if same_attributes {
+        return Ok(false);
+    }
+    let name = leg.name.as_deref().unwrap_or("");
+    Err(format!("terrain, speed_mps or corridor_m changes within leg '{name}': give the new part its own leg value"))
+}
+
+impl LegBuilder {
+    fn start(row: &Row) -> Self {
+        let leg = Leg {
+            name: row.leg.clone(),
+            terrain: row.terrain.clone(),
+            speed_mps: row.speed_mps,
+            corridor_m: row.corridor_m,
+            points: vec![row.point],
+            altitude_m: row.z_m.map(|z_m| vec![z_m]),
+            position: SourcePosition::Line(row.line),
+        };
+        LegBuilder { leg, lines: vec![row.line] }
+    }
+
+    fn push(&mut self, row: &Row) {
+        self.leg.points.push(row.point);
+        if let (Some(altitude_m), Some(z_m)) = (self.leg.altitude_m.as_mut(), row.z_m) {
+            altitude_m.push(z_m);
+        }
+        self.lines.push(row.line);
+    }
+
+    /// Appends the next leg's first row as this leg's last point, so the legs join exactly. When a
+    /// planner already repeated the boundary point (last row of this leg == first row of the next,
+    /// within DUPLICATE_POINT_M), it is not added twice: the legs still join.
+    fn close_with(&mut self, row: &Row) {
+        let repeated = self
+            .leg
+            .points
+            .last()
+            .is_some_and(|last| (row.point[0] - last[0]).hypot(row.point[1] - last[1]) < DUPLICATE_POINT_M);
+        if !repeated {
+            self.push(row);
+        }
+    }
+
+    fn finish(self, path: &Path) -> Result<Leg, RouteError> {
+        let LegBuilder { leg, lines } = self;
+        let first_line = lines.first().copied().unwrap_or(1);
+        let label = leg.name.as_ref().map_or_else(|| "leg".to_string(), |name| format!("leg '{name}'"));
+        let n = leg.points.len();
+        if n < 2 {
+            let what = format!("{label} has {n} point{}, at least 2 are needed", if n == 1 { "" } else { "s" });
+            return Err(at(path, first_line, what));
+        }
+        if let Some((i, distance_m)) = find_duplicate_point(&leg.points) {
+            let (line_a, line_b) =
+                (lines.get(i).copied().unwrap_or(first_line), lines.get(i + 1).copied().unwrap_or(first_line));
+            let what = format!(
+                "points on lines {line_a} and {line_b} are {distance_m:.4} m apart (closer than {DUPLICATE_POINT_M} m): remove the duplicate"
+            );
+            return Err(at(path, line_a, what));
+        }
+        Ok(leg)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const FILE: &str = "plans/yard.csv";
+
+    fn read(text: &str) -> Result<Vec<Route>, RouteError> {
+        parse(Path::new(FILE), text)
+    }
+
+    /// The error message, checked to name the file.
+    fn error_of(text: &str) -> String {
+        let message = match read(text) {
+            Ok(routes) => panic!("expected an error, read {} routes", routes.len()),
+            Err(e) => e.to_string(),
+        };
+        assert!(message.starts_with(&format!("{FILE}: ")), "{message}");
+        message
+    }
+
+    fn xs(leg: &Leg) -> Vec<f64> {
+        leg.points.iter().map(|p| p[0]).collect()
+    }
+
+    #[test]
+    fn reads_one_leg_in_the_map_frame() {
+        let routes = read("x_m,y_m,terrain\n0,0,grass\n10.5,-2,grass\n20,3.25,grass\n").expect("valid file");
+        assert_eq!(routes.len(), 1);
+        let route = &routes[0];
+        assert_eq!((route.name.as_str(), route.origin, route.source.as_path()), ("yard", None, Path::new(FILE)));
+        assert_eq!(route.legs.len(), 1);
+        let leg = &route.legs[0];
+        assert_eq!(leg.points, vec![[0.0, 0.0], [10.5, -2.0], [20.0, 3.25]]);
+        assert_eq!(
+            (leg.name.as_deref(), leg.terrain.as_str(), leg.speed_mps, leg.corridor_m),
+            (None, "grass", None, None)
+        );
+        assert_eq!((leg.altitude_m.as_ref(), leg.position), (None, SourcePosition::Line(2)));
+    }
+
+    #[test]
+    fn splits_legs_where_terrain_speed_or_corridor_change_sharing_the_boundary_point() {
+        let text = "terrain, y_m, x_m, speed_mps, corridor_m\n\
+                    grass, 0, 0, 1.0, \n\
+                    grass, 0, 10, 1.0, \n\
+                    snow, 0, 20, 1.0, \n\
+                    snow, 0, 30, 0.5, \n\
+                    snow, 0, 40, 0.5, 0.3\n\
+                    snow, 0, 50, 0.5, 0.3\n";
+        let routes = read(text).expect("valid file");
+        let legs = &routes[0].legs;
+        assert_eq!(legs.len(), 4);
+        assert_eq!(xs(&legs[0]), [0.0, 10.0, 20.0]);
+        assert_eq!(xs(&legs[1]), [20.0, 30.0]);
+        assert_eq!(xs(&legs[2]), [30.0, 40.0]);
+        assert_eq!(xs(&legs[3]), [40.0, 50.0]);
+        let positions: Vec<_> = legs.iter().map(|l| l.position).collect();
+        assert_eq!(positions, [2, 4, 5, 6].map(SourcePosition::Line));
+        assert_eq!((legs[0].terrain.as_str(), legs[1].terrain.as_str()), ("grass", "snow"));
+        assert_eq!((legs[1].speed_mps, legs[2].speed_mps), (Some(1.0), Some(0.5)));
+        assert_eq!((legs[2].corridor_m, legs[3].corridor_m), (None, Some(0.3)));
+    }
+
+    #[test]
+    fn splits_legs_by_the_leg_column_with_altitude() {
+        let text = "x_m,y_m,z_m,terrain,leg\n\
+                    0,0,100,grass,approach\n\
+                    10,0,101,grass,approach\n\
+                    10,10,102,grass,climb\n\
+                    10,20,104,grass,climb\n";
+        let routes = read(text).expect("valid file");
+        let legs = &routes[0].legs;
+        assert_eq!(legs.len(), 2);
+        assert_eq!((legs[0].name.as_deref(), legs[1].name.as_deref()), (Some("approach"), Some("climb")));
+        assert_eq!(legs[0].points, vec![[0.0, 0.0], [10.0, 0.0], [10.0, 10.0]]);
+        assert_eq!(legs[0].altitude_m, Some(vec![100.0, 101.0, 102.0]));
+        assert_eq!(legs[1].altitude_m, Some(vec![102.0, 104.0]));
+        assert_eq!(legs[1].position, SourcePosition::Line(4));
+    }
+
+    #[test]
+    fn a_repeated_boundary_point_is_not_doubled() {
+        // Planners often end one leg and start the next on the same point.
+        let text = "x_m,y_m,terrain,leg\n0,0,grass,a\n10,0,grass,a\n10,0,snow,b\n20,0,snow,b\n";
+        let legs = &read(text).expect("valid file")[0].legs;
+        assert_eq!(xs(&legs[0]), [0.0, 10.0]);
+        assert_eq!(xs(&legs[1]), [10.0, 20.0]);
+    }
+
+    #[test]
+    fn groups_rows_by_route_in_order_of_first_appearance() {
+        let text = "route,x_m,y_m,terrain\n\
+                    west,0,0,grass\n\
+                    ,5,5,grass\n\
+                    west,-10,0,grass\n\
+                    east,0,0,gravel\n\
+                    ,6,6,grass\n\
+                    east,10,0,gravel\n";
+        let routes = read(text).expect("valid file");
+        let names: Vec<_> = routes.iter().map(|r| r.name.as_str()).collect();
+        assert_eq!(names, ["west", "yard", "east"]);
+        assert_eq!(xs(&routes[0].legs[0]), [0.0, -10.0]);
+        assert_eq!(routes[1].legs[0].points, vec![[5.0, 5.0], [6.0, 6.0]]);
+        assert_eq!(routes[1].legs[0].position, SourcePosition::Line(3));
+        assert_eq!(xs(&routes[2].legs[0]), [0.0, 10.0]);
+    }
+
+    #[test]
+    fn accepts_a_byte_order_mark() {
+        assert!(read("\u{feff}x_m,y_m,terrain\n0,0,grass\n1,0,grass\n").is_ok());
+    }
+
+    #[test]
+    fn rejects_an_empty_file_or_a_header_alone() {
+        assert_eq!(error_of(""), format!("{FILE}: file is empty"));
+        assert_eq!(error_of("\n  \n"), format!("{FILE}: file is empty"));
+        assert_eq!(error_of("x_m,y_m,terrain\n"), format!("{FILE}: has a header but no data rows"));
+    }
+
+    #[test]
+    fn rejects_unknown_duplicate_and_missing_columns() {
+        let message = error_of("x_m,y_m,terrain,speed\n0,0,grass,1\n");
+        assert!(message.starts_with(&format!("{FILE}: line 1: unknown column 'speed'")), "{message}");
+        assert!(error_of("x_m,y_m,terrain,x_m\n0,0,grass,1\n").contains("line 1: column x_m appears twice"));
+        assert!(error_of("x_m,y_m\n0,0\n").contains("line 1: header lacks the required column terrain"));
+    }
+
+    #[test]
+    fn rejects_a_missing_terrain_value() {
+        let message = error_of("x_m,y_m,terrain\n0,0,grass\n1,0,\n");
+        assert_eq!(message, format!("{FILE}: line 3: column terrain is empty"));
+    }
+
+    #[test]
+    fn rejects_non_finite_and_non_numeric_values() {
+        let message = error_of("x_m,y_m,terrain\nNaN,0,grass\n1,0,grass\n");
+        assert_eq!(message, format!("{FILE}: line 2: column x_m: 'NaN' is not a finite number"));
+        assert!(
+            error_of("x_m,y_m,terrain\n0,0,grass\n1,inf,grass\n").contains("line 3: column y_m: 'inf' is not a finite")
+        );
+        assert!(
+            error_of("x_m,y_m,terrain,z_m\n0,0,grass,1e999\n").contains("line 2: column z_m: '1e999' is not a finite")
+        );
+        assert!(
+            error_of("x_m,y_m,terrain\n0,0,grass\n1,abc,grass\n").contains("line 3: column y_m: 'abc' is not a number")
+        );
+        assert!(error_of("x_m,y_m,terrain,z_m\n0,0,grass,1\n1,0,grass,\n").contains("line 3: column z_m is empty"));
+    }
+
+    #[test]
+    fn rejects_a_negative_speed_or_a_zero_corridor() {
+        let message = error_of("x_m,y_m,terrain,speed_mps\n0,0,grass,1\n1,0,grass,-1.5\n");
+        assert_eq!(message, format!("{FILE}: line 3: column speed_mps: -1.5 must be > 0"));
+        assert!(
+            error_of("x_m,y_m,terrain,corridor_m\n0,0,grass,0\n").contains("line 2: column corridor_m: 0 must be > 0")
+        );
+    }
+
+    #[test]
+    fn rejects_a_row_with_the_wrong_field_count() {
+        let message = error_of("x_m,y_m,terrain\n0,0,grass\n1,0\n");
+        assert!(message.contains("line 3: has 2 fields, the header has 3"), "{message}");
+    }
+
+    #[test]
+    fn rejects_a_one_point_leg() {
+        assert_eq!(
+            error_of("x_m,y_m,terrain\n0,0,grass\n"),
+            format!("{FILE}: line 2: leg has 1 point, at least 2 are needed")
+        );
+        // A terrain change on the last row leaves the new leg with a single point.
+        let message = error_of("x_m,y_m,terrain,leg\n0,0,grass,a\n1,0,grass,a\n2,0,snow,b\n");
+        assert_eq!(message, format!("{FILE}: line 4: leg 'b' has 1 point, at least 2 are needed"));
+    }
+
+    #[test]
+    fn rejects_duplicate_consecutive_points() {
+        let message = error_of("x_m,y_m,terrain\n0,0,grass\n5,5,grass\n5,5.0001,grass\n9,9,grass\n");
+        assert!(
+            message.starts_with(&format!("{FILE}: line 3: points on lines 3 and 4 are 0.0001 m apart")),
+            "{message}"
+        );
+    }
+
+    #[test]
+    fn rejects_an_attribute_change_within_a_named_leg() {
+        let message = error_of("x_m,y_m,terrain,leg\n0,0,grass,a\n1,0,snow,a\n2,0,snow,a\n");
+        assert!(message.contains("line 3: terrain, speed_mps or corridor_m changes within leg 'a'"), "{message}");
+    }
+}

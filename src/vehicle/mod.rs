@@ -1,0 +1,151 @@
+//! Vehicle profiles: geometry, limits, follower settings and one calibrated model per terrain,
+//! read from TOML with strict validation (unknown keys and out-of-range values name the key), and
+//! the built-in demo profile. SI units throughout.
+
+mod parse;
+mod write;
+
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+
+use crate::kinematics::{Family, Model};
+
+pub use parse::parse_profile;
+pub use write::profile_to_toml;
+
+/// The built-in demo profile: an invented tracked carrier. Its coefficients are invented for the
+/// demo and are not data.
+pub const DEMO_PROFILE_TOML: &str = include_str!("demo.toml");
+
+/// Running gear: changes the turning-resistance moment (Wong 2008).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum RunningGear {
+    Tracks,
+    Wheels,
+}
+
+impl RunningGear {
+    pub fn name(self) -> &'static str {
+        match self {
+            RunningGear::Tracks => "tracks",
+            RunningGear::Wheels => "wheels",
+        }
+    }
+}
+
+/// Geometry and limits of the vehicle (`[vehicle]`).
+#[derive(Debug, Clone, PartialEq)]
+pub struct VehicleSpec {
+    pub name: String,
+    pub running_gear: RunningGear,
+    /// B, track centreline to centreline.
+    pub track_width_m: f64,
+    /// l, track ground contact length, or wheelbase for wheels.
+    pub contact_length_m: f64,
+    pub mass_kg: f64,
+    pub max_side_speed_mps: f64,
+    pub max_side_accel_mps2: f64,
+    pub max_side_thrust_n: f64,
+    pub max_power_w: f64,
+    /// Electrical/mechanical to track, in (0, 1].
+    pub drivetrain_efficiency: f64,
+    pub regenerative: bool,
+    pub cruise_speed_mps: f64,
+    pub max_yaw_rate_radps: f64,
+    /// Usable battery energy, when known (optional key `battery_wh`).
+    pub battery_wh: Option<f64>,
+}
+
+/// How the onboard controller turns a (v, omega) command into side speeds.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum InverseChoice {
+    /// Ideal differential drive with the nominal track width.
+    Ideal,
+    /// The terrain's calibrated model (the controller knows the terrain).
+    Calibrated,
+}
+
+/// Path follower settings (`[follower]`).
+#[derive(Debug, Clone, PartialEq)]
+pub struct FollowerSpec {
+    pub lookahead_m: f64,
+    pub control_rate_hz: f64,
+    pub inverse_model: InverseChoice,
+    /// Default corridor (allowed lateral deviation either side) for legs without one.
+    pub corridor_m: f64,
+    /// Spacing used to measure the plan's curvature (DESIGN 6.4).
+    pub curvature_scale_m: f64,
+}
+
+/// One terrain (`[terrain.NAME]`): its calibrated motion model and traction coefficients.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TerrainSpec {
+    pub model: Model,
+    /// f_r, rolling resistance coefficient.
+    pub rolling_resistance: f64,
+    /// mu, limit of thrust / normal load.
+    pub traction_coefficient: f64,
+    /// mu_t at a pivot turn (R = B/2).
+    pub lateral_resistance_max: f64,
+    /// Parameter covariance in the family's parameter order (written by `fit`).
+    pub covariance: Option<Vec<Vec<f64>>>,
+    pub noise_heading_rad_per_sqrt_m: f64,
+    pub noise_along_m_per_sqrt_m: f64,
+    pub noise_cross_m_per_sqrt_m: f64,
+}
+
+/// A validated vehicle profile.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Profile {
+    pub vehicle: VehicleSpec,
+    pub follower: FollowerSpec,
+    /// Terrains by name, sorted.
+    pub terrain: BTreeMap<String, TerrainSpec>,
+}
+
+impl Profile {
+    /// The built-in demo profile.
+    pub fn demo() -> Profile {
+        match parse_profile(Path::new("<built-in demo profile>"), DEMO_PROFILE_TOML) {
+            Ok(p) => p,
+            // The demo text is a compile-time constant covered by a unit test.
+            Err(e) => unreachable!("built-in demo profile is invalid: {e}"),
+        }
+    }
+
+    /// Reads and validates a profile file.
+    pub fn read(path: &Path) -> Result<Profile, VehicleError> {
+        let text =
+            std::fs::read_to_string(path).map_err(|source| VehicleError::Io { file: path.to_path_buf(), source })?;
+        parse_profile(path, &text)
+    }
+
+    /// Terrain names, sorted.
+    pub fn terrain_names(&self) -> Vec<&str> {
+        self.terrain.keys().map(String::as_str).collect()
+    }
+
+    /// The model the onboard controller inverts on a terrain.
+    pub fn controller_model(&self, terrain: &TerrainSpec) -> Model {
+        match self.follower.inverse_model {
+            InverseChoice::Ideal => Model::ideal(self.vehicle.track_width_m),
+            InverseChoice::Calibrated => terrain.model.clone(),
+        }
+    }
+}
+
+/// Family of a terrain model, for reports.
+pub fn family_of(t: &TerrainSpec) -> Family {
+    t.model.family()
+}
+
+/// A problem in a profile file. Messages name the file and the key (with its table path).
+#[derive(Debug, thiserror::Error)]
+pub enum VehicleError {
+    #[error("{file}: cannot read: {source}")]
+    Io { file: PathBuf, source: std::io::Error },
+    #[error("{file}: not valid TOML: {message}")]
+    Syntax { file: PathBuf, message: String },
+    #[error("{file}: {key}: {what}")]
+    Key { file: PathBuf, key: String, what: String },
+}
