@@ -10,6 +10,7 @@ pub mod check;
 pub mod error;
 pub mod follow;
 pub mod kinematics;
+pub mod progress;
 pub mod report;
 pub mod rollout;
 pub mod route;
