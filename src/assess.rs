@@ -132,10 +132,18 @@ fn finite(x: f64) -> Option<f64> {
     x.is_finite().then_some(x)
 }
 
+/// The steps driven on one leg. The progress point only moves forward, so steps are sorted
+/// by leg and each leg's steps are one slice.
+pub fn leg_steps(trace: &Trace, leg: usize) -> &[crate::rollout::Step] {
+    let a = trace.steps.partition_point(|s| s.leg < leg);
+    let b = trace.steps.partition_point(|s| s.leg <= leg);
+    &trace.steps[a..b.max(a)]
+}
+
 /// Deviation statistics of the steps on one leg: (max, rms, end, time).
 fn deviation_stats(trace: &Trace, leg: usize, dt_s: f64) -> (f64, f64, f64, f64) {
     let (mut max, mut sum_sq, mut n, mut end) = (0.0_f64, 0.0, 0usize, 0.0);
-    for s in trace.steps.iter().filter(|s| s.leg == leg) {
+    for s in leg_steps(trace, leg) {
         max = max.max(s.deviation_m);
         sum_sq += s.deviation_m * s.deviation_m;
         n += 1;

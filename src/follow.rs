@@ -7,7 +7,8 @@
 //! CMU-RI-TR-92-01. Units: metres, seconds, radians; poses in the local frame.
 
 use crate::kinematics::{Model, MotionModel, Pose};
-use crate::route::PlanPath;
+use crate::route::plan::Nearest;
+use crate::route::{Cursor, PlanPath};
 
 /// Controller limits and rates, taken from the profile.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -75,11 +76,34 @@ pub struct Follower<'a> {
     speed_mps: f64,
     left_mps: f64,
     right_mps: f64,
+    /// Segment near the progress point, for fast plan queries.
+    cursor: Cursor,
+    /// Leg of the progress point.
+    leg: usize,
 }
 
 impl<'a> Follower<'a> {
     pub fn new(plan: &'a PlanPath, leg_speed_mps: &'a [f64], limits: FollowerLimits) -> Self {
-        Follower { plan, leg_speed_mps, limits, progress_m: 0.0, speed_mps: 0.0, left_mps: 0.0, right_mps: 0.0 }
+        Follower {
+            plan,
+            leg_speed_mps,
+            limits,
+            progress_m: 0.0,
+            speed_mps: 0.0,
+            left_mps: 0.0,
+            right_mps: 0.0,
+            cursor: Cursor::default(),
+            leg: 0,
+        }
+    }
+
+    /// Nearest plan point to `pose` within a lookahead either side of the progress point: the
+    /// deviation from the plan (a loop's far side never counts).
+    #[inline]
+    pub fn deviation(&self, pose: Pose) -> Nearest {
+        let (s, w) = (self.progress_m, self.limits.lookahead_m);
+        let mut cursor = self.cursor;
+        self.plan.nearest_within_at([pose.x_m, pose.y_m], s - w, s + w, &mut cursor)
     }
 
     /// Arc length of the progress point.
@@ -89,7 +113,7 @@ impl<'a> Follower<'a> {
 
     /// Leg of the progress point.
     pub fn leg(&self) -> usize {
-        self.plan.leg_at(self.progress_m)
+        self.leg
     }
 
     /// Moves the progress point forward to the nearest plan point within one lookahead ahead;
@@ -99,11 +123,16 @@ impl<'a> Follower<'a> {
     /// vehicle left the plan and the controller steers back to it.
     #[inline]
     pub fn update_progress(&mut self, pose: Pose) {
-        let near =
-            self.plan.nearest_within([pose.x_m, pose.y_m], self.progress_m, self.progress_m + self.limits.lookahead_m);
+        let near = self.plan.nearest_within_at(
+            [pose.x_m, pose.y_m],
+            self.progress_m,
+            self.progress_m + self.limits.lookahead_m,
+            &mut self.cursor,
+        );
         if near.s_m > self.progress_m && near.distance_m <= self.limits.lookahead_m {
             self.progress_m = near.s_m;
         }
+        self.leg = self.plan.leg_at_cursor(self.progress_m, &mut self.cursor);
     }
 
     /// Target speed at the progress point: the leg's speed, limited so the vehicle can slow to
@@ -111,7 +140,7 @@ impl<'a> Follower<'a> {
     #[inline]
     fn target_speed_mps(&self) -> f64 {
         let a = self.limits.max_side_accel_mps2;
-        let leg = self.plan.leg_at(self.progress_m);
+        let leg = self.leg;
         let mut v = self.leg_speed_mps[leg];
         if let Some(&next_v) = self.leg_speed_mps.get(leg + 1) {
             let to_boundary = (self.plan.leg_bounds_m(leg).1 - self.progress_m).max(0.0);
@@ -126,8 +155,13 @@ impl<'a> Follower<'a> {
     #[inline]
     pub fn command(&mut self, pose: Pose, controller: &Model) -> Command {
         let lim = self.limits;
-        let goal =
-            self.plan.pursuit_goal([pose.x_m, pose.y_m], self.progress_m, lim.lookahead_m, 3.0 * lim.lookahead_m);
+        let goal = self.plan.pursuit_goal_at(
+            [pose.x_m, pose.y_m],
+            self.progress_m,
+            lim.lookahead_m,
+            3.0 * lim.lookahead_m,
+            self.cursor,
+        );
         let (gx, gy) = pose.to_body(goal[0], goal[1]);
         let kappa = pursuit_curvature(gx, gy);
         let dv = lim.max_side_accel_mps2 * lim.dt_s;

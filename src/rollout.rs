@@ -130,14 +130,12 @@ pub fn roll_out(drive: &RouteDrive) -> Trace {
     let dir = plan.direction_at(0.0);
     let mut pose = Pose::new(start[0], start[1], dir[1].atan2(dir[0]));
     let mut follower = Follower::new(plan, &drive.speeds_mps, drive.limits);
-    let window = drive.limits.lookahead_m;
     let mut t = 0.0;
     let mut k: u64 = 0;
     let outcome = loop {
         follower.update_progress(pose);
         let leg = follower.leg();
-        let near =
-            plan.nearest_within([pose.x_m, pose.y_m], follower.progress_m() - window, follower.progress_m() + window);
+        let near = follower.deviation(pose);
         let mut step = Step {
             t_s: t,
             pose,

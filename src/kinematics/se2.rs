@@ -34,8 +34,13 @@ impl Pose {
             (twist.vx_mps * dt_s, twist.vy_mps * dt_s)
         } else {
             let (s, c) = theta.sin_cos();
-            let w = twist.omega_radps;
-            ((twist.vx_mps * s - twist.vy_mps * (1.0 - c)) / w, (twist.vx_mps * (1.0 - c) + twist.vy_mps * s) / w)
+            let inv_w = 1.0 / twist.omega_radps;
+            // 1 - cos(theta) as 2 sin^2(theta/2) keeps precision for small steps.
+            let one_minus_c = if theta.abs() < 0.1 { 2.0 * (0.5 * theta).sin().powi(2) } else { 1.0 - c };
+            (
+                (twist.vx_mps * s - twist.vy_mps * one_minus_c) * inv_w,
+                (twist.vx_mps * one_minus_c + twist.vy_mps * s) * inv_w,
+            )
         };
         let (sy, cy) = self.yaw_rad.sin_cos();
         Pose { x_m: self.x_m + cy * dx - sy * dy, y_m: self.y_m + sy * dx + cy * dy, yaw_rad: self.yaw_rad + theta }

@@ -10,7 +10,7 @@ mod read_geojson;
 use std::path::{Path, PathBuf};
 
 pub use enu::GeoOrigin;
-pub use plan::PlanPath;
+pub use plan::{Cursor, PlanPath};
 
 /// Where in the input file a leg came from, for error messages and reports.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]

@@ -13,10 +13,21 @@ pub struct PlanPath {
     points: Vec<[f64; 2]>,
     /// Arc length at each point, metres; `s_m[0] == 0`.
     s_m: Vec<f64>,
+    /// Unit direction of each segment (zero for a zero-length segment).
+    dir: Vec<[f64; 2]>,
+    /// Leg of each segment.
+    segment_leg: Vec<u32>,
     /// Arc length where each leg starts and ends.
     leg_bounds_m: Vec<(f64, f64)>,
     /// Altitude at each point when every leg carries it.
     altitude_m: Option<Vec<f64>>,
+}
+
+/// A remembered segment index that makes repeated queries near the same place cheap: the
+/// search walks from it instead of bisecting the whole plan. Results never depend on it.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct Cursor {
+    segment: usize,
 }
 
 /// The nearest point of the plan to a query point.
@@ -70,7 +81,21 @@ impl PlanPath {
                 (start, end)
             })
             .collect();
-        PlanPath { points, s_m, leg_bounds_m, altitude_m }
+        let dir = points
+            .windows(2)
+            .map(|w| {
+                let len = dist(w[0], w[1]);
+                if len > 0.0 {
+                    [(w[1][0] - w[0][0]) / len, (w[1][1] - w[0][1]) / len]
+                } else {
+                    [0.0, 0.0]
+                }
+            })
+            .collect();
+        let segment_leg = (0..points.len().saturating_sub(1))
+            .map(|i| leg_first_index.partition_point(|&first| first <= i).saturating_sub(1) as u32)
+            .collect();
+        PlanPath { points, s_m, dir, segment_leg, leg_bounds_m, altitude_m }
     }
 
     pub fn length_m(&self) -> f64 {
@@ -97,11 +122,40 @@ impl PlanPath {
         i.saturating_sub(1).min(n.saturating_sub(1))
     }
 
+    /// The leg containing arc length `s_m`, found from a cursor near it (same result as
+    /// [`PlanPath::leg_at`]); the cursor moves to the segment of `s_m`.
+    #[inline]
+    pub fn leg_at_cursor(&self, s_m: f64, cursor: &mut Cursor) -> usize {
+        cursor.segment = self.segment_from(s_m, cursor.segment);
+        self.segment_leg.get(cursor.segment).map_or(0, |&l| l as usize)
+    }
+
     /// Index of the segment containing arc length `s_m` (clamped to the path).
     #[inline]
     fn segment_at(&self, s_m: f64) -> usize {
         let i = self.s_m.partition_point(|&s| s <= s_m);
         i.saturating_sub(1).min(self.points.len().saturating_sub(2))
+    }
+
+    /// Same result as `segment_at`, found by walking from `hint` (a few steps at most in the
+    /// follower's use), falling back to bisection when the hint is far off.
+    #[inline]
+    fn segment_from(&self, s_m: f64, hint: usize) -> usize {
+        let last = self.points.len().saturating_sub(2);
+        let mut i = hint.min(last);
+        for _ in 0..32 {
+            if s_m < self.s_m[i] {
+                if i == 0 {
+                    return 0;
+                }
+                i -= 1;
+            } else if i < last && s_m >= self.s_m[i + 1] {
+                i += 1;
+            } else {
+                return i;
+            }
+        }
+        self.segment_at(s_m)
     }
 
     /// Point at arc length `s_m`, clamped to the ends.
@@ -143,33 +197,42 @@ impl PlanPath {
     /// Nearest point of the plan to `p` among the parts with arc length in `[from_m, to_m]`.
     #[inline]
     pub fn nearest_within(&self, p: [f64; 2], from_m: f64, to_m: f64) -> Nearest {
-        let (first, last) = (self.segment_at(from_m), self.segment_at(to_m));
-        let mut best = Nearest { s_m: from_m, distance_m: f64::INFINITY, signed_offset_m: 0.0 };
+        let mut cursor = Cursor { segment: self.segment_at(from_m) };
+        self.nearest_within_at(p, from_m, to_m, &mut cursor)
+    }
+
+    /// [`PlanPath::nearest_within`] with a cursor, which is moved to the segment of `from_m`.
+    #[inline]
+    pub fn nearest_within_at(&self, p: [f64; 2], from_m: f64, to_m: f64, cursor: &mut Cursor) -> Nearest {
+        let first = self.segment_from(from_m, cursor.segment);
+        cursor.segment = first;
+        let last = self.segment_from(to_m, first);
+        let total = self.length_m();
+        let (mut best_d2, mut best_s, mut best_side) = (f64::INFINITY, from_m, 0.0);
         for i in first..=last {
-            let (a, b) = (self.points[i], self.points[i + 1]);
-            let (s0, s1) = (self.s_m[i].max(from_m), self.s_m[i + 1].min(to_m));
-            let len = self.s_m[i + 1] - self.s_m[i];
-            if len <= 0.0 || s1 < s0 {
+            let (s_i, s_j) = (self.s_m[i], self.s_m[i + 1]);
+            let (s0, s1) = (s_i.max(from_m), s_j.min(to_m));
+            if s_j <= s_i || s1 < s0 {
                 continue;
             }
-            let d = [(b[0] - a[0]) / len, (b[1] - a[1]) / len];
-            let along = (p[0] - a[0]) * d[0] + (p[1] - a[1]) * d[1];
-            let s = (self.s_m[i] + along).clamp(s0, s1);
-            let q = self.point_on_segment(i, s);
-            let (ex, ey) = (p[0] - q[0], p[1] - q[1]);
+            let (a, d) = (self.points[i], self.dir[i]);
+            let (px, py) = (p[0] - a[0], p[1] - a[1]);
+            let along = px * d[0] + py * d[1];
+            let lateral = d[0] * py - d[1] * px;
+            let raw_s = s_i + along;
+            let s = raw_s.clamp(s0, s1);
             // Before the start or past the end of the plan only the lateral offset counts (the
             // plan's end lines extend straight), so overshooting the end is not a deviation.
-            let raw_s = self.s_m[i] + along;
-            let off_ends = (i == 0 && raw_s < 0.0 && s0 <= 0.0)
-                || (i + 2 == self.points.len() && raw_s > s1 && s1 >= self.length_m());
-            let dist_m = if off_ends { (d[0] * ey - d[1] * ex).abs() } else { (ex * ex + ey * ey).sqrt() };
-            if dist_m < best.distance_m {
-                let side = d[0] * ey - d[1] * ex;
-                best =
-                    Nearest { s_m: s, distance_m: dist_m, signed_offset_m: if side >= 0.0 { dist_m } else { -dist_m } };
+            let off_ends =
+                (i == 0 && raw_s < 0.0 && s0 <= 0.0) || (i + 2 == self.points.len() && raw_s > s1 && s1 >= total);
+            let gap = if off_ends { 0.0 } else { raw_s - s };
+            let d2 = lateral * lateral + gap * gap;
+            if d2 < best_d2 {
+                (best_d2, best_s, best_side) = (d2, s, lateral);
             }
         }
-        best
+        let distance_m = best_d2.sqrt();
+        Nearest { s_m: best_s, distance_m, signed_offset_m: if best_side >= 0.0 { distance_m } else { -distance_m } }
     }
 
     /// The pure-pursuit goal: the first point of the plan beyond arc length `from_m` that lies at
@@ -178,33 +241,41 @@ impl PlanPath {
     /// the point `lookahead_m` ahead of the progress point; past the end it is the end point.
     #[inline]
     pub fn pursuit_goal(&self, p: [f64; 2], from_m: f64, lookahead_m: f64, search_m: f64) -> [f64; 2] {
+        self.pursuit_goal_at(p, from_m, lookahead_m, search_m, Cursor { segment: self.segment_at(from_m) })
+    }
+
+    /// [`PlanPath::pursuit_goal`] starting its search from a cursor near `from_m`.
+    #[inline]
+    pub fn pursuit_goal_at(
+        &self,
+        p: [f64; 2],
+        from_m: f64,
+        lookahead_m: f64,
+        search_m: f64,
+        cursor: Cursor,
+    ) -> [f64; 2] {
         let total = self.length_m();
         let to_m = (from_m + search_m).min(total);
-        let (first, last) = (self.segment_at(from_m), self.segment_at(to_m));
+        let first = self.segment_from(from_m, cursor.segment);
+        let last = self.segment_from(to_m, first);
         let l2 = lookahead_m * lookahead_m;
         for i in first..=last {
-            let len = self.s_m[i + 1] - self.s_m[i];
-            if len <= 0.0 {
+            let (s_i, s_j) = (self.s_m[i], self.s_m[i + 1]);
+            if s_j <= s_i {
                 continue;
             }
-            let a = self.point_on_segment(i, from_m.max(self.s_m[i]));
-            let b = self.point_on_segment(i, to_m.min(self.s_m[i + 1]));
-            // Points of a + t (b - a), t in [0, 1], at distance L from p: the larger root.
-            let (dx, dy) = (b[0] - a[0], b[1] - a[1]);
+            // Points a + u d of the segment at distance L from p: u^2 + 2 u (f.d) + |f|^2 - L^2 = 0
+            // with f = a - p; the larger root, if it lies on the searched part of the segment.
+            let (a, d) = (self.points[i], self.dir[i]);
             let (fx, fy) = (a[0] - p[0], a[1] - p[1]);
-            let qa = dx * dx + dy * dy;
-            if qa <= 0.0 {
-                continue;
-            }
-            let qb = 2.0 * (fx * dx + fy * dy);
-            let qc = fx * fx + fy * fy - l2;
-            let disc = qb * qb - 4.0 * qa * qc;
+            let fd = fx * d[0] + fy * d[1];
+            let disc = fd * fd - (fx * fx + fy * fy - l2);
             if disc < 0.0 {
                 continue;
             }
-            let t = (-qb + disc.sqrt()) / (2.0 * qa);
-            if (0.0..=1.0).contains(&t) {
-                return [a[0] + t * dx, a[1] + t * dy];
+            let u = -fd + disc.sqrt();
+            if u >= from_m.max(s_i) - s_i && u <= to_m.min(s_j) - s_i {
+                return [a[0] + u * d[0], a[1] + u * d[1]];
             }
         }
         if to_m >= total && dist(p, self.point_at(total)) < lookahead_m {
@@ -344,6 +415,27 @@ mod tests {
     }
 
     #[test]
+    fn cursor_queries_match_plain_queries() {
+        let pts: Vec<[f64; 2]> = (0..200).map(|i| [i as f64 * 0.7, (i as f64 * 0.3).sin() * 3.0]).collect();
+        let plan = PlanPath::from_parts(pts, &[0], None);
+        let mut cursor = Cursor::default();
+        for k in 0..400 {
+            let s = (k as f64 * 0.37) % plan.length_m();
+            let p = [s * 0.9, 1.0];
+            let plain = plan.nearest_within(p, s - 1.5, s + 1.5);
+            assert_eq!(plan.nearest_within_at(p, s - 1.5, s + 1.5, &mut cursor), plain);
+            assert_eq!(plan.pursuit_goal_at(p, s, 1.5, 4.5, cursor), plan.pursuit_goal(p, s, 1.5, 4.5));
+        }
+        for k in 0..400 {
+            let s = k as f64 * 0.37;
+            assert_eq!(plan.leg_at_cursor(s, &mut cursor), plan.leg_at(s));
+        }
+        // A stale cursor far away still gives the same answer.
+        let mut far = Cursor { segment: 190 };
+        assert_eq!(plan.nearest_within_at([1.0, 0.0], 0.0, 2.0, &mut far), plan.nearest_within([1.0, 0.0], 0.0, 2.0));
+    }
+
+    #[test]
     fn legs_and_boundaries() {
         let pts = vec![[0.0, 0.0], [3.0, 0.0], [3.0, 4.0], [6.0, 4.0]];
         let plan = PlanPath::from_parts(pts, &[0, 1, 2], None);
@@ -352,6 +444,10 @@ mod tests {
         assert_eq!(plan.leg_at(3.0), 1);
         assert_eq!(plan.leg_at(9.9), 2);
         assert_eq!(plan.leg_at(100.0), 2);
+        let mut c = Cursor::default();
+        for s in [0.0, 2.9, 3.0, 6.99, 7.0, 9.9, 100.0, 1.0] {
+            assert_eq!(plan.leg_at_cursor(s, &mut c), plan.leg_at(s), "at {s}");
+        }
         assert_relative_eq!(plan.length_m(), 10.0);
     }
 }

@@ -1,0 +1,80 @@
+//! Benchmark of the route check: a 20 km synthetic route at 20 Hz control on the demo profile,
+//! reporting simulated controller steps per second on one core, and the wall time of checking
+//! the example routes. Run with `cargo run --release --example bench_check`.
+
+use std::path::PathBuf;
+use std::time::Instant;
+
+use skidroute::check::{check_route, check_routes, load_routes};
+use skidroute::rollout::{roll_out, RouteDrive};
+use skidroute::route::{Leg, Route, SourcePosition};
+use skidroute::vehicle::Profile;
+
+/// A 20 km route of gentle S-bends and straights over the demo terrains.
+fn synthetic_route(length_m: f64) -> Route {
+    let terrains = ["asphalt", "gravel", "grass", "packed-snow", "deep-snow"];
+    let (mut x, mut y, mut yaw) = (0.0_f64, 0.0_f64, 0.0_f64);
+    let mut legs = Vec::new();
+    let leg_len_m = 500.0;
+    let step_m = 1.0;
+    let n_legs = (length_m / leg_len_m) as usize;
+    for k in 0..n_legs {
+        let mut points = vec![[x, y]];
+        for i in 0..(leg_len_m / step_m) as usize {
+            let s = (k as f64 * leg_len_m) + i as f64 * step_m;
+            yaw += step_m * 0.04 * (s / 90.0).sin();
+            x += step_m * yaw.cos();
+            y += step_m * yaw.sin();
+            points.push([x, y]);
+        }
+        legs.push(Leg {
+            name: None,
+            terrain: terrains[k % terrains.len()].to_string(),
+            speed_mps: Some(1.2),
+            corridor_m: None,
+            points,
+            altitude_m: None,
+            position: SourcePosition::Feature(k),
+        });
+    }
+    Route { name: "bench".into(), source: PathBuf::from("<synthetic>"), origin: None, legs }
+}
+
+fn main() {
+    let profile = Profile::demo();
+    let route = synthetic_route(20_000.0);
+    let mut best = f64::INFINITY;
+    let mut steps = 0;
+    for _ in 0..3 {
+        let t0 = Instant::now();
+        let checked = check_route(route.clone(), &profile);
+        best = best.min(t0.elapsed().as_secs_f64());
+        steps = checked.trace.steps.len();
+    }
+    let drive = RouteDrive::new(&route, &profile);
+    let mut best_roll = f64::INFINITY;
+    for _ in 0..3 {
+        let t0 = Instant::now();
+        let trace = roll_out(&drive);
+        best_roll = best_roll.min(t0.elapsed().as_secs_f64());
+        assert_eq!(trace.steps.len(), steps);
+    }
+    println!("20 km synthetic route at 20 Hz: {steps} controller steps (one core, best of 3)");
+    println!("  rollout only: {:.3} s, {:.2} million steps per second", best_roll, steps as f64 / best_roll / 1e6);
+    println!("  whole check (rollout + assessment): {:.3} s", best);
+
+    let files: Vec<PathBuf> = std::fs::read_dir("example-routes")
+        .map(|d| {
+            d.filter_map(|e| e.ok().map(|e| e.path())).filter(|p| p.extension().is_some_and(|e| e != "md")).collect()
+        })
+        .unwrap_or_default();
+    let mut files = files;
+    files.sort();
+    for f in &files {
+        let t0 = Instant::now();
+        let Ok(routes) = load_routes(std::slice::from_ref(f), &profile) else { continue };
+        let run = check_routes(routes, &profile, true);
+        let n: usize = run.routes.iter().map(|r| r.trace.steps.len()).sum();
+        println!("check {}: {:.1} ms ({n} steps)", f.display(), t0.elapsed().as_secs_f64() * 1e3);
+    }
+}
