@@ -7,6 +7,7 @@
 
 pub mod assess;
 pub mod check;
+pub mod effort;
 pub mod error;
 pub mod follow;
 pub mod kinematics;

@@ -8,7 +8,7 @@ use clap::Args;
 use skidroute::assess::Verdict;
 use skidroute::report::{self, CheckOutputs};
 
-use super::{color_wanted, load_profile};
+use super::{color_wanted, emit, load_profile};
 
 #[derive(Args)]
 pub struct CheckArgs {
@@ -51,9 +51,9 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
     let run = skidroute::check::check_routes(routes, &profile, demo);
     report::write_check_outputs(&run, &outputs)?;
     if a.json {
-        print!("{}", report::json::check_json(&run));
+        emit(&report::json::check_json(&run))?;
     } else if !a.quiet {
-        print!("{}", report::table::check_table(&run, color_wanted()));
+        emit(&report::table::check_table(&run, color_wanted()))?;
     }
     let failing = match run.verdict() {
         Verdict::Fail => true,

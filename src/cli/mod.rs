@@ -24,3 +24,13 @@ pub fn load_profile(path: &Option<PathBuf>) -> Result<(Profile, bool)> {
         None => Ok((Profile::demo(), true)),
     }
 }
+
+/// Prints to stdout; a closed pipe (`skidroute check ... | head`) is not an error.
+pub fn emit(text: &str) -> Result<()> {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    match out.write_all(text.as_bytes()).and_then(|_| out.flush()) {
+        Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => Err(e.into()),
+        _ => Ok(()),
+    }
+}

@@ -190,6 +190,16 @@ impl PlanPath {
         Some(alt[i] + t * (alt[i + 1] - alt[i]))
     }
 
+    /// Grade of the plan at arc length `s_m`, rad, positive uphill: the altitude change over the
+    /// metre around `s_m` (0 without altitude).
+    pub fn grade_at(&self, s_m: f64) -> f64 {
+        let (a, b) = ((s_m - 0.5).max(0.0), (s_m + 0.5).min(self.length_m()));
+        match (self.altitude_at(a), self.altitude_at(b)) {
+            (Some(za), Some(zb)) if b > a => (zb - za).atan2(b - a),
+            _ => 0.0,
+        }
+    }
+
     pub fn has_altitude(&self) -> bool {
         self.altitude_m.is_some()
     }
