@@ -253,7 +253,7 @@ fn max_uphill_grade_rad(drive: &RouteDrive, leg: usize) -> f64 {
         return 0.0;
     }
     let (a, b) = drive.plan.leg_bounds_m(leg);
-    let n = ((b - a).ceil() as usize).max(1);
+    let n = (b - a).ceil().clamp(1.0, crate::route::plan::MAX_SAMPLES_PER_LEG) as usize;
     (0..=n).map(|k| drive.plan.grade_at(a + (b - a) * k as f64 / n as f64)).fold(0.0, f64::max)
 }
 
@@ -419,6 +419,14 @@ fn judge(leg: &mut LegReport, achievable: &Achievable, drive: &RouteDrive, trace
                 leg.speed_mps, drive.limits.max_side_speed_mps
             ),
         );
+    }
+    if let Outcome::StepBudget { max_steps, progress_m } = trace.outcome {
+        if progress_m < drive.plan.leg_bounds_m(i).1 {
+            add(
+                Verdict::Fail,
+                format!("the simulation stopped at its budget of {max_steps} control steps, {progress_m:.0} m along the route"),
+            );
+        }
     }
     if let Outcome::TimedOut { limit_s, progress_m } = trace.outcome {
         let (start_m, end_m) = drive.plan.leg_bounds_m(i);

@@ -6,8 +6,9 @@ use std::path::PathBuf;
 use rayon::prelude::*;
 
 use crate::assess::{assess_route, RouteReport, Verdict};
-use crate::rollout::{roll_out, RouteDrive, Trace};
-use crate::route::{check_terrains, read_routes, Route};
+use crate::limits::Limits;
+use crate::rollout::{roll_out_within, step_bound, RouteDrive, Trace};
+use crate::route::{check_terrains, read_routes_with, too_many_total_points, Route, RouteError};
 use crate::vehicle::Profile;
 use crate::Error;
 
@@ -36,29 +37,70 @@ impl CheckRun {
     }
 }
 
-/// Reads every route of every file and checks that the profile knows each leg's terrain.
+/// Reads every route of every file and checks that the profile knows each leg's terrain, with
+/// the default [`Limits`].
 pub fn load_routes(paths: &[PathBuf], profile: &Profile) -> Result<Vec<Route>, Error> {
+    load_routes_with(paths, profile, &Limits::default())
+}
+
+/// [`load_routes`] with explicit limits: file size, points per leg, legs per route, points in
+/// the whole run, and the rollout's step bound (time bound x control rate) of every route, so a
+/// route that could not be simulated within [`Limits::max_rollout_steps`] is refused before
+/// anything is simulated.
+pub fn load_routes_with(paths: &[PathBuf], profile: &Profile, limits: &Limits) -> Result<Vec<Route>, Error> {
     let known = profile.terrain_names();
     let mut routes = Vec::new();
+    let mut total_points = 0usize;
     for path in paths {
-        for route in read_routes(path)? {
+        for route in read_routes_with(path, limits)? {
             check_terrains(&route, &known)?;
+            total_points = total_points.saturating_add(route.legs.iter().map(|l| l.points.len()).sum::<usize>());
+            if total_points > limits.max_total_points {
+                let what = format!("(with the files before it) {}", too_many_total_points(total_points, limits));
+                return Err(RouteError::File { file: path.clone(), what }.into());
+            }
+            check_step_bound(&route, profile, limits)?;
             routes.push(route);
         }
     }
     Ok(routes)
 }
 
-/// Simulates and assesses one route.
+/// Refuses a route whose rollout could need more than `limits.max_rollout_steps` steps.
+fn check_step_bound(route: &Route, profile: &Profile, limits: &Limits) -> Result<(), RouteError> {
+    let steps = step_bound(route, profile);
+    if steps <= limits.max_rollout_steps as f64 {
+        return Ok(());
+    }
+    let what = format!(
+        "route '{}': simulating it could take up to {steps:.0} control steps at {} Hz (three times its planned \
+         driving time plus a minute), more than the limit of {}; check the leg lengths and speeds, or raise the \
+         limit with --max-steps or SKIDROUTE_MAX_STEPS",
+        route.name, profile.follower.control_rate_hz, limits.max_rollout_steps
+    );
+    Err(RouteError::File { file: route.source.clone(), what })
+}
+
+/// Simulates and assesses one route (at most the default step budget).
 pub fn check_route(route: Route, profile: &Profile) -> CheckedRoute {
+    check_route_with(route, profile, &Limits::default())
+}
+
+/// Simulates and assesses one route within `limits.max_rollout_steps` control steps.
+pub fn check_route_with(route: Route, profile: &Profile, limits: &Limits) -> CheckedRoute {
     let drive = RouteDrive::new(&route, profile);
-    let trace = roll_out(&drive);
+    let trace = roll_out_within(&drive, limits.max_rollout_steps);
     let report = assess_route(&route, &drive, &trace, profile.vehicle.battery_wh);
     CheckedRoute { route, drive, trace, report }
 }
 
 /// Checks routes in parallel; the output keeps the input order.
 pub fn check_routes(routes: Vec<Route>, profile: &Profile, demo_profile: bool) -> CheckRun {
-    let routes = routes.into_par_iter().map(|r| check_route(r, profile)).collect();
+    check_routes_with(routes, profile, demo_profile, &Limits::default())
+}
+
+/// [`check_routes`] within `limits.max_rollout_steps` control steps per route.
+pub fn check_routes_with(routes: Vec<Route>, profile: &Profile, demo_profile: bool, limits: &Limits) -> CheckRun {
+    let routes = routes.into_par_iter().map(|r| check_route_with(r, profile, limits)).collect();
     CheckRun { vehicle_name: profile.vehicle.name.clone(), demo_profile, routes }
 }

@@ -11,6 +11,7 @@ pub mod effort;
 pub mod error;
 pub mod follow;
 pub mod kinematics;
+pub mod limits;
 pub mod progress;
 pub mod report;
 pub mod rollout;

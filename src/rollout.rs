@@ -90,15 +90,40 @@ impl RouteDrive {
     /// Time bound for a rollout: three times the planned driving time at the reachable leg
     /// speeds, plus a minute for ramps. A vehicle that stalls or circles is stopped there.
     pub fn time_limit_s(&self) -> f64 {
-        let planned: f64 = (0..self.plan.leg_count())
-            .map(|i| {
-                let (a, b) = self.plan.leg_bounds_m(i);
-                (b - a) / self.legs[i].speed_mps.min(self.limits.max_side_speed_mps).max(0.05)
-            })
-            .sum();
-        3.0 * planned + 60.0
+        let legs = (0..self.plan.leg_count()).map(|i| {
+            let (a, b) = self.plan.leg_bounds_m(i);
+            (b - a, self.legs[i].speed_mps)
+        });
+        time_bound_s(legs, self.limits.max_side_speed_mps)
+    }
+
+    /// Most control steps the rollout can take: the time bound times the control rate.
+    pub fn step_bound(&self) -> f64 {
+        (self.time_limit_s() / self.limits.dt_s).ceil() + 1.0
     }
 }
+
+/// The time bound of [`RouteDrive::time_limit_s`] from (length, speed) of each leg; slower
+/// planned speeds than 0.05 m/s count as 0.05 m/s.
+fn time_bound_s(legs: impl Iterator<Item = (f64, f64)>, max_side_speed_mps: f64) -> f64 {
+    let planned: f64 = legs.map(|(length_m, speed_mps)| length_m / speed_mps.min(max_side_speed_mps).max(0.05)).sum();
+    3.0 * planned + 60.0
+}
+
+/// The step bound of a route's rollout under `profile` ([`RouteDrive::step_bound`]), from the
+/// route alone, so a route can be refused before anything is simulated.
+pub fn step_bound(route: &Route, profile: &Profile) -> f64 {
+    let legs = route.legs.iter().map(|leg| {
+        let length_m: f64 = leg.points.windows(2).map(|w| crate::route::plan::dist(w[0], w[1])).sum();
+        (length_m, leg.speed_mps.unwrap_or(profile.vehicle.cruise_speed_mps))
+    });
+    let limit_s = time_bound_s(legs, profile.vehicle.max_side_speed_mps);
+    (limit_s * profile.follower.control_rate_hz).ceil() + 1.0
+}
+
+/// Steps reserved for the trace up front; longer rollouts grow it (a few reallocations in all,
+/// never one per step), so a pathological time bound cannot reserve gigabytes.
+const MAX_RESERVED_STEPS: usize = 1 << 18;
 
 /// One control step of the trace.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
@@ -131,6 +156,11 @@ pub enum Outcome {
         limit_s: f64,
         progress_m: f64,
     },
+    /// The step budget ([`roll_out_within`]) ran out before the time bound, at this progress.
+    StepBudget {
+        max_steps: u64,
+        progress_m: f64,
+    },
 }
 
 /// The simulated drive of one route.
@@ -143,11 +173,21 @@ pub struct Trace {
 /// Simulates the route. The vehicle starts at rest on the first plan point, heading along the
 /// first segment; each step the follower commands side speeds from the pose, the leg's terrain
 /// model gives the twist, and the pose advances by the exact SE(2) step.
+/// At most [`crate::limits::DEFAULT_MAX_ROLLOUT_STEPS`] steps are simulated.
 pub fn roll_out(drive: &RouteDrive) -> Trace {
+    roll_out_within(drive, crate::limits::DEFAULT_MAX_ROLLOUT_STEPS)
+}
+
+/// [`roll_out`] with a budget of `max_steps` control steps: a rollout that needs more ends with
+/// [`Outcome::StepBudget`] (and the assessment fails the unfinished legs). The check refuses such
+/// routes up front ([`step_bound`]); the budget also guards direct callers.
+pub fn roll_out_within(drive: &RouteDrive, max_steps: u64) -> Trace {
     let plan = &drive.plan;
     let dt = drive.limits.dt_s;
     let limit_s = drive.time_limit_s();
-    let mut steps = Vec::with_capacity(((limit_s / 3.0) / dt) as usize + 64);
+    // The planned time plus 20 s, as steps; `as` saturates a huge or NaN estimate.
+    let expected_steps = ((limit_s / 3.0) / dt) as usize;
+    let mut steps = Vec::with_capacity(expected_steps.min(MAX_RESERVED_STEPS) + 64);
     let start = plan.point_at(0.0);
     let dir = plan.direction_at(0.0);
     let mut pose = Pose::new(start[0], start[1], dir[1].atan2(dir[0]));
@@ -175,6 +215,10 @@ pub fn roll_out(drive: &RouteDrive) -> Trace {
         if t > limit_s {
             steps.push(step);
             break Outcome::TimedOut { limit_s, progress_m: follower.progress_m() };
+        }
+        if k >= max_steps {
+            steps.push(step);
+            break Outcome::StepBudget { max_steps, progress_m: follower.progress_m() };
         }
         let legd = &drive.legs[leg];
         let cmd = follower.command(pose, &legd.controller);

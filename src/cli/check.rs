@@ -39,6 +39,8 @@ pub struct CheckArgs {
     /// Print nothing but errors.
     #[arg(long)]
     pub quiet: bool,
+    #[command(flatten)]
+    pub limits: super::limits::LimitArgs,
 }
 
 pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
@@ -47,8 +49,9 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
     let inputs: Vec<PathBuf> = a.routes.iter().chain(a.vehicle.iter()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, outputs.paths())?;
     let (profile, demo) = load_profile(&a.vehicle)?;
-    let routes = skidroute::check::load_routes(&a.routes, &profile)?;
-    let run = skidroute::check::check_routes(routes, &profile, demo);
+    let limits = a.limits.resolve()?;
+    let routes = skidroute::check::load_routes_with(&a.routes, &profile, &limits)?;
+    let run = skidroute::check::check_routes_with(routes, &profile, demo, &limits);
     report::write_check_outputs(&run, &outputs)?;
     if a.json {
         emit(&report::json::check_json(&run))?;

@@ -3,6 +3,7 @@
 //! here.
 
 pub mod check;
+pub mod limits;
 pub mod profile;
 pub mod progress;
 

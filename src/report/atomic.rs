@@ -1,7 +1,7 @@
 //! Atomic file output: write to a temporary file beside the target, flush it to disk, then
 //! rename it into place. A failed or interrupted write leaves the target as it was.
 
-use std::fs::File;
+use std::fs::{File, OpenOptions};
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
@@ -18,7 +18,10 @@ pub(crate) fn temp_path_for(target: &Path) -> PathBuf {
 /// Writes `bytes` to `target` atomically.
 pub fn write_atomic(target: &Path, bytes: &[u8]) -> Result<(), ReportError> {
     write_atomic_with(target, |tmp| {
-        let mut f = File::create(tmp)?;
+        // A stale temporary file of a killed run with the same process id is replaced; a fresh
+        // file is created exclusively, so a symlink planted at the temporary path is not followed.
+        let _ = std::fs::remove_file(tmp);
+        let mut f = OpenOptions::new().write(true).create_new(true).open(tmp)?;
         f.write_all(bytes)?;
         f.sync_all()
     })
@@ -36,9 +39,17 @@ where
         let _ = std::fs::remove_file(&tmp);
         return Err(io_err(e));
     }
+    if target.is_dir() {
+        let _ = std::fs::remove_file(&tmp);
+        return Err(io_err(std::io::Error::other("is a directory")));
+    }
     if let Err(e) = std::fs::rename(&tmp, target) {
         let _ = std::fs::remove_file(&tmp);
         return Err(io_err(e));
+    }
+    // Make the rename itself durable; a filesystem that cannot sync a directory is no error.
+    if let Ok(dir) = File::open(tmp.parent().unwrap_or(Path::new("."))) {
+        let _ = dir.sync_all();
     }
     Ok(())
 }

@@ -9,6 +9,8 @@ mod read_geojson;
 
 use std::path::{Path, PathBuf};
 
+use crate::limits::{read_text_limited, Limits, ReadLimitedError};
+
 pub use enu::GeoOrigin;
 pub use plan::{Cursor, PlanPath};
 
@@ -75,22 +77,75 @@ pub enum RouteError {
     At { file: PathBuf, position: SourcePosition, what: String },
 }
 
-/// Reads every route in a file. The format is chosen by extension: `.geojson`/`.json` or `.csv`.
+/// The format of a route file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum RouteFormat {
+    /// RFC 7946 GeoJSON FeatureCollection, lon/lat on WGS 84.
+    GeoJson,
+    /// Planner CSV in a local map frame.
+    Csv,
+}
+
+impl RouteFormat {
+    /// The format named by the file's extension: `.geojson`/`.json` or `.csv` (any case).
+    pub fn from_path(path: &Path) -> Result<RouteFormat, RouteError> {
+        let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
+        match ext.as_str() {
+            "geojson" | "json" => Ok(RouteFormat::GeoJson),
+            "csv" => Ok(RouteFormat::Csv),
+            _ => Err(RouteError::File {
+                file: path.to_path_buf(),
+                what: format!("unknown route format '.{ext}': expected .geojson, .json or .csv"),
+            }),
+        }
+    }
+}
+
+/// Reads every route in a file with the default [`Limits`]. The format is chosen by extension:
+/// `.geojson`/`.json` or `.csv`.
 ///
 /// A GeoJSON file is projected about its first point (exact WGS 84 geodetic -> ECEF -> ENU).
 /// Legs are grouped by their `route` property (in order of first appearance); without it the
 /// whole file is one route named after the file stem. Consecutive legs must join within
 /// [`JOIN_TOLERANCE_M`].
 pub fn read_routes(path: &Path) -> Result<Vec<Route>, RouteError> {
-    let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
-    let text = std::fs::read_to_string(path).map_err(|source| RouteError::Io { file: path.to_path_buf(), source })?;
-    match ext.as_str() {
-        "geojson" | "json" => read_geojson::parse(path, &text),
-        "csv" => read_csv::parse(path, &text),
-        _ => Err(RouteError::File {
-            file: path.to_path_buf(),
-            what: format!("unknown route format '.{ext}': expected .geojson, .json or .csv"),
-        }),
+    read_routes_with(path, &Limits::default())
+}
+
+/// [`read_routes`] with explicit limits: the file size is checked before reading, and points
+/// per leg, legs per route and points per file while parsing.
+pub fn read_routes_with(path: &Path, limits: &Limits) -> Result<Vec<Route>, RouteError> {
+    let format = RouteFormat::from_path(path)?;
+    let text = read_text_limited(path, limits.max_file_bytes).map_err(|e| match e {
+        ReadLimitedError::Io(source) => RouteError::Io { file: path.to_path_buf(), source },
+        other => RouteError::File { file: path.to_path_buf(), what: other.to_string() },
+    })?;
+    parse_route_text(path, &text, format, limits)
+}
+
+/// Parses route text already in memory; `path` only names the file in messages, routes without
+/// a `route` property and `Route::source`. This is the reader behind [`read_routes`], public for
+/// tools that hold the text (and for the fuzz targets).
+///
+/// ```
+/// use std::path::Path;
+/// use skidroute::limits::Limits;
+/// use skidroute::route::{parse_route_text, RouteFormat};
+/// let text = "x_m,y_m,terrain\n0,0,grass\n10,0,grass\n";
+/// let routes = parse_route_text(Path::new("yard.csv"), text, RouteFormat::Csv, &Limits::default()).unwrap();
+/// assert_eq!(routes[0].legs[0].points.len(), 2);
+/// let err = parse_route_text(Path::new("yard.csv"), "x_m,y_m\n", RouteFormat::Csv, &Limits::default());
+/// assert!(err.unwrap_err().to_string().starts_with("yard.csv: line 1: "));
+/// ```
+pub fn parse_route_text(
+    path: &Path,
+    text: &str,
+    format: RouteFormat,
+    limits: &Limits,
+) -> Result<Vec<Route>, RouteError> {
+    match format {
+        RouteFormat::GeoJson => read_geojson::parse(path, text, limits),
+        RouteFormat::Csv => read_csv::parse(path, text, limits),
     }
 }
 
@@ -124,13 +179,56 @@ fn find_duplicate_point(points: &[[f64; 2]]) -> Option<(usize, f64)> {
 }
 
 /// Groups items by name, groups in order of each name's first appearance, items in input order.
+/// Linear in the number of items however many distinct names there are (a file can give every
+/// row its own route).
 fn group_in_order<T>(items: impl IntoIterator<Item = (String, T)>) -> Vec<(String, Vec<T>)> {
+    let mut index: std::collections::HashMap<String, usize> = std::collections::HashMap::new();
     let mut groups: Vec<(String, Vec<T>)> = Vec::new();
     for (name, item) in items {
-        match groups.iter_mut().find(|(existing, _)| *existing == name) {
-            Some((_, members)) => members.push(item),
-            None => groups.push((name, vec![item])),
+        match index.get(&name) {
+            Some(&k) => groups[k].1.push(item),
+            None => {
+                index.insert(name.clone(), groups.len());
+                groups.push((name, vec![item]));
+            }
         }
     }
     groups
+}
+
+/// Checks the leg count of every route and the number of points in a file against `limits`.
+fn check_route_limits(path: &Path, routes: &[Route], limits: &Limits) -> Result<(), RouteError> {
+    let mut total = 0usize;
+    for route in routes {
+        if route.legs.len() > limits.max_legs_per_route {
+            let what = format!(
+                "route '{}' has {} legs, more than the limit of {} (raise it with --max-legs-per-route or SKIDROUTE_MAX_LEGS_PER_ROUTE)",
+                route.name,
+                route.legs.len(),
+                limits.max_legs_per_route
+            );
+            return Err(RouteError::File { file: path.to_path_buf(), what });
+        }
+        total = total.saturating_add(route.legs.iter().map(|l| l.points.len()).sum::<usize>());
+    }
+    if total > limits.max_total_points {
+        return Err(RouteError::File { file: path.to_path_buf(), what: too_many_total_points(total, limits) });
+    }
+    Ok(())
+}
+
+/// The message for a run or file above the total-points limit.
+pub(crate) fn too_many_total_points(total: usize, limits: &Limits) -> String {
+    format!(
+        "has {total} plan points in all, more than the limit of {} (raise it with --max-total-points or SKIDROUTE_MAX_TOTAL_POINTS)",
+        limits.max_total_points
+    )
+}
+
+/// The message for a leg above the points-per-leg limit.
+fn too_many_points(n: usize, limits: &Limits) -> String {
+    format!(
+        "has {n} points, more than the limit of {} per leg (raise it with --max-points-per-leg or SKIDROUTE_MAX_POINTS_PER_LEG)",
+        limits.max_points_per_leg
+    )
 }

@@ -7,6 +7,10 @@
 
 use super::Route;
 
+/// Most samples taken along one leg by the sampled queries (curvature, grade): 1e7, which is
+/// 1000 km at the 0.1 m curvature spacing.
+pub const MAX_SAMPLES_PER_LEG: f64 = 1e7;
+
 /// A route's plan as one polyline. Leg boundaries are arc lengths; the boundary point is shared.
 #[derive(Debug, Clone)]
 pub struct PlanPath {
@@ -306,9 +310,12 @@ impl PlanPath {
 
     /// Largest |curvature| over leg `leg`, sampled every `step_m` (0.1 m in DESIGN 6.4), with
     /// the neighbouring legs' points used near the boundaries; returns (|kappa|, arc length).
+    /// A leg longer than `step_m` x [`MAX_SAMPLES_PER_LEG`] is sampled more coarsely, so the cost
+    /// stays bounded whatever the input.
     pub fn required_curvature(&self, leg: usize, scale_m: f64, step_m: f64) -> (f64, f64) {
         let (start, end) = self.leg_bounds_m[leg];
-        let n = ((end - start) / step_m).ceil().max(1.0) as usize;
+        let step_m = step_m.max((end - start) / MAX_SAMPLES_PER_LEG);
+        let n = ((end - start) / step_m).ceil().clamp(1.0, MAX_SAMPLES_PER_LEG) as usize;
         let mut best = (0.0, start);
         for k in 0..=n {
             let s = (start + k as f64 * step_m).min(end);

@@ -11,8 +11,10 @@ use std::path::Path;
 use csv::{ReaderBuilder, StringRecord, Trim};
 
 use super::{
-    file_stem_name, find_duplicate_point, group_in_order, Leg, Route, RouteError, SourcePosition, DUPLICATE_POINT_M,
+    check_route_limits, file_stem_name, find_duplicate_point, group_in_order, too_many_points, too_many_total_points,
+    Leg, Route, RouteError, SourcePosition, DUPLICATE_POINT_M,
 };
+use crate::limits::{Limits, MAX_ABS_ALTITUDE_M, MAX_ABS_COORDINATE_M};
 
 const KNOWN_COLUMNS: &str = "x_m, y_m, terrain and optionally z_m, speed_mps, corridor_m, leg, route";
 
@@ -46,8 +48,10 @@ struct LegBuilder {
     lines: Vec<usize>,
 }
 
-/// Parses a CSV route file; `path` is only used in messages and `Route::source`.
-pub(super) fn parse(path: &Path, text: &str) -> Result<Vec<Route>, RouteError> {
+/// Parses a CSV route file; `path` is only used in messages and `Route::source`. Rows beyond
+/// `limits.max_total_points` stop the read at that line; points per leg and legs per route are
+/// checked as legs are formed.
+pub(super) fn parse(path: &Path, text: &str, limits: &Limits) -> Result<Vec<Route>, RouteError> {
     let file_error = |what: &str| RouteError::File { file: path.to_path_buf(), what: what.to_string() };
     // Spreadsheet and Windows tools often prepend a UTF-8 byte-order mark.
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
@@ -63,6 +67,9 @@ pub(super) fn parse(path: &Path, text: &str) -> Result<Vec<Route>, RouteError> {
         let line = record.position().and_then(|p| usize::try_from(p.line()).ok()).unwrap_or(k + 2);
         let route = cell(&record, columns.route).filter(|r| !r.is_empty()).map(str::to_string);
         let row = read_row(&columns, &record, line).map_err(|what| at(path, line, what))?;
+        if rows.len() >= limits.max_total_points {
+            return Err(at(path, line, too_many_total_points(rows.len() + 1, limits)));
+        }
         rows.push((route, row));
     }
     if rows.is_empty() {
@@ -70,13 +77,15 @@ pub(super) fn parse(path: &Path, text: &str) -> Result<Vec<Route>, RouteError> {
     }
     let stem = file_stem_name(path);
     let groups = group_in_order(rows.into_iter().map(|(route, row)| (route.unwrap_or_else(|| stem.clone()), row)));
-    groups
+    let routes = groups
         .into_iter()
         .map(|(name, rows)| {
-            let legs = split_legs(path, &rows, columns.leg.is_some())?;
+            let legs = split_legs(path, &rows, columns.leg.is_some(), limits)?;
             Ok(Route { name, source: path.to_path_buf(), origin: None, legs })
         })
-        .collect()
+        .collect::<Result<Vec<_>, RouteError>>()?;
+    check_route_limits(path, &routes, limits)?;
+    Ok(routes)
 }
 
 fn at(path: &Path, line: usize, what: String) -> RouteError {
@@ -127,14 +136,14 @@ fn cell(record: &StringRecord, index: Option<usize>) -> Option<&str> {
 fn read_row(columns: &Columns, record: &StringRecord, line: usize) -> Result<Row, String> {
     let terrain = required_cell(record, columns.terrain, "terrain")?.to_string();
     let z_m = match columns.z_m {
-        Some(_) => Some(number(required_cell(record, columns.z_m, "z_m")?, "z_m")?),
+        Some(_) => Some(bounded(required_cell(record, columns.z_m, "z_m")?, "z_m", MAX_ABS_ALTITUDE_M)?),
         None => None,
     };
     Ok(Row {
         line,
         point: [
-            number(required_cell(record, columns.x_m, "x_m")?, "x_m")?,
-            number(required_cell(record, columns.y_m, "y_m")?, "y_m")?,
+            bounded(required_cell(record, columns.x_m, "x_m")?, "x_m", MAX_ABS_COORDINATE_M)?,
+            bounded(required_cell(record, columns.y_m, "y_m")?, "y_m", MAX_ABS_COORDINATE_M)?,
         ],
         z_m,
         terrain,
@@ -159,6 +168,16 @@ fn number(text: &str, column: &str) -> Result<f64, String> {
     }
 }
 
+/// A coordinate no larger in magnitude than `max_abs` (see `limits::MAX_ABS_COORDINATE_M`).
+fn bounded(text: &str, column: &str, max_abs: f64) -> Result<f64, String> {
+    match number(text, column)? {
+        value if value.abs() <= max_abs => Ok(value),
+        value => {
+            Err(format!("column {column}: {value} m is beyond +-{max_abs} m (is it in metres, in a local frame?)"))
+        }
+    }
+}
+
 /// An optional speed or corridor: an empty cell means "use the profile's default".
 fn positive_cell(record: &StringRecord, index: Option<usize>, column: &str) -> Result<Option<f64>, String> {
     match cell(record, index) {
@@ -171,7 +190,7 @@ fn positive_cell(record: &StringRecord, index: Option<usize>, column: &str) -> R
 }
 
 /// Splits one route's rows into legs, the first row of each new leg closing the previous one.
-fn split_legs(path: &Path, rows: &[Row], has_leg_column: bool) -> Result<Vec<Leg>, RouteError> {
+fn split_legs(path: &Path, rows: &[Row], has_leg_column: bool, limits: &Limits) -> Result<Vec<Leg>, RouteError> {
     let mut finished = Vec::new();
     let mut current: Option<LegBuilder> = None;
     for row in rows {
@@ -190,7 +209,7 @@ fn split_legs(path: &Path, rows: &[Row], has_leg_column: bool) -> Result<Vec<Leg
         });
     }
     finished.extend(current);
-    finished.into_iter().map(|builder| builder.finish(path)).collect()
+    finished.into_iter().map(|builder| builder.finish(path, limits)).collect()
 }
 
 /// Whether `row` begins a new leg. With a `leg` column, only a change of `leg` does, and a change
@@ -247,7 +266,7 @@ impl LegBuilder {
         }
     }
 
-    fn finish(self, path: &Path) -> Result<Leg, RouteError> {
+    fn finish(self, path: &Path, limits: &Limits) -> Result<Leg, RouteError> {
         let LegBuilder { leg, lines } = self;
         let first_line = lines.first().copied().unwrap_or(1);
         let label = leg.name.as_ref().map_or_else(|| "leg".to_string(), |name| format!("leg '{name}'"));
@@ -255,6 +274,9 @@ impl LegBuilder {
         if n < 2 {
             let what = format!("{label} has {n} point{}, at least 2 are needed", if n == 1 { "" } else { "s" });
             return Err(at(path, first_line, what));
+        }
+        if n > limits.max_points_per_leg {
+            return Err(at(path, first_line, format!("{label} {}", too_many_points(n, limits))));
         }
         if let Some((i, distance_m)) = find_duplicate_point(&leg.points) {
             let (line_a, line_b) =
@@ -275,7 +297,7 @@ mod tests {
     const FILE: &str = "plans/yard.csv";
 
     fn read(text: &str) -> Result<Vec<Route>, RouteError> {
-        parse(Path::new(FILE), text)
+        parse(Path::new(FILE), text, &Limits::default())
     }
 
     /// The error message, checked to name the file.

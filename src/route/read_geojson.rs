@@ -11,9 +11,10 @@ use std::path::Path;
 use geojson::{Feature, GeoJson, GeometryValue, JsonObject, JsonValue, Position};
 
 use super::{
-    file_stem_name, find_duplicate_point, group_in_order, GeoOrigin, Leg, Route, RouteError, SourcePosition,
-    DUPLICATE_POINT_M, JOIN_TOLERANCE_M,
+    check_route_limits, file_stem_name, find_duplicate_point, group_in_order, too_many_points, too_many_total_points,
+    GeoOrigin, Leg, Route, RouteError, SourcePosition, DUPLICATE_POINT_M, JOIN_TOLERANCE_M,
 };
+use crate::limits::{Limits, MAX_ABS_ALTITUDE_M};
 
 /// The properties of one leg, validated.
 struct LegProperties {
@@ -35,13 +36,20 @@ struct GeoLeg {
 }
 
 /// Parses and projects a GeoJSON route file; `path` is only used in messages and `Route::source`.
-pub(super) fn parse(path: &Path, text: &str) -> Result<Vec<Route>, RouteError> {
+/// Points per leg and per file are checked against `limits` before the projected copy is made.
+pub(super) fn parse(path: &Path, text: &str, limits: &Limits) -> Result<Vec<Route>, RouteError> {
     let features = read_features(text).map_err(|what| RouteError::File { file: path.to_path_buf(), what })?;
-    let geo_legs = features
-        .iter()
-        .enumerate()
-        .map(|(index, feature)| read_feature(index, feature).map_err(|what| at(path, index, what)))
-        .collect::<Result<Vec<_>, _>>()?;
+    let mut total_points = 0usize;
+    let mut geo_legs = Vec::new();
+    for (index, feature) in features.iter().enumerate() {
+        let geo_leg = read_feature(index, feature, limits).map_err(|what| at(path, index, what))?;
+        total_points = total_points.saturating_add(geo_leg.lon_lat_deg.len());
+        if total_points > limits.max_total_points {
+            let what = too_many_total_points(total_points, limits);
+            return Err(RouteError::File { file: path.to_path_buf(), what });
+        }
+        geo_legs.push(geo_leg);
+    }
     let Some(origin) = origin_of(&geo_legs) else {
         return Err(RouteError::File { file: path.to_path_buf(), what: "contains no LineString features".to_string() });
     };
@@ -57,6 +65,7 @@ pub(super) fn parse(path: &Path, text: &str) -> Result<Vec<Route>, RouteError> {
         .into_iter()
         .map(|(name, legs)| Route { name, source: path.to_path_buf(), origin: Some(origin), legs })
         .collect::<Vec<_>>();
+    check_route_limits(path, &routes, limits)?;
     for route in &routes {
         check_joins(route)?;
     }
@@ -99,12 +108,15 @@ const ALL_OR_NONE: &str = "give every point of a leg an altitude, or none";
 type Coordinates = (Vec<[f64; 2]>, Option<Vec<f64>>);
 
 /// Validates one feature: a LineString with valid properties and coordinates.
-fn read_feature(index: usize, feature: &Feature) -> Result<GeoLeg, String> {
+fn read_feature(index: usize, feature: &Feature, limits: &Limits) -> Result<GeoLeg, String> {
     let positions = match feature.geometry.as_ref().map(|g| &g.value) {
         Some(GeometryValue::LineString { coordinates }) => coordinates,
         Some(other) => return Err(format!("geometry is {}, expected LineString", other.type_name())),
         None => return Err("geometry is null, expected LineString".to_string()),
     };
+    if positions.len() > limits.max_points_per_leg {
+        return Err(too_many_points(positions.len(), limits));
+    }
     let properties = read_properties(feature.properties.as_ref())?;
     let (lon_lat_deg, altitude_m) = read_coordinates(positions)?;
     Ok(GeoLeg { feature: index, properties, lon_lat_deg, altitude_m })
@@ -201,6 +213,11 @@ fn check_lon_lat(j: usize, lon_deg: f64, lat_deg: f64, alt_m: Option<f64>) -> Re
     if !(-90.0..=90.0).contains(&lat_deg) {
         return Err(format!("point {j}: latitude {lat_deg} is outside [-90, 90] (positions are [lon, lat])"));
     }
+    if let Some(alt_m) = alt_m.filter(|a| a.abs() > MAX_ABS_ALTITUDE_M) {
+        return Err(format!(
+            "point {j}: altitude {alt_m} m is beyond +-{MAX_ABS_ALTITUDE_M} m (positions are [lon, lat, alt_m])"
+        ));
+    }
     Ok(())
 }
 
@@ -275,7 +292,7 @@ mod tests {
     }
 
     fn read(text: &str) -> Result<Vec<Route>, RouteError> {
-        parse(Path::new(FILE), text)
+        parse(Path::new(FILE), text, &Limits::default())
     }
 
     /// The error message, checked to name the file.

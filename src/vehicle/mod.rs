@@ -113,10 +113,18 @@ impl Profile {
         }
     }
 
-    /// Reads and validates a profile file.
+    /// Reads and validates a profile file (at most the default file-size limit).
     pub fn read(path: &Path) -> Result<Profile, VehicleError> {
-        let text =
-            std::fs::read_to_string(path).map_err(|source| VehicleError::Io { file: path.to_path_buf(), source })?;
+        Profile::read_with(path, &crate::limits::Limits::default())
+    }
+
+    /// Reads and validates a profile file no larger than `limits.max_file_bytes`.
+    pub fn read_with(path: &Path, limits: &crate::limits::Limits) -> Result<Profile, VehicleError> {
+        use crate::limits::{read_text_limited, ReadLimitedError};
+        let text = read_text_limited(path, limits.max_file_bytes).map_err(|e| match e {
+            ReadLimitedError::Io(source) => VehicleError::Io { file: path.to_path_buf(), source },
+            other => VehicleError::File { file: path.to_path_buf(), what: other.to_string() },
+        })?;
         parse_profile(path, &text)
     }
 
@@ -144,6 +152,8 @@ pub fn family_of(t: &TerrainSpec) -> Family {
 pub enum VehicleError {
     #[error("{file}: cannot read: {source}")]
     Io { file: PathBuf, source: std::io::Error },
+    #[error("{file}: {what}")]
+    File { file: PathBuf, what: String },
     #[error("{file}: not valid TOML: {message}")]
     Syntax { file: PathBuf, message: String },
     #[error("{file}: {key}: {what}")]

@@ -170,9 +170,13 @@ fn edit_distance(a: &str, b: &str) -> usize {
 
 /// The allowed key closest to `key`, if it is close enough to be a likely typo.
 fn suggestion<'k>(key: &str, allowed: &[&'k str]) -> Option<&'k str> {
-    let limit = (key.chars().count() / 3).clamp(1, 3);
+    let len = key.chars().count();
+    let limit = (len / 3).clamp(1, 3);
+    // Lengths further apart than the limit cannot be within it; skipping them keeps a huge
+    // hostile key from costing a len x len table.
     allowed
         .iter()
+        .filter(|k| k.chars().count().abs_diff(len) <= limit)
         .map(|k| (edit_distance(key, k), *k))
         .filter(|(d, _)| *d <= limit)
         .min_by_key(|(d, _)| *d)
