@@ -78,7 +78,10 @@ fn check_step_bound(route: &Route, profile: &Profile, limits: &Limits) -> Result
          limit with --max-steps or SKIDROUTE_MAX_STEPS",
         route.name, profile.follower.control_rate_hz, limits.max_rollout_steps
     );
-    Err(RouteError::File { file: route.source.clone(), what })
+    Err(match route.legs.first() {
+        Some(leg) => RouteError::At { file: route.source.clone(), position: leg.position, what },
+        None => RouteError::File { file: route.source.clone(), what },
+    })
 }
 
 /// Simulates and assesses one route (at most the default step budget).

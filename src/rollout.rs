@@ -335,4 +335,73 @@ mod tests {
         assert!(matches!(tr.outcome, Outcome::TimedOut { .. }));
         assert!(tr.steps.last().expect("steps").t_s <= d.time_limit_s() + 0.1);
     }
+
+    /// The route must end within its time bound (plus one step) and fail with a reason.
+    fn assert_ends_within_bound(d: &RouteDrive, tr: &Trace) {
+        let last = tr.steps.last().expect("steps");
+        assert!(last.t_s <= d.time_limit_s() + d.limits.dt_s + 1e-9, "{} > {}", last.t_s, d.time_limit_s());
+    }
+
+    #[test]
+    fn a_circling_vehicle_times_out() {
+        // Omega follows the sum of the side speeds, not their difference: driving forward always
+        // turns left on a 0.5 m circle, and no command can straighten it.
+        let actual = Model::Linear(crate::kinematics::Linear { j: [[0.5, 0.5], [0.0, 0.0], [1.0, 1.0]] });
+        let d = drive_on(vec![[0.0, 0.0], [20.0, 0.0]], actual, 1.0, limits(1.5));
+        let tr = roll_out(&d);
+        assert!(matches!(tr.outcome, Outcome::TimedOut { progress_m, .. } if progress_m < 20.0), "{:?}", tr.outcome);
+        assert_ends_within_bound(&d, &tr);
+    }
+
+    #[test]
+    fn a_pathological_speed_reserves_little_and_the_budget_stops_it() {
+        // 1e-6 m/s on a 10 km leg: the time bound is 3 x 10 km / 0.05 m/s + 60 s = 600 060 s,
+        // 30 million steps at 50 Hz; reserving from it would take gigabytes.
+        let d = drive_on(vec![[0.0, 0.0], [10_000.0, 0.0]], Model::ideal(0.9), 1e-6, limits(1.5));
+        assert_relative_eq!(d.time_limit_s(), 600_060.0, max_relative = 1e-12);
+        assert!(d.step_bound() > 3e7);
+        let tr = roll_out_within(&d, 2_000);
+        assert!(matches!(tr.outcome, Outcome::StepBudget { max_steps: 2_000, .. }), "{:?}", tr.outcome);
+        assert_eq!(tr.steps.len(), 2_001);
+        assert!(tr.steps.capacity() <= MAX_RESERVED_STEPS + 64, "{}", tr.steps.capacity());
+    }
+
+    #[test]
+    fn the_route_step_bound_matches_the_drive() {
+        let profile = crate::vehicle::Profile::demo();
+        let route = Route {
+            name: "r".into(),
+            source: "r.csv".into(),
+            origin: None,
+            legs: vec![crate::route::Leg {
+                name: None,
+                terrain: "gravel".into(),
+                speed_mps: Some(1e-6),
+                corridor_m: None,
+                points: vec![[0.0, 0.0], [6_000.0, 0.0], [10_000.0, 0.0]],
+                altitude_m: None,
+                position: crate::route::SourcePosition::Line(2),
+            }],
+        };
+        let d = RouteDrive::new(&route, &profile);
+        assert_relative_eq!(step_bound(&route, &profile), d.step_bound(), max_relative = 1e-9);
+    }
+
+    #[test]
+    fn a_u_turn_tighter_than_the_vehicle_can_turn_ends_and_leaves_the_corridor() {
+        // A 0.5 m radius hairpin for a vehicle whose yaw-rate clamp allows 2 m at 1 m/s.
+        let mut hairpin: Vec<[f64; 2]> = vec![[0.0, 0.0], [10.0, 0.0]];
+        hairpin.extend((1..20).map(|i| {
+            let a = std::f64::consts::PI * i as f64 / 20.0 - std::f64::consts::FRAC_PI_2;
+            [10.0 + 0.5 * a.cos(), 0.5 + 0.5 * a.sin()]
+        }));
+        hairpin.extend([[10.0, 1.0], [0.0, 1.0]]);
+        let lim = FollowerLimits { max_yaw_rate_radps: 0.5, ..limits(1.0) };
+        let d = drive_on(hairpin, Model::ideal(0.9), 1.0, lim);
+        let tr = roll_out(&d);
+        assert_ends_within_bound(&d, &tr);
+        let max_dev = tr.steps.iter().map(|s| s.deviation_m).fold(0.0, f64::max);
+        assert!(max_dev > d.legs[0].corridor_m, "{max_dev}");
+        assert!(tr.steps.iter().all(|s| s.pose.x_m.is_finite() && s.pose.y_m.is_finite()));
+    }
 }
