@@ -55,6 +55,42 @@ pub struct SampleSetup {
     pub time_limit_s: f64,
     /// Spacing of the points kept of a true path (for plots), metres.
     pub path_spacing_m: f64,
+    /// Leg of each plan segment (segment i joins plan points i and i + 1).
+    pub segment_leg: Vec<usize>,
+}
+
+/// Squared distance from `p` to the segment a-b, m^2.
+#[inline]
+fn segment_distance2(p: [f64; 2], a: [f64; 2], b: [f64; 2]) -> f64 {
+    let (dx, dy) = (b[0] - a[0], b[1] - a[1]);
+    let len2 = dx * dx + dy * dy;
+    let t = if len2 > 0.0 { (((p[0] - a[0]) * dx + (p[1] - a[1]) * dy) / len2).clamp(0.0, 1.0) } else { 0.0 };
+    let (ex, ey) = (p[0] - a[0] - t * dx, p[1] - a[1] - t * dy);
+    ex * ex + ey * ey
+}
+
+/// Where the true vehicle is along the plan, for the terrain under it: the plan segment it is
+/// nearest to, tracked forward only from one segment to the next (so loops are taken in
+/// order). Constant time per step; no search over the plan.
+#[derive(Debug, Clone, Copy, Default)]
+struct SegmentCursor {
+    segment: usize,
+}
+
+impl SegmentCursor {
+    #[inline]
+    fn advance(&mut self, points: &[[f64; 2]], p: [f64; 2]) {
+        while self.segment + 2 < points.len() {
+            let i = self.segment;
+            let here = segment_distance2(p, points[i], points[i + 1]);
+            let next = segment_distance2(p, points[i + 1], points[i + 2]);
+            if next < here {
+                self.segment += 1;
+            } else {
+                break;
+            }
+        }
+    }
 }
 
 /// Error at one leg end: true minus believed, east and north (m), and yaw (rad).
@@ -93,7 +129,6 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
     let plan = &drive.plan;
     let n_legs = plan.leg_count();
     let dt = drive.limits.dt_s;
-    let window_m = drive.limits.lookahead_m;
     let leg_end_m: Vec<f64> = (0..n_legs).map(|i| plan.leg_bounds_m(i).1).collect();
 
     let start = plan.point_at(0.0);
@@ -109,7 +144,8 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
         v
     });
     let mut since_point_m = 0.0;
-    let mut true_s = 0.0;
+    let mut cursor = SegmentCursor::default();
+    let points = plan.points();
     let mut next_end = 0;
     let mut k: u64 = 0;
     let timed_out = loop {
@@ -131,13 +167,12 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
         let localized = s < setup.loss_start_m;
         let leg = follower.leg();
         let cmd = follower.command(believed, &drive.legs[leg].controller);
-        // The terrain under the true vehicle: the leg of its own forward-only progress point.
+        // The terrain under the true vehicle: the leg of the plan segment it is nearest to.
         let true_leg = if single_terrain {
             leg
         } else {
-            let near = plan.nearest_within([truth.x_m, truth.y_m], true_s, true_s + window_m);
-            true_s = true_s.max(near.s_m);
-            plan.leg_at(true_s)
+            cursor.advance(points, [truth.x_m, truth.y_m]);
+            setup.segment_leg.get(cursor.segment).copied().unwrap_or(leg)
         };
         let mut twist = actual[true_leg].twist(cmd.left_mps, cmd.right_mps);
         let ds_m = twist.vx_mps.hypot(twist.vy_mps) * dt;
