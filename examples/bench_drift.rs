@@ -56,6 +56,17 @@ fn main() {
         route.legs.len(),
         profile.follower.control_rate_hz
     );
+    // Reference: the deterministic rollout of the same route (follower, plan queries, one
+    // model and one SE(2) step per control step), single thread.
+    let drive = skidroute::rollout::RouteDrive::new(&route, &profile);
+    let t0 = Instant::now();
+    let reps = 20;
+    let mut steps = 0;
+    for _ in 0..reps {
+        steps += skidroute::rollout::roll_out(&drive).steps.len();
+    }
+    let secs = t0.elapsed().as_secs_f64();
+    println!("reference rollout: {:.0} ns per step ({steps} steps)", secs / steps as f64 * 1e9);
     let mut times = Vec::new();
     let mut outputs = Vec::new();
     for threads in [1, 2] {
@@ -77,9 +88,11 @@ fn main() {
         let secs = t0.elapsed().as_secs_f64();
         let last = report.legs.last().and_then(|l| l.cep95_m()).unwrap_or(f64::NAN);
         println!(
-            "{threads} thread(s): {secs:.2} s, {} steps, {:.1} M steps/s, timed out {}, CEP95 at the end {last:.2} m",
+            "{threads} thread(s): {secs:.2} s, {} steps, {:.1} M steps/s ({:.0} ns per step per thread), timed out {}, \
+             CEP95 at the end {last:.2} m",
             report.steps,
             report.steps as f64 / secs / 1e6,
+            secs * threads as f64 / report.steps as f64 * 1e9,
             report.timed_out
         );
         times.push(secs);

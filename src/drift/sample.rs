@@ -212,3 +212,30 @@ fn add_noise(twist: &mut Twist, noise: &Noise, ds_m: f64, dt_s: f64, rng: &mut C
     twist.vx_mps += noise.along_m_per_sqrt_m * scale * za;
     twist.vy_mps += noise.cross_m_per_sqrt_m * scale * zc;
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn cursor_follows_corners_and_hairpins_forward_only() {
+        // An L (east then north) followed by a hairpin back south one metre further east.
+        let pts = [[0.0, 0.0], [10.0, 0.0], [10.0, 10.0], [11.0, 10.0], [11.0, 0.0]];
+        let mut c = SegmentCursor::default();
+        // Cutting the corner inside, as pure pursuit does: x < 10 while turning north.
+        for p in [[5.0, 0.1], [9.0, 0.5], [9.6, 2.0], [9.8, 5.0]] {
+            c.advance(&pts, p);
+        }
+        assert_eq!(c.segment, 1);
+        // Near the hairpin's return leg, the forward-only cursor does not jump to it early.
+        c.advance(&pts, [10.4, 5.0]);
+        assert_eq!(c.segment, 1);
+        for p in [[10.2, 9.8], [10.8, 9.9], [11.0, 8.0]] {
+            c.advance(&pts, p);
+        }
+        assert_eq!(c.segment, 3);
+        // Far off the plan it still moves on only one segment at a time and never back.
+        c.advance(&pts, [-50.0, -50.0]);
+        assert_eq!(c.segment, 3);
+    }
+}
