@@ -92,8 +92,11 @@ fn equal_ranges(points: impl Iterator<Item = [f64; 2]>, w_px: f64, h_px: f64) ->
     ((cx - hw, cx + hw), (cy - hh, cy + hh))
 }
 
-/// Ellipse outline about the mean true position at each leg end, local frame.
-fn ellipse_outlines(r: &DriftReport) -> Vec<(usize, Vec<[f64; 2]>, [f64; 2], f64)> {
+/// One leg end on the map: leg index, 95 % ellipse outline about the mean true position, the
+/// leg end point and the CEP95 radius (local frame, metres).
+type LegEndShapes = (usize, Vec<[f64; 2]>, [f64; 2], f64);
+
+fn ellipse_outlines(r: &DriftReport) -> Vec<LegEndShapes> {
     r.legs
         .iter()
         .filter_map(|l| {
