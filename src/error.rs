@@ -11,4 +11,6 @@ pub enum Error {
     Vehicle(#[from] crate::vehicle::VehicleError),
     #[error(transparent)]
     Report(#[from] crate::report::ReportError),
+    #[error(transparent)]
+    Drift(#[from] crate::drift::DriftError),
 }

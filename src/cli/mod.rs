@@ -3,6 +3,7 @@
 //! here.
 
 pub mod check;
+pub mod drift;
 pub mod profile;
 pub mod progress;
 
