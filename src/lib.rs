@@ -8,6 +8,7 @@
 pub mod assess;
 pub mod check;
 pub mod error;
+pub mod fit;
 pub mod follow;
 pub mod kinematics;
 pub mod progress;

@@ -1,0 +1,1 @@
+//! Statistical and end-to-end tests of the fit pipeline.
