@@ -19,6 +19,8 @@ struct Cli {
 enum Command {
     /// Roll routes out through the terrain models and report every leg.
     Check(cli::check::CheckArgs),
+    /// Calibrate per-terrain motion models from drive logs and write a profile.
+    Fit(cli::fit::FitArgs),
     /// Print the built-in demo profile, or validate a profile file.
     Profile(cli::profile::ProfileArgs),
 }
@@ -33,6 +35,7 @@ fn main() -> ExitCode {
     };
     let result = match cli.command {
         Command::Check(a) => cli::check::run_check(a),
+        Command::Fit(a) => cli::fit::run_fit(a),
         Command::Profile(a) => cli::profile::run_profile(a),
     };
     match result {

@@ -3,6 +3,7 @@
 //! here.
 
 pub mod check;
+pub mod fit;
 pub mod profile;
 pub mod progress;
 

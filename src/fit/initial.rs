@@ -175,10 +175,12 @@ fn schedule_start(par: &Parametrisation, v: &[VelocitySample], sym: (f64, f64)) 
         .collect()
 }
 
-/// Curvature nodes (1/m) for `extended-scheduled`: 0 and the 1/3, 2/3 and 9/10 quantiles (type 7)
-/// of the commanded curvature of turning training samples, rounded to two significant digits and
-/// kept only when each is at least 1.3 times the one before. Fewer than 100 turning samples give
-/// the single node 0 (a constant table).
+/// Curvature nodes (1/m) for `extended-scheduled`: the 1/10, 1/3, 2/3 and 9/10 quantiles
+/// (type 7) of the commanded curvature of turning training samples, rounded to two significant
+/// digits and kept only when each is at least 1.3 times the one before. Below the first node the
+/// table is constant, so straight driving shares the first row with gentle turns (a node at 0
+/// would have a track expansion that straight driving cannot identify). Fewer than 100 turning
+/// samples give the single node 0 (a constant table).
 pub fn schedule_nodes(s: &Series, track_width_m: f64) -> Vec<f64> {
     let mut k: Vec<f64> = (0..s.len())
         .filter(|i| !s.held_out[*i])
@@ -189,18 +191,21 @@ pub fn schedule_nodes(s: &Series, track_width_m: f64) -> Vec<f64> {
         })
         .filter(|k| *k >= TURNING_CURVATURE_PER_M && k.is_finite())
         .collect();
-    let mut nodes = vec![0.0];
     if k.len() < 100 {
-        return nodes;
+        return vec![0.0];
     }
     k.sort_by(f64::total_cmp);
-    for p in [1.0 / 3.0, 2.0 / 3.0, 0.9] {
+    let mut nodes: Vec<f64> = Vec::new();
+    for p in [0.1, 1.0 / 3.0, 2.0 / 3.0, 0.9] {
         let Some(q) = quantile_sorted(&k, p) else { continue };
         let q = round_significant(q, 2);
-        let prev = nodes.last().copied().unwrap_or(0.0);
-        if q >= 1.3 * prev && q > prev + 1e-3 && nodes.len() < MAX_SCHEDULE_ROWS {
+        let ok = nodes.last().is_none_or(|prev| q >= 1.3 * prev && q > prev + 1e-3);
+        if ok && nodes.len() < MAX_SCHEDULE_ROWS {
             nodes.push(q);
         }
+    }
+    if nodes.is_empty() {
+        nodes.push(0.0);
     }
     nodes
 }
@@ -242,7 +247,7 @@ mod tests {
         let s = synthetic_series(&par, &truth, &Manoeuvres::mixed(200.0), 0.0, 5);
         let nodes = schedule_nodes(&s, 0.9);
         assert!(nodes.len() >= 2, "{nodes:?}");
-        assert_eq!(nodes[0], 0.0);
+        assert!(nodes[0] >= TURNING_CURVATURE_PER_M);
         for w in nodes.windows(2) {
             assert!(w[1] >= 1.3 * w[0] && w[1] > w[0]);
         }
