@@ -11,6 +11,7 @@ pub mod check;
 pub mod drift;
 pub mod effort;
 pub mod error;
+pub mod fit;
 pub mod follow;
 pub mod kinematics;
 pub mod progress;

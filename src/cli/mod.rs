@@ -4,6 +4,7 @@
 
 pub mod check;
 pub mod drift;
+pub mod fit;
 pub mod profile;
 pub mod progress;
 
