@@ -107,7 +107,8 @@ pub fn side_thrusts(
     let w = veh.weight_n();
     let mu_t = lateral_resistance(ground.lateral_resistance_max, curvature_per_m, veh.track_width_m);
     let m_r = turning_moment(mu_t, w, veh.contact_length_m, veh.running_gear);
-    let base = 0.5 * ground.rolling_resistance * w + 0.5 * veh.mass_kg * accel_mps2 + 0.5 * w * grade_rad.sin();
+    let slope = if grade_rad == 0.0 { 0.0 } else { grade_rad.sin() };
+    let base = 0.5 * ground.rolling_resistance * w + 0.5 * veh.mass_kg * accel_mps2 + 0.5 * w * slope;
     (base + m_r / veh.track_width_m, base - m_r / veh.track_width_m)
 }
 

@@ -10,5 +10,9 @@ pub enum Error {
     #[error(transparent)]
     Vehicle(#[from] crate::vehicle::VehicleError),
     #[error(transparent)]
+    Fit(#[from] crate::fit::FitError),
+    #[error(transparent)]
     Report(#[from] crate::report::ReportError),
+    #[error(transparent)]
+    Drift(#[from] crate::drift::DriftError),
 }

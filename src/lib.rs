@@ -2,13 +2,16 @@
 //!
 //! Data flow (see README.md): `route` (read + project + plan geometry) -> `vehicle` (profile)
 //! -> `kinematics` (model families, SE(2)) -> `follow` (controller) -> `rollout` (simulation)
-//! -> `assess` (per-leg verdicts) -> `report` (table, JSON, CSV, GeoJSON, plots).
+//! -> `assess` (per-leg verdicts) -> `report` (table, JSON, CSV, GeoJSON, plots); beside them
+//! `drift` (Monte Carlo of the position error when localization is lost).
 //! Everything inside is SI, local frame x east, y north, yaw anticlockwise from x.
 
 pub mod assess;
 pub mod check;
+pub mod drift;
 pub mod effort;
 pub mod error;
+pub mod fit;
 pub mod follow;
 pub mod kinematics;
 pub mod limits;

@@ -19,6 +19,10 @@ struct Cli {
 enum Command {
     /// Roll routes out through the terrain models and report every leg.
     Check(cli::check::CheckArgs),
+    /// Monte Carlo of the position error at each leg end when localization is lost.
+    Drift(cli::drift::DriftArgs),
+    /// Calibrate per-terrain motion models from drive logs and write a profile.
+    Fit(cli::fit::FitArgs),
     /// Print the built-in demo profile, or validate a profile file.
     Profile(cli::profile::ProfileArgs),
 }
@@ -33,6 +37,8 @@ fn main() -> ExitCode {
     };
     let result = match cli.command {
         Command::Check(a) => cli::check::run_check(a),
+        Command::Drift(a) => cli::drift::run_drift_command(a),
+        Command::Fit(a) => cli::fit::run_fit(a),
         Command::Profile(a) => cli::profile::run_profile(a),
     };
     match result {

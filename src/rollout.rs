@@ -283,16 +283,6 @@ mod tests {
         }
     }
 
-    fn circle(radius_m: f64, turns: f64) -> Vec<[f64; 2]> {
-        let n = (turns * 2000.0) as usize;
-        (0..=n)
-            .map(|i| {
-                let a = turns * std::f64::consts::TAU * i as f64 / n as f64 - std::f64::consts::FRAC_PI_2;
-                [radius_m * a.cos(), radius_m + radius_m * a.sin()]
-            })
-            .collect()
-    }
-
     #[test]
     fn straight_plan_on_ideal_terrain_is_followed_exactly() {
         let d = drive_on(vec![[0.0, 0.0], [30.0, 0.0]], Model::Ideal(Ideal { track_width_m: 0.9 }), 1.0, limits(1.5));
@@ -315,7 +305,7 @@ mod tests {
         let (radius_m, lookahead_m, chi) = (6.0, 2.0, 1.6);
         let actual =
             Model::ExtendedSymmetric(ExtendedSymmetric { track_width_m: 0.9, alpha: 1.0, track_expansion: chi });
-        let d = drive_on(circle(radius_m, 2.0), actual, 0.8, limits(lookahead_m));
+        let d = drive_on(crate::route::plan::circle_points(radius_m, 4000, 2.0), actual, 0.8, limits(lookahead_m));
         let tr = roll_out(&d);
         let expected = (radius_m * radius_m + (chi - 1.0) * lookahead_m * lookahead_m).sqrt();
         // Second half of the second turn: settled.

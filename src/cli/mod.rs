@@ -3,6 +3,8 @@
 //! here.
 
 pub mod check;
+pub mod drift;
+pub mod fit;
 pub mod limits;
 pub mod profile;
 pub mod progress;

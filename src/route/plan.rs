@@ -345,19 +345,22 @@ pub fn dist(a: [f64; 2], b: [f64; 2]) -> f64 {
     ((b[0] - a[0]).powi(2) + (b[1] - a[1]).powi(2)).sqrt()
 }
 
+/// Points of a circle of `radius_m` through the origin, centre (0, R), heading +x at the start,
+/// anticlockwise, `n` segments over `turns` turns (for tests).
+#[cfg(test)]
+pub(crate) fn circle_points(radius_m: f64, n: usize, turns: f64) -> Vec<[f64; 2]> {
+    (0..=n)
+        .map(|i| {
+            let a = turns * std::f64::consts::TAU * i as f64 / n as f64 - std::f64::consts::FRAC_PI_2;
+            [radius_m * a.cos(), radius_m + radius_m * a.sin()]
+        })
+        .collect()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
     use approx::assert_relative_eq;
-
-    fn circle(radius_m: f64, n: usize, turns: f64) -> Vec<[f64; 2]> {
-        (0..=n)
-            .map(|i| {
-                let a = turns * std::f64::consts::TAU * i as f64 / n as f64 - std::f64::consts::FRAC_PI_2;
-                [radius_m * a.cos(), radius_m + radius_m * a.sin()]
-            })
-            .collect()
-    }
 
     #[test]
     fn menger_reference_values() {
@@ -387,7 +390,7 @@ mod tests {
 
     #[test]
     fn circle_curvature_is_inverse_radius() {
-        let plan = PlanPath::from_parts(circle(5.0, 2000, 0.75), &[0], None);
+        let plan = PlanPath::from_parts(circle_points(5.0, 2000, 0.75), &[0], None);
         let (k, _) = plan.required_curvature(0, 0.5, 0.1);
         assert_relative_eq!(k, 0.2, max_relative = 1e-3);
     }
