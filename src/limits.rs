@@ -1,5 +1,5 @@
 //! Resource limits for hostile or runaway inputs: file size, points per leg, legs per route,
-//! points per run, simulation steps per route and Monte Carlo samples.
+//! points per run (and rows per drive log), simulation steps per route and Monte Carlo samples.
 //!
 //! Every limit is checked before the memory it guards is allocated, and exceeding one is an
 //! input error (exit code 2) whose message names the file, the position, the limit and how to
@@ -27,8 +27,10 @@ pub const DEFAULT_MAX_TOTAL_POINTS: usize = 20_000_000;
 /// trace per step, so the default bounds one trace near 1 GB. At 20 Hz it admits routes of about
 /// 30 h of planned driving.
 pub const DEFAULT_MAX_ROLLOUT_STEPS: u64 = 5_000_000;
-/// Most Monte Carlo samples one `drift` run may draw.
-pub const DEFAULT_MAX_SAMPLES: u64 = 1_000_000;
+/// Most Monte Carlo samples one `drift` run may draw (its `--samples` flag is checked against
+/// this by the drift module); not configurable, since each sample's cost is already bounded by the
+/// route's step bound.
+pub const MAX_SAMPLES: usize = crate::drift::MAX_SAMPLES;
 
 /// Largest magnitude of a local-frame coordinate (CSV `x_m`, `y_m`), metres. A local map frame
 /// stays well within this (UTM northings are below 1e7 m); larger values are almost always a
@@ -45,7 +47,6 @@ pub struct Limits {
     pub max_legs_per_route: usize,
     pub max_total_points: usize,
     pub max_rollout_steps: u64,
-    pub max_samples: u64,
 }
 
 impl Default for Limits {
@@ -56,7 +57,6 @@ impl Default for Limits {
             max_legs_per_route: DEFAULT_MAX_LEGS_PER_ROUTE,
             max_total_points: DEFAULT_MAX_TOTAL_POINTS,
             max_rollout_steps: DEFAULT_MAX_ROLLOUT_STEPS,
-            max_samples: DEFAULT_MAX_SAMPLES,
         }
     }
 }
@@ -71,20 +71,20 @@ pub struct LimitSettingError {
 
 impl Limits {
     /// Environment variables that override the defaults, with the limit each sets:
-    /// file size in MiB, points per leg, legs per route, total points, rollout steps, samples.
-    pub const ENV: [&'static str; 6] = [
+    /// file size in MiB, points per leg, legs per route, total points (also drive-log rows),
+    /// rollout steps.
+    pub const ENV: [&'static str; 5] = [
         "SKIDROUTE_MAX_FILE_MIB",
         "SKIDROUTE_MAX_POINTS_PER_LEG",
         "SKIDROUTE_MAX_LEGS_PER_ROUTE",
         "SKIDROUTE_MAX_TOTAL_POINTS",
         "SKIDROUTE_MAX_STEPS",
-        "SKIDROUTE_MAX_SAMPLES",
     ];
 
     /// These limits with overrides from `lookup` (the binary passes the process environment;
     /// the library never reads it). Unset or empty variables keep the current value.
     pub fn with_overrides(mut self, lookup: impl Fn(&str) -> Option<String>) -> Result<Limits, LimitSettingError> {
-        let [file, per_leg, legs, total, steps, samples] = Self::ENV;
+        let [file, per_leg, legs, total, steps] = Self::ENV;
         if let Some(mib) = setting(file, &lookup)? {
             self.max_file_bytes = mib.saturating_mul(1024 * 1024);
         }
@@ -99,9 +99,6 @@ impl Limits {
         }
         if let Some(n) = setting(steps, &lookup)? {
             self.max_rollout_steps = n;
-        }
-        if let Some(n) = setting(samples, &lookup)? {
-            self.max_samples = n;
         }
         Ok(self)
     }
@@ -171,13 +168,13 @@ mod tests {
         let env = |name: &str| match name {
             "SKIDROUTE_MAX_FILE_MIB" => Some("2".to_string()),
             "SKIDROUTE_MAX_POINTS_PER_LEG" => Some(" 10 ".to_string()),
-            "SKIDROUTE_MAX_SAMPLES" => Some(String::new()),
+            "SKIDROUTE_MAX_STEPS" => Some(String::new()),
             _ => None,
         };
         let l = Limits::default().with_overrides(env).expect("valid");
         assert_eq!(l.max_file_bytes, 2 * 1024 * 1024);
         assert_eq!(l.max_points_per_leg, 10);
-        assert_eq!(l.max_samples, DEFAULT_MAX_SAMPLES);
+        assert_eq!(l.max_rollout_steps, DEFAULT_MAX_ROLLOUT_STEPS);
         let bad = |name: &str| (name == "SKIDROUTE_MAX_STEPS").then(|| "-3".to_string());
         let e = Limits::default().with_overrides(bad).expect_err("negative");
         assert_eq!(e.to_string(), "SKIDROUTE_MAX_STEPS: \"-3\" is not a whole number >= 1");

@@ -100,7 +100,8 @@ pub fn run_drift_command(a: DriftArgs) -> Result<ExitCode> {
         drift_report::check_plot_extension(p)?;
     }
     let (profile, demo) = load_profile(&a.vehicle)?;
-    let routes = skidroute::check::load_routes(std::slice::from_ref(&a.route), &profile)?;
+    let limits = super::limits::LimitArgs::default().resolve()?; // SKIDROUTE_MAX_* from the environment
+    let routes = skidroute::check::load_routes_with(std::slice::from_ref(&a.route), &profile, &limits)?;
     let route = pick_route(routes, a.route_name.as_deref(), &a.route)?;
     if outputs.ellipses_geojson.is_some() && route.origin.is_none() {
         bail!(

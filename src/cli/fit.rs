@@ -5,7 +5,7 @@ use std::process::ExitCode;
 
 use anyhow::Result;
 use clap::Args;
-use skidroute::fit::{fit_logs, log::read_log, FitSettings};
+use skidroute::fit::{fit_logs, log::read_log_with, FitSettings};
 use skidroute::report::{self, FitOutputs};
 
 use super::load_profile;
@@ -52,8 +52,10 @@ pub fn run_fit(a: FitArgs) -> Result<ExitCode> {
         Some(p) => p.display().to_string(),
         None => "built-in demo profile".to_string(),
     };
-    let logs = a.logs.iter().map(|p| read_log(p)).collect::<Result<Vec<_>, _>>()?;
-    let validation = a.validate.iter().map(|p| read_log(p)).collect::<Result<Vec<_>, _>>()?;
+    // Limits from the environment (SKIDROUTE_MAX_FILE_MIB, SKIDROUTE_MAX_TOTAL_POINTS).
+    let limits = super::limits::LimitArgs::default().resolve()?;
+    let logs = a.logs.iter().map(|p| read_log_with(p, &limits)).collect::<Result<Vec<_>, _>>()?;
+    let validation = a.validate.iter().map(|p| read_log_with(p, &limits)).collect::<Result<Vec<_>, _>>()?;
     let bar = Bar::new(a.quiet || a.json);
     let run = fit_logs(&logs, &validation, &base, &base_name, demo, &settings, &bar)?;
     report::write_fit_outputs(&run, &outputs)?;

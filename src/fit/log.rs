@@ -7,11 +7,13 @@
 //! with the exact WGS 84 transform of [`crate::route::GeoOrigin`]; nothing downstream sees degrees.
 //! Every problem is an error naming the file, the line (the header is line 1) and the column.
 
+use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
 use csv::{ReaderBuilder, StringRecord, Trim};
 
 use super::FitError;
+use crate::limits::{read_text_limited, Limits, ReadLimitedError, MAX_ABS_COORDINATE_M};
 use crate::route::GeoOrigin;
 
 /// One validated row of a drive log, in local metres.
@@ -57,10 +59,19 @@ struct Columns {
     terrain: Option<usize>,
 }
 
-/// Reads and validates a drive log file.
+/// Reads and validates a drive log file with the default [`Limits`].
 pub fn read_log(path: &Path) -> Result<DriveLog, FitError> {
-    let text = std::fs::read_to_string(path).map_err(|source| FitError::Io { file: path.to_path_buf(), source })?;
-    parse_log(path, &text)
+    read_log_with(path, &Limits::default())
+}
+
+/// [`read_log`] with explicit limits: the file size is checked before reading, the row count
+/// (against `max_total_points`) while parsing.
+pub fn read_log_with(path: &Path, limits: &Limits) -> Result<DriveLog, FitError> {
+    let text = read_text_limited(path, limits.max_file_bytes).map_err(|e| match e {
+        ReadLimitedError::Io(source) => FitError::Io { file: path.to_path_buf(), source },
+        other => FitError::File { file: path.to_path_buf(), what: other.to_string() },
+    })?;
+    parse_log_with(path, &text, limits)
 }
 
 /// Parses drive-log text; `path` only names the file in messages.
@@ -73,6 +84,11 @@ pub fn read_log(path: &Path) -> Result<DriveLog, FitError> {
 /// assert!((log.period_s - 0.02).abs() < 1e-12);
 /// ```
 pub fn parse_log(path: &Path, text: &str) -> Result<DriveLog, FitError> {
+    parse_log_with(path, text, &Limits::default())
+}
+
+/// [`parse_log`] refusing more than `limits.max_total_points` rows.
+pub fn parse_log_with(path: &Path, text: &str, limits: &Limits) -> Result<DriveLog, FitError> {
     let file_error = |what: &str| FitError::File { file: path.to_path_buf(), what: what.to_string() };
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
     if text.trim().is_empty() {
@@ -82,6 +98,8 @@ pub fn parse_log(path: &Path, text: &str) -> Result<DriveLog, FitError> {
     let header = reader.headers().map_err(|e| csv_error(path, &e, 1))?.clone();
     let columns = read_header(&header).map_err(|what| FitError::Line { file: path.to_path_buf(), line: 1, what })?;
     let mut terrains: Vec<String> = Vec::new();
+    // Terrain indices by name: a log may name a new terrain on every row.
+    let mut terrain_index: HashMap<String, usize> = HashMap::new();
     let mut samples: Vec<LogSample> = Vec::new();
     let mut origin: Option<GeoOrigin> = None;
     for (k, record) in reader.records().enumerate() {
@@ -122,17 +140,30 @@ pub fn parse_log(path: &Path, text: &str) -> Result<DriveLog, FitError> {
             }
             _ => (get("x_m", columns.x_m)?, get("y_m", columns.y_m)?),
         };
+        for (column, value) in [("x_m", x_m), ("y_m", y_m)] {
+            if value.abs() > MAX_ABS_COORDINATE_M {
+                return Err(at(column, format!("{value} m is beyond +-{MAX_ABS_COORDINATE_M} m (is it in metres?)")));
+            }
+        }
         let name = columns.terrain.and_then(|i| record.get(i)).unwrap_or("");
         if name.is_empty() {
             return Err(at("terrain", "is empty".to_string()));
         }
-        let terrain = match terrains.iter().position(|t| t == name) {
-            Some(i) => i,
+        let terrain = match terrain_index.get(name) {
+            Some(&i) => i,
             None => {
+                terrain_index.insert(name.to_string(), terrains.len());
                 terrains.push(name.to_string());
                 terrains.len() - 1
             }
         };
+        if samples.len() >= limits.max_total_points {
+            let what = format!(
+                "the log has more than {} rows, the limit (raise it with SKIDROUTE_MAX_TOTAL_POINTS)",
+                limits.max_total_points
+            );
+            return Err(FitError::Line { file: path.to_path_buf(), line, what });
+        }
         samples.push(LogSample {
             line,
             t_s,
