@@ -76,7 +76,9 @@ fn check_step_bound(route: &Route, profile: &Profile, limits: &Limits) -> Result
         "route '{}': simulating it could take up to {steps:.0} control steps at {} Hz (three times its planned \
          driving time plus a minute), more than the limit of {}; check the leg lengths and speeds, or raise the \
          limit with --max-steps or SKIDROUTE_MAX_STEPS",
-        route.name, profile.follower.control_rate_hz, limits.max_rollout_steps
+        crate::limits::clip(&route.name),
+        profile.follower.control_rate_hz,
+        limits.max_rollout_steps
     );
     Err(match route.legs.first() {
         Some(leg) => RouteError::At { file: route.source.clone(), position: leg.position, what },

@@ -124,6 +124,16 @@ fn setting(name: &str, lookup: &impl Fn(&str) -> Option<String>) -> Result<Optio
     }
 }
 
+/// Input text quoted in a message, shortened to its first 60 characters when longer than 80,
+/// so a hostile megabyte-long key or cell does not flood the terminal.
+pub fn clip(text: &str) -> std::borrow::Cow<'_, str> {
+    if text.chars().count() <= 80 {
+        return std::borrow::Cow::Borrowed(text);
+    }
+    let head: String = text.chars().take(60).collect();
+    std::borrow::Cow::Owned(format!("{head}... ({} bytes in all)", text.len()))
+}
+
 /// Why [`read_text_limited`] failed.
 #[derive(Debug, thiserror::Error)]
 pub enum ReadLimitedError {
@@ -193,5 +203,12 @@ mod tests {
         std::fs::write(&p, b"ok\xff").expect("write");
         assert!(matches!(read_text_limited(&p, 100), Err(ReadLimitedError::NotUtf8 { offset: 2 })));
         assert!(matches!(read_text_limited(dir.path(), 100), Err(ReadLimitedError::Io(_))));
+    }
+
+    #[test]
+    fn clip_shortens_only_long_text() {
+        assert_eq!(clip("speed"), "speed");
+        let long = "k".repeat(1000);
+        assert_eq!(clip(&long), format!("{}... (1000 bytes in all)", "k".repeat(60)));
     }
 }

@@ -208,7 +208,7 @@ fn read_header(header: &StringRecord) -> Result<Columns, String> {
             "lon_deg" => &mut c.lon_deg,
             "yaw_rad" => &mut c.yaw_rad,
             "terrain" => &mut c.terrain,
-            _ => return Err(format!("unknown column '{name}' (expected {KNOWN_COLUMNS})")),
+            _ => return Err(format!("unknown column '{}' (expected {KNOWN_COLUMNS})", crate::limits::clip(name))),
         };
         if slot.replace(index).is_some() {
             return Err(format!("column {name} appears twice"));
@@ -242,8 +242,8 @@ fn number(text: &str) -> Result<f64, String> {
     }
     match text.parse::<f64>() {
         Ok(v) if v.is_finite() => Ok(v),
-        Ok(_) => Err(format!("'{text}' is not a finite number")),
-        Err(_) => Err(format!("'{text}' is not a number")),
+        Ok(_) => Err(format!("'{}' is not a finite number", crate::limits::clip(text))),
+        Err(_) => Err(format!("'{}' is not a number", crate::limits::clip(text))),
     }
 }
 

@@ -9,7 +9,7 @@ mod read_geojson;
 
 use std::path::{Path, PathBuf};
 
-use crate::limits::{read_text_limited, Limits, ReadLimitedError};
+use crate::limits::{clip, read_text_limited, Limits, ReadLimitedError};
 
 pub use enu::GeoOrigin;
 pub use plan::{Cursor, PlanPath};
@@ -157,7 +157,7 @@ pub fn check_terrains(route: &Route, known: &[&str]) -> Result<(), RouteError> {
             return Err(RouteError::At {
                 file: route.source.clone(),
                 position: leg.position,
-                what: format!("unknown terrain '{}': the profile knows {}", leg.terrain, known.join(", ")),
+                what: format!("unknown terrain '{}': the profile knows {}", clip(&leg.terrain), known.join(", ")),
             });
         }
     }
@@ -203,7 +203,7 @@ fn check_route_limits(path: &Path, routes: &[Route], limits: &Limits) -> Result<
         if route.legs.len() > limits.max_legs_per_route {
             let what = format!(
                 "route '{}' has {} legs, more than the limit of {} (raise it with --max-legs-per-route or SKIDROUTE_MAX_LEGS_PER_ROUTE)",
-                route.name,
+                clip(&route.name),
                 route.legs.len(),
                 limits.max_legs_per_route
             );

@@ -14,7 +14,7 @@ use super::{
     check_route_limits, file_stem_name, find_duplicate_point, group_in_order, too_many_points, too_many_total_points,
     Leg, Route, RouteError, SourcePosition, DUPLICATE_POINT_M,
 };
-use crate::limits::{Limits, MAX_ABS_ALTITUDE_M, MAX_ABS_COORDINATE_M};
+use crate::limits::{clip, Limits, MAX_ABS_ALTITUDE_M, MAX_ABS_COORDINATE_M};
 
 const KNOWN_COLUMNS: &str = "x_m, y_m, terrain and optionally z_m, speed_mps, corridor_m, leg, route";
 
@@ -115,7 +115,7 @@ fn read_header(header: &StringRecord) -> Result<Columns, String> {
             "corridor_m" => &mut columns.corridor_m,
             "leg" => &mut columns.leg,
             "route" => &mut columns.route,
-            _ => return Err(format!("unknown column '{name}' (expected {KNOWN_COLUMNS})")),
+            _ => return Err(format!("unknown column '{}' (expected {KNOWN_COLUMNS})", clip(name))),
         };
         if slot.replace(index).is_some() {
             return Err(format!("column {name} appears twice"));
@@ -163,8 +163,8 @@ fn required_cell<'r>(record: &'r StringRecord, index: Option<usize>, column: &st
 fn number(text: &str, column: &str) -> Result<f64, String> {
     match text.parse::<f64>() {
         Ok(value) if value.is_finite() => Ok(value),
-        Ok(_) => Err(format!("column {column}: '{text}' is not a finite number")),
-        Err(_) => Err(format!("column {column}: '{text}' is not a number")),
+        Ok(_) => Err(format!("column {column}: '{}' is not a finite number", clip(text))),
+        Err(_) => Err(format!("column {column}: '{}' is not a number", clip(text))),
     }
 }
 
@@ -227,6 +227,7 @@ fn starts_new_leg(leg: &Leg, row: &Row, has_leg_column: bool) -> Result<bool, St
         return Ok(false);
     }
     let name = leg.name.as_deref().unwrap_or("");
+    let name = clip(name);
     Err(format!("terrain, speed_mps or corridor_m changes within leg '{name}': give the new part its own leg value"))
 }
 
@@ -269,7 +270,7 @@ impl LegBuilder {
     fn finish(self, path: &Path, limits: &Limits) -> Result<Leg, RouteError> {
         let LegBuilder { leg, lines } = self;
         let first_line = lines.first().copied().unwrap_or(1);
-        let label = leg.name.as_ref().map_or_else(|| "leg".to_string(), |name| format!("leg '{name}'"));
+        let label = leg.name.as_ref().map_or_else(|| "leg".to_string(), |name| format!("leg '{}'", clip(name)));
         let n = leg.points.len();
         if n < 2 {
             let what = format!("{label} has {n} point{}, at least 2 are needed", if n == 1 { "" } else { "s" });

@@ -259,7 +259,7 @@ fn check_joins(route: &Route) -> Result<(), RouteError> {
                 position: next.position,
                 what: format!(
                     "does not join {} in route '{}': its start is {gap_m:.2} m from that leg's end (at most {JOIN_TOLERANCE_M} m allowed)",
-                    previous.position, route.name
+                    previous.position, crate::limits::clip(&route.name)
                 ),
             });
         }

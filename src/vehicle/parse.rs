@@ -12,6 +12,7 @@ use toml::{Table, Value};
 
 use super::{FollowerSpec, InverseChoice, Profile, RunningGear, TerrainSpec, VehicleError, VehicleSpec};
 use crate::kinematics::{ExtendedScheduled, Family, Model, MotionModel, ScheduleRow};
+use crate::limits::clip;
 
 const TOP_KEYS: &[&str] = &["vehicle", "follower", "terrain"];
 
@@ -121,7 +122,7 @@ fn describe(v: &Value) -> String {
     match v {
         Value::Integer(i) => i.to_string(),
         Value::Float(f) => f.to_string(),
-        Value::String(s) => format!("the string {s:?}"),
+        Value::String(s) => format!("the string {:?}", clip(s)),
         Value::Boolean(b) => format!("the boolean {b}"),
         Value::Datetime(d) => format!("the date-time {d}"),
         Value::Array(_) => "an array".to_string(),
@@ -193,9 +194,9 @@ struct Section<'a> {
 impl<'a> Section<'a> {
     fn key_path(&self, key: &str) -> String {
         if self.prefix.is_empty() {
-            key.to_string()
+            clip(key).into_owned()
         } else {
-            format!("{}.{key}", self.prefix)
+            format!("{}.{}", self.prefix, clip(key))
         }
     }
 
@@ -274,7 +275,9 @@ fn parse_vehicle(s: &Section) -> Result<VehicleSpec, VehicleError> {
     let running_gear = match s.string("running_gear")? {
         "tracks" => RunningGear::Tracks,
         "wheels" => RunningGear::Wheels,
-        other => return Err(s.error("running_gear", format!("must be \"tracks\" or \"wheels\", got {other:?}"))),
+        other => {
+            return Err(s.error("running_gear", format!("must be \"tracks\" or \"wheels\", got {:?}", clip(other))))
+        }
     };
     Ok(VehicleSpec {
         name: name.to_string(),
@@ -299,7 +302,9 @@ fn parse_follower(s: &Section) -> Result<FollowerSpec, VehicleError> {
     let inverse_model = match s.string("inverse_model")? {
         "ideal" => InverseChoice::Ideal,
         "calibrated" => InverseChoice::Calibrated,
-        other => return Err(s.error("inverse_model", format!("must be \"ideal\" or \"calibrated\", got {other:?}"))),
+        other => {
+            return Err(s.error("inverse_model", format!("must be \"ideal\" or \"calibrated\", got {:?}", clip(other))))
+        }
     };
     Ok(FollowerSpec {
         lookahead_m: s.number("lookahead_m", Rule::Positive)?,
@@ -337,7 +342,7 @@ fn parse_terrain(s: &Section, track_width_m: f64) -> Result<TerrainSpec, Vehicle
     let family_name = s.string("model")?;
     let family = Family::from_name(family_name).ok_or_else(|| {
         let names: Vec<&str> = Family::ALL.into_iter().map(Family::name).collect();
-        s.error("model", format!("unknown model family {family_name:?}, expected one of {}", names.join(", ")))
+        s.error("model", format!("unknown model family {:?}, expected one of {}", clip(family_name), names.join(", ")))
     })?;
     let mut allowed = TERRAIN_COMMON_KEYS.to_vec();
     allowed.extend_from_slice(family.param_names());
