@@ -134,6 +134,16 @@ pub fn clip(text: &str) -> std::borrow::Cow<'_, str> {
     std::borrow::Cow::Owned(format!("{head}... ({} bytes in all)", text.len()))
 }
 
+/// A number from the input for a message: plain when moderate, in exponent form when huge or
+/// tiny (`1e300` rather than 301 digits).
+pub fn show_number(x: f64) -> String {
+    if x != 0.0 && !(1e-4..1e7).contains(&x.abs()) {
+        format!("{x:e}")
+    } else {
+        format!("{x}")
+    }
+}
+
 /// Why [`read_text_limited`] failed.
 #[derive(Debug, thiserror::Error)]
 pub enum ReadLimitedError {
@@ -203,6 +213,14 @@ mod tests {
         std::fs::write(&p, b"ok\xff").expect("write");
         assert!(matches!(read_text_limited(&p, 100), Err(ReadLimitedError::NotUtf8 { offset: 2 })));
         assert!(matches!(read_text_limited(dir.path(), 100), Err(ReadLimitedError::Io(_))));
+    }
+
+    #[test]
+    fn huge_numbers_show_in_exponent_form() {
+        assert_eq!(show_number(1e300), "1e300");
+        assert_eq!(show_number(-1.5e8), "-1.5e8");
+        assert_eq!(show_number(91.0), "91");
+        assert_eq!(show_number(0.0), "0");
     }
 
     #[test]

@@ -13,7 +13,7 @@ use std::path::{Path, PathBuf};
 use csv::{ReaderBuilder, StringRecord, Trim};
 
 use super::FitError;
-use crate::limits::{read_text_limited, Limits, ReadLimitedError, MAX_ABS_COORDINATE_M};
+use crate::limits::{read_text_limited, show_number, Limits, ReadLimitedError, MAX_ABS_COORDINATE_M};
 use crate::route::GeoOrigin;
 
 /// One validated row of a drive log, in local metres.
@@ -129,10 +129,10 @@ pub fn parse_log_with(path: &Path, text: &str, limits: &Limits) -> Result<DriveL
                 let lat = get("lat_deg", columns.lat_deg)?;
                 let lon = get("lon_deg", columns.lon_deg)?;
                 if !(-90.0..=90.0).contains(&lat) {
-                    return Err(at("lat_deg", format!("latitude {lat} is outside [-90, 90]")));
+                    return Err(at("lat_deg", format!("latitude {} is outside [-90, 90]", show_number(lat))));
                 }
                 if !(-180.0..=180.0).contains(&lon) {
-                    return Err(at("lon_deg", format!("longitude {lon} is outside [-180, 180]")));
+                    return Err(at("lon_deg", format!("longitude {} is outside [-180, 180]", show_number(lon))));
                 }
                 let o = *origin.get_or_insert_with(|| GeoOrigin::new(lat, lon, 0.0));
                 let [e, n, _] = o.to_local(lon, lat, 0.0);
@@ -142,7 +142,10 @@ pub fn parse_log_with(path: &Path, text: &str, limits: &Limits) -> Result<DriveL
         };
         for (column, value) in [("x_m", x_m), ("y_m", y_m)] {
             if value.abs() > MAX_ABS_COORDINATE_M {
-                return Err(at(column, format!("{value} m is beyond +-{MAX_ABS_COORDINATE_M} m (is it in metres?)")));
+                return Err(at(
+                    column,
+                    format!("{} m is beyond +-{MAX_ABS_COORDINATE_M} m (is it in metres?)", show_number(value)),
+                ));
             }
         }
         let name = columns.terrain.and_then(|i| record.get(i)).unwrap_or("");

@@ -14,7 +14,7 @@ use super::{
     check_route_limits, file_stem_name, find_duplicate_point, group_in_order, too_many_points, too_many_total_points,
     Leg, Route, RouteError, SourcePosition, DUPLICATE_POINT_M,
 };
-use crate::limits::{clip, Limits, MAX_ABS_ALTITUDE_M, MAX_ABS_COORDINATE_M};
+use crate::limits::{clip, show_number, Limits, MAX_ABS_ALTITUDE_M, MAX_ABS_COORDINATE_M};
 
 const KNOWN_COLUMNS: &str = "x_m, y_m, terrain and optionally z_m, speed_mps, corridor_m, leg, route";
 
@@ -172,9 +172,10 @@ fn number(text: &str, column: &str) -> Result<f64, String> {
 fn bounded(text: &str, column: &str, max_abs: f64) -> Result<f64, String> {
     match number(text, column)? {
         value if value.abs() <= max_abs => Ok(value),
-        value => {
-            Err(format!("column {column}: {value} m is beyond +-{max_abs} m (is it in metres, in a local frame?)"))
-        }
+        value => Err(format!(
+            "column {column}: {} m is beyond +-{max_abs} m (is it in metres, in a local frame?)",
+            show_number(value)
+        )),
     }
 }
 
@@ -184,7 +185,7 @@ fn positive_cell(record: &StringRecord, index: Option<usize>, column: &str) -> R
         None | Some("") => Ok(None),
         Some(text) => match number(text, column)? {
             value if value > 0.0 => Ok(Some(value)),
-            value => Err(format!("column {column}: {value} must be > 0")),
+            value => Err(format!("column {column}: {} must be > 0", show_number(value))),
         },
     }
 }

@@ -14,7 +14,7 @@ use super::{
     check_route_limits, file_stem_name, find_duplicate_point, group_in_order, too_many_points, too_many_total_points,
     GeoOrigin, Leg, Route, RouteError, SourcePosition, DUPLICATE_POINT_M, JOIN_TOLERANCE_M,
 };
-use crate::limits::{Limits, MAX_ABS_ALTITUDE_M};
+use crate::limits::{show_number, Limits, MAX_ABS_ALTITUDE_M};
 
 /// The properties of one leg, validated.
 struct LegProperties {
@@ -208,14 +208,21 @@ fn check_lon_lat(j: usize, lon_deg: f64, lat_deg: f64, alt_m: Option<f64>) -> Re
         return Err(format!("point {j} has a coordinate that is not a finite number"));
     }
     if !(-180.0..=180.0).contains(&lon_deg) {
-        return Err(format!("point {j}: longitude {lon_deg} is outside [-180, 180] (positions are [lon, lat])"));
+        return Err(format!(
+            "point {j}: longitude {} is outside [-180, 180] (positions are [lon, lat])",
+            show_number(lon_deg)
+        ));
     }
     if !(-90.0..=90.0).contains(&lat_deg) {
-        return Err(format!("point {j}: latitude {lat_deg} is outside [-90, 90] (positions are [lon, lat])"));
+        return Err(format!(
+            "point {j}: latitude {} is outside [-90, 90] (positions are [lon, lat])",
+            show_number(lat_deg)
+        ));
     }
     if let Some(alt_m) = alt_m.filter(|a| a.abs() > MAX_ABS_ALTITUDE_M) {
         return Err(format!(
-            "point {j}: altitude {alt_m} m is beyond +-{MAX_ABS_ALTITUDE_M} m (positions are [lon, lat, alt_m])"
+            "point {j}: altitude {} m is beyond +-{MAX_ABS_ALTITUDE_M} m (positions are [lon, lat, alt_m])",
+            show_number(alt_m)
         ));
     }
     Ok(())
