@@ -11,4 +11,8 @@ pub enum Error {
     Vehicle(#[from] crate::vehicle::VehicleError),
     #[error(transparent)]
     Report(#[from] crate::report::ReportError),
+    #[error(transparent)]
+    Compare(#[from] crate::compare::CompareError),
+    #[error(transparent)]
+    Relax(#[from] crate::relax::RelaxError),
 }

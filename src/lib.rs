@@ -7,10 +7,12 @@
 
 pub mod assess;
 pub mod check;
+pub mod compare;
 pub mod error;
 pub mod follow;
 pub mod kinematics;
 pub mod progress;
+pub mod relax;
 pub mod report;
 pub mod rollout;
 pub mod route;

@@ -1,0 +1,297 @@
+//! Choosing among alternative routes (`skidroute compare`): every alternative is checked with
+//! the same profile, then ranked by verdict first (pass, caution, fail) and then by one
+//! criterion (`time`, `energy`, `deviation` or `drift`), lower is better. Ties keep the input
+//! order, so the ranking is deterministic.
+//!
+//! Also gives the alternatives' plans and predicted paths in one common frame for an overlay
+//! plot: GeoJSON files are each projected about their own first point, so every route is taken
+//! back to lon/lat through its own origin and projected about the first route's origin.
+//! Units: metres, seconds, watt-hours.
+
+use serde::Serialize;
+
+use crate::assess::{RouteReport, Verdict};
+use crate::check::{CheckRun, CheckedRoute};
+
+/// What alternatives with the same verdict are ranked by (lower is better).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum RankBy {
+    /// Predicted driving time.
+    Time,
+    /// Predicted energy drawn from the battery.
+    Energy,
+    /// Largest predicted deviation from the plan.
+    Deviation,
+    /// Drift if localization is lost (CEP95 at the route end, seeded Monte Carlo).
+    Drift,
+}
+
+impl RankBy {
+    /// The name used on the command line and in reports.
+    pub fn name(self) -> &'static str {
+        match self {
+            RankBy::Time => "time",
+            RankBy::Energy => "energy",
+            RankBy::Deviation => "deviation",
+            RankBy::Drift => "drift",
+        }
+    }
+}
+
+/// A comparison could not be made.
+#[derive(Debug, thiserror::Error)]
+pub enum CompareError {
+    #[error("nothing to compare: the inputs hold no route")]
+    NoRoutes,
+    #[error(
+        "ranking by drift is not available yet: this build has no drift estimate; use --by time, energy or deviation"
+    )]
+    DriftUnavailable,
+    #[error(
+        "cannot overlay route '{csv_route}' (CSV, local map frame) with route '{geo_route}' (GeoJSON, lon/lat) \
+         in one plot: their frames are unrelated"
+    )]
+    MixedFrames { csv_route: String, geo_route: String },
+}
+
+/// The energy of a route in Wh, when the effort model provides it. This is the one place the
+/// energy ranking reads; it returns `None` until the effort estimate exists, and the ranking
+/// then falls back to time (said in the report).
+pub fn route_energy_wh(_report: &RouteReport) -> Option<f64> {
+    None
+}
+
+/// One alternative in the ranking (the JSON `ranking` entries).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Ranked {
+    /// 1-based rank.
+    pub rank: usize,
+    pub route: String,
+    pub source: String,
+    pub verdict: Verdict,
+    pub length_m: f64,
+    pub time_s: f64,
+    /// `null` until the effort model provides energy.
+    pub energy_wh: Option<f64>,
+    pub max_deviation_m: f64,
+    /// 1-based indices of the legs that fail.
+    pub failing_legs: Vec<usize>,
+    /// The value ranked on within the verdict class; `None` where it is not available.
+    pub ranked_value: Option<f64>,
+    /// Index of this alternative in the check run (input order).
+    #[serde(skip)]
+    pub run_index: usize,
+}
+
+/// A ranked comparison of alternatives.
+#[derive(Debug, Clone)]
+pub struct Comparison {
+    pub run: CheckRun,
+    pub by: RankBy,
+    /// True when `by` was not available for every route and time was used instead.
+    pub fell_back_to_time: bool,
+    pub ranking: Vec<Ranked>,
+}
+
+impl Comparison {
+    /// True when at least one alternative passes (cautions allowed unless `strict`).
+    pub fn any_acceptable(&self, strict: bool) -> bool {
+        self.ranking.iter().any(|r| match r.verdict {
+            Verdict::Pass => true,
+            Verdict::Caution => !strict,
+            Verdict::Fail => false,
+        })
+    }
+}
+
+fn criterion(r: &RouteReport, by: RankBy) -> Option<f64> {
+    match by {
+        RankBy::Time => Some(r.time_s),
+        RankBy::Energy => route_energy_wh(r),
+        RankBy::Deviation => Some(r.max_deviation_m),
+        RankBy::Drift => None,
+    }
+}
+
+/// Ranks checked alternatives: verdict first (pass, caution, fail), then `by` (lower first),
+/// then time, then input order. Ranking by drift needs the drift estimate and is refused
+/// without it. When energy is not available for every route, time is used (and flagged).
+///
+/// ```
+/// use skidroute::compare::{rank, RankBy};
+/// use skidroute::check::CheckRun;
+/// let run = CheckRun { vehicle_name: "demo".into(), demo_profile: true, routes: vec![] };
+/// assert!(rank(run, RankBy::Time).is_err()); // nothing to compare
+/// ```
+pub fn rank(run: CheckRun, by: RankBy) -> Result<Comparison, CompareError> {
+    if run.routes.is_empty() {
+        return Err(CompareError::NoRoutes);
+    }
+    if by == RankBy::Drift {
+        return Err(CompareError::DriftUnavailable);
+    }
+    let reports: Vec<&RouteReport> = run.routes.iter().map(|c| &c.report).collect();
+    let fell_back_to_time = reports.iter().any(|r| criterion(r, by).is_none());
+    let effective = if fell_back_to_time { RankBy::Time } else { by };
+    let mut order: Vec<usize> = (0..reports.len()).collect();
+    let key = |i: usize| criterion(reports[i], effective).unwrap_or(f64::INFINITY);
+    order.sort_by(|&a, &b| {
+        reports[a]
+            .verdict
+            .cmp(&reports[b].verdict)
+            .then(key(a).total_cmp(&key(b)))
+            .then(reports[a].time_s.total_cmp(&reports[b].time_s))
+            .then(a.cmp(&b))
+    });
+    let ranking = order
+        .iter()
+        .enumerate()
+        .map(|(k, &i)| {
+            let r = reports[i];
+            Ranked {
+                rank: k + 1,
+                route: r.route.clone(),
+                source: r.source.clone(),
+                verdict: r.verdict,
+                length_m: r.length_m,
+                time_s: r.time_s,
+                energy_wh: route_energy_wh(r),
+                max_deviation_m: r.max_deviation_m,
+                failing_legs: r.legs.iter().filter(|l| l.verdict == Verdict::Fail).map(|l| l.index).collect(),
+                ranked_value: criterion(r, effective),
+                run_index: i,
+            }
+        })
+        .collect();
+    Ok(Comparison { run, by, fell_back_to_time, ranking })
+}
+
+/// Plan and predicted path of one route in the common frame of a comparison, metres.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FramedRoute {
+    pub plan: Vec<[f64; 2]>,
+    pub predicted: Vec<[f64; 2]>,
+}
+
+/// All routes' plans and predicted paths in one frame: the first route's frame. GeoJSON routes
+/// with another origin are taken to lon/lat through their own origin (exact inverse) and
+/// projected about the first route's origin; CSV routes share their map frame as they are. A mix
+/// of CSV and GeoJSON routes has no common frame and is an error.
+pub fn common_frame(routes: &[CheckedRoute]) -> Result<Vec<FramedRoute>, CompareError> {
+    let Some(first) = routes.first() else {
+        return Err(CompareError::NoRoutes);
+    };
+    let base = first.route.origin;
+    routes
+        .iter()
+        .map(|cr| {
+            let map = |p: [f64; 2]| -> [f64; 2] {
+                match (base, cr.route.origin) {
+                    (Some(b), Some(o)) if b != o => {
+                        let (lon, lat, alt) = o.to_geodetic(p[0], p[1], 0.0);
+                        let q = b.to_local(lon, lat, alt);
+                        [q[0], q[1]]
+                    }
+                    _ => p,
+                }
+            };
+            match (base, cr.route.origin) {
+                (Some(_), None) => {
+                    return Err(CompareError::MixedFrames {
+                        csv_route: cr.route.name.clone(),
+                        geo_route: first.route.name.clone(),
+                    })
+                }
+                (None, Some(_)) => {
+                    return Err(CompareError::MixedFrames {
+                        csv_route: first.route.name.clone(),
+                        geo_route: cr.route.name.clone(),
+                    })
+                }
+                _ => {}
+            }
+            Ok(FramedRoute {
+                plan: cr.drive.plan.points().iter().map(|&p| map(p)).collect(),
+                predicted: cr.trace.steps.iter().map(|s| map([s.pose.x_m, s.pose.y_m])).collect(),
+            })
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::check::check_routes;
+    use crate::route::{Leg, Route, SourcePosition};
+    use crate::vehicle::Profile;
+    use std::path::PathBuf;
+
+    fn leg(points: Vec<[f64; 2]>, terrain: &str) -> Leg {
+        Leg {
+            name: None,
+            terrain: terrain.into(),
+            speed_mps: Some(1.2),
+            corridor_m: Some(1.0),
+            points,
+            altitude_m: None,
+            position: SourcePosition::Feature(0),
+        }
+    }
+
+    fn route(name: &str, points: Vec<[f64; 2]>) -> Route {
+        Route {
+            name: name.into(),
+            source: PathBuf::from("alts.geojson"),
+            origin: None,
+            legs: vec![leg(points, "deep-snow")],
+        }
+    }
+
+    /// The shorter alternative turns back sharply (a hairpin corner) on deep snow; the longer one
+    /// goes round on a wide arc. The longer one must rank first.
+    #[test]
+    fn longer_route_ranks_first_when_the_shorter_fails_a_tight_turn() {
+        let short = route("short", vec![[0.0, 0.0], [20.0, 0.0], [5.0, 8.0]]);
+        let arc: Vec<[f64; 2]> = (0..=60)
+            .map(|k| {
+                let a = std::f64::consts::PI * f64::from(k) / 60.0;
+                [20.0 + 12.0 * a.sin(), 12.0 - 12.0 * a.cos()]
+            })
+            .collect();
+        let mut long_pts = vec![[0.0, 0.0]];
+        long_pts.extend(arc);
+        long_pts.push([5.0, 24.0]);
+        let long = route("long", long_pts);
+        let profile = Profile::demo();
+        let run = check_routes(vec![short, long], &profile, true);
+        assert_eq!(run.routes[0].report.verdict, Verdict::Fail, "the hairpin must fail");
+        assert!(run.routes[0].report.length_m < run.routes[1].report.length_m);
+        for by in [RankBy::Time, RankBy::Energy, RankBy::Deviation] {
+            let c = rank(run.clone(), by).expect("rank");
+            assert_eq!(c.ranking[0].route, "long", "by {}", by.name());
+            assert_eq!(c.ranking[1].route, "short");
+            assert!(!c.ranking[1].failing_legs.is_empty());
+            assert!(c.any_acceptable(false) || c.ranking[0].verdict == Verdict::Fail);
+        }
+        assert!(matches!(rank(run, RankBy::Drift), Err(CompareError::DriftUnavailable)));
+    }
+
+    #[test]
+    fn common_frame_reprojects_other_origins() {
+        use crate::route::GeoOrigin;
+        let o1 = GeoOrigin::new(47.0, 8.0, 0.0);
+        let p = o1.to_local(8.001, 47.0005, 0.0);
+        let o2 = GeoOrigin::new(47.0005, 8.001, 0.0);
+        let mut a = route("a", vec![[0.0, 0.0], [10.0, 0.0]]);
+        a.origin = Some(o1);
+        let mut b = route("b", vec![[0.0, 0.0], [10.0, 0.0]]);
+        b.origin = Some(o2);
+        let run = check_routes(vec![a, b], &Profile::demo(), true);
+        let framed = common_frame(&run.routes).expect("frame");
+        // b's first point is o2, which lies at p in a's frame.
+        approx::assert_abs_diff_eq!(framed[1].plan[0][0], p[0], epsilon = 1e-6);
+        approx::assert_abs_diff_eq!(framed[1].plan[0][1], p[1], epsilon = 1e-6);
+        approx::assert_abs_diff_eq!(framed[0].plan[1][0], 10.0, epsilon = 1e-9);
+    }
+}
