@@ -6,6 +6,7 @@
 
 use serde::Serialize;
 
+use crate::effort::{effort_step, side_thrust_limit_n, traction_curvature_limit};
 use crate::follow::{saturate_sides, FollowerLimits};
 use crate::kinematics::{Model, MotionModel};
 use crate::rollout::{Outcome, RouteDrive, Trace};
@@ -110,6 +111,16 @@ pub struct LegReport {
     pub rms_deviation_m: f64,
     pub end_deviation_m: f64,
     pub time_s: f64,
+    /// Energy drawn from the source on this leg.
+    pub energy_wh: f64,
+    pub energy_wh_per_m: f64,
+    /// Largest thrust of either side.
+    pub peak_side_thrust_n: f64,
+    /// Largest power drawn from the source.
+    pub peak_power_w: f64,
+    pub mean_power_w: f64,
+    /// Steepest uphill grade of the plan on this leg, percent (0 without altitude).
+    pub max_uphill_grade_pct: f64,
     pub verdict: Verdict,
     pub reasons: Vec<String>,
 }
@@ -125,8 +136,17 @@ pub struct RouteReport {
     pub max_deviation_m: f64,
     /// False when the rollout hit its time bound before the end.
     pub completed: bool,
+    pub energy_wh: f64,
+    pub peak_power_w: f64,
+    /// Share of `battery_wh` the route uses, when the profile gives a battery.
+    pub battery_used_fraction: Option<f64>,
+    /// Route-level reasons (battery reserve).
+    pub reasons: Vec<String>,
     pub legs: Vec<LegReport>,
 }
+
+/// Battery reserve below which a route earns a caution.
+pub const BATTERY_RESERVE_FRACTION: f64 = 0.2;
 
 fn finite(x: f64) -> Option<f64> {
     x.is_finite().then_some(x)
@@ -153,13 +173,24 @@ fn deviation_stats(trace: &Trace, leg: usize, dt_s: f64) -> (f64, f64, f64, f64)
     (max, rms, end, n as f64 * dt_s)
 }
 
-/// Assesses every leg of a simulated route. `traction_limits` gives the traction/thrust/power
-/// curvature limit per leg when the effort model has computed one.
-pub fn assess_route(route: &Route, drive: &RouteDrive, trace: &Trace, traction_limits: &[Option<f64>]) -> RouteReport {
-    let legs: Vec<LegReport> = (0..drive.legs.len())
-        .map(|i| assess_leg(route, drive, trace, i, traction_limits.get(i).copied().flatten()))
-        .collect();
-    let verdict = legs.iter().map(|l| l.verdict).max().unwrap_or(Verdict::Pass);
+/// Assesses every leg of a simulated route, and the route's energy against the battery.
+pub fn assess_route(route: &Route, drive: &RouteDrive, trace: &Trace, battery_wh: Option<f64>) -> RouteReport {
+    let legs: Vec<LegReport> = (0..drive.legs.len()).map(|i| assess_leg(route, drive, trace, i)).collect();
+    let energy_wh: f64 = legs.iter().map(|l| l.energy_wh).sum();
+    let battery_used_fraction = battery_wh.map(|b| energy_wh / b);
+    let mut reasons = Vec::new();
+    let mut verdict = legs.iter().map(|l| l.verdict).max().unwrap_or(Verdict::Pass);
+    if let (Some(share), Some(b)) = (battery_used_fraction, battery_wh) {
+        if share > 1.0 - BATTERY_RESERVE_FRACTION {
+            let v = if share > 1.0 { Verdict::Fail } else { Verdict::Caution };
+            verdict = verdict.max(v);
+            reasons.push(format!(
+                "the route needs {energy_wh:.0} Wh, {:.0} % of the {b:.0} Wh battery; less than {:.0} % would be left",
+                100.0 * share,
+                100.0 * BATTERY_RESERVE_FRACTION
+            ));
+        }
+    }
     RouteReport {
         route: route.name.clone(),
         source: route.source.display().to_string(),
@@ -168,12 +199,69 @@ pub fn assess_route(route: &Route, drive: &RouteDrive, trace: &Trace, traction_l
         time_s: trace.steps.last().map_or(0.0, |s| s.t_s),
         max_deviation_m: legs.iter().map(|l| l.max_deviation_m).fold(0.0, f64::max),
         completed: matches!(trace.outcome, Outcome::Reached),
+        energy_wh,
+        peak_power_w: legs.iter().map(|l| l.peak_power_w).fold(0.0, f64::max),
+        battery_used_fraction,
+        reasons,
         legs,
     }
 }
 
-fn assess_leg(route: &Route, drive: &RouteDrive, trace: &Trace, i: usize, traction_per_m: Option<f64>) -> LegReport {
+/// Effort totals of one leg's steps.
+#[derive(Debug, Clone, Copy, Default)]
+struct LegEffort {
+    energy_j: f64,
+    peak_thrust_n: f64,
+    peak_power_w: f64,
+    /// Largest outer thrust and drawn power without the acceleration share, and where.
+    peak_steady_thrust_n: f64,
+    peak_steady_thrust_at_m: f64,
+    peak_steady_power_w: f64,
+}
+
+fn leg_effort(drive: &RouteDrive, trace: &Trace, leg: usize) -> LegEffort {
+    let dt = drive.limits.dt_s;
+    let ground = &drive.legs[leg].ground;
+    let mut e = LegEffort::default();
+    for s in leg_steps(trace, leg) {
+        let f = &s.effort;
+        e.energy_j += f.drawn_power_w * dt;
+        e.peak_thrust_n = e.peak_thrust_n.max(f.left_thrust_n.abs()).max(f.right_thrust_n.abs());
+        e.peak_power_w = e.peak_power_w.max(f.drawn_power_w);
+        let steady = effort_step(
+            &drive.vehicle,
+            ground,
+            s.twist.vx_mps,
+            s.twist.omega_radps,
+            s.left_mps,
+            s.right_mps,
+            0.0,
+            f.grade_rad,
+        );
+        if steady.outer_thrust_n > e.peak_steady_thrust_n {
+            e.peak_steady_thrust_n = steady.outer_thrust_n;
+            e.peak_steady_thrust_at_m = s.progress_m;
+        }
+        e.peak_steady_power_w = e.peak_steady_power_w.max(steady.drawn_power_w);
+    }
+    e
+}
+
+/// Steepest uphill grade of the plan over a leg, rad, sampled every metre.
+fn max_uphill_grade_rad(drive: &RouteDrive, leg: usize) -> f64 {
+    if !drive.plan.has_altitude() {
+        return 0.0;
+    }
+    let (a, b) = drive.plan.leg_bounds_m(leg);
+    let n = ((b - a).ceil() as usize).max(1);
+    (0..=n).map(|k| drive.plan.grade_at(a + (b - a) * k as f64 / n as f64)).fold(0.0, f64::max)
+}
+
+fn assess_leg(route: &Route, drive: &RouteDrive, trace: &Trace, i: usize) -> LegReport {
     let ld = &drive.legs[i];
+    let traction_per_m = Some(traction_curvature_limit(&drive.vehicle, &ld.ground, ld.speed_mps));
+    let effort = leg_effort(drive, trace, i);
+    let grade_rad = max_uphill_grade_rad(drive, i);
     let (start_m, end_m) = drive.plan.leg_bounds_m(i);
     let scale_m = drive.curvature_scale_m;
     let (required, at_m) = drive.plan.required_curvature(i, scale_m, CURVATURE_STEP_M);
@@ -200,11 +288,76 @@ fn assess_leg(route: &Route, drive: &RouteDrive, trace: &Trace, i: usize, tracti
         rms_deviation_m: rms_dev,
         end_deviation_m: end_dev,
         time_s,
+        energy_wh: effort.energy_j / 3600.0,
+        energy_wh_per_m: if end_m > start_m { effort.energy_j / 3600.0 / (end_m - start_m) } else { 0.0 },
+        peak_side_thrust_n: effort.peak_thrust_n,
+        peak_power_w: effort.peak_power_w,
+        mean_power_w: if time_s > 0.0 { effort.energy_j / time_s } else { 0.0 },
+        max_uphill_grade_pct: 100.0 * grade_rad.tan(),
         verdict: Verdict::Pass,
         reasons: Vec::new(),
     };
     judge(&mut leg, &achievable, drive, trace, i);
+    judge_effort(&mut leg, &effort, grade_rad, drive, i);
     leg
+}
+
+/// The effort part of DESIGN 6.9: climbing, thrust and power against traction and ratings.
+fn judge_effort(leg: &mut LegReport, e: &LegEffort, grade_rad: f64, drive: &RouteDrive, i: usize) {
+    let ground = &drive.legs[i].ground;
+    let veh = &drive.vehicle;
+    let limit_n = side_thrust_limit_n(veh, ground);
+    let traction_n = 0.5 * ground.traction_coefficient * veh.weight_n();
+    let what = if traction_n <= veh.max_side_thrust_n {
+        format!("traction on {} gives {traction_n:.0} N", leg.terrain)
+    } else {
+        format!("the drive is rated {:.0} N", veh.max_side_thrust_n)
+    };
+    let mut add = |v: Verdict, why: String| {
+        leg.verdict = leg.verdict.max(v);
+        leg.reasons.push(why);
+    };
+    let climb = ground.rolling_resistance + grade_rad.sin();
+    if grade_rad > 0.0 && 0.5 * climb * veh.weight_n() > limit_n {
+        add(
+            Verdict::Fail,
+            format!(
+                "cannot climb: the {:.0} % grade with rolling resistance needs {:.0} N per side; {what}",
+                100.0 * grade_rad.tan(),
+                0.5 * climb * veh.weight_n()
+            ),
+        );
+    } else if e.peak_steady_thrust_n > limit_n {
+        add(
+            Verdict::Fail,
+            format!(
+                "the turn at {1:.0} m along the route needs {0:.0} N on the outer track without braking; {what}",
+                e.peak_steady_thrust_n, e.peak_steady_thrust_at_m
+            ),
+        );
+    } else if e.peak_thrust_n > limit_n {
+        add(
+            Verdict::Caution,
+            format!(
+                "accelerating needs up to {:.0} N per side; {what}, so the vehicle will accelerate slower than planned",
+                e.peak_thrust_n
+            ),
+        );
+    }
+    if e.peak_steady_power_w > veh.max_power_w {
+        add(
+            Verdict::Fail,
+            format!("needs {:.0} W, above the {:.0} W power rating", e.peak_steady_power_w, veh.max_power_w),
+        );
+    } else if e.peak_power_w > veh.max_power_w {
+        add(
+            Verdict::Caution,
+            format!(
+                "accelerating draws up to {:.0} W, above the {:.0} W rating; acceleration will be slower",
+                e.peak_power_w, veh.max_power_w
+            ),
+        );
+    }
 }
 
 /// Applies DESIGN 6.9 and writes the reasons.
@@ -216,8 +369,8 @@ fn judge(leg: &mut LegReport, achievable: &Achievable, drive: &RouteDrive, trace
     let ach = achievable.curvature_per_m();
     let req = leg.required_curvature_per_m;
     let limiter = match achievable.binding() {
-        CurvatureLimit::Kinematic => "slip and the yaw-rate limit",
-        CurvatureLimit::Traction => "traction",
+        CurvatureLimit::Kinematic => "slip and the yaw-rate limit".to_string(),
+        CurvatureLimit::Traction => format!("thrust against traction on {}", leg.terrain),
     };
     let at = format!("{:.0} m along the route", leg.tightest_turn_at_m);
     if req > ach {

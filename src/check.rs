@@ -53,7 +53,7 @@ pub fn load_routes(paths: &[PathBuf], profile: &Profile) -> Result<Vec<Route>, E
 pub fn check_route(route: Route, profile: &Profile) -> CheckedRoute {
     let drive = RouteDrive::new(&route, profile);
     let trace = roll_out(&drive);
-    let report = assess_route(&route, &drive, &trace, &[]);
+    let report = assess_route(&route, &drive, &trace, profile.vehicle.battery_wh);
     CheckedRoute { route, drive, trace, report }
 }
 

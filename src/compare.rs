@@ -55,11 +55,10 @@ pub enum CompareError {
     MixedFrames { csv_route: String, geo_route: String },
 }
 
-/// The energy of a route in Wh, when the effort model provides it. This is the one place the
-/// energy ranking reads; it returns `None` until the effort estimate exists, and the ranking
-/// then falls back to time (said in the report).
-pub fn route_energy_wh(_report: &RouteReport) -> Option<f64> {
-    None
+/// The energy of a route in Wh from the effort model; the one place the energy ranking reads.
+/// `None` (ranking falls back to time, and the report says so) only if it is not finite.
+pub fn route_energy_wh(report: &RouteReport) -> Option<f64> {
+    report.energy_wh.is_finite().then_some(report.energy_wh)
 }
 
 /// One alternative in the ranking (the JSON `ranking` entries).
@@ -72,7 +71,7 @@ pub struct Ranked {
     pub verdict: Verdict,
     pub length_m: f64,
     pub time_s: f64,
-    /// `null` until the effort model provides energy.
+    /// Predicted energy drawn, Wh.
     pub energy_wh: Option<f64>,
     pub max_deviation_m: f64,
     /// 1-based indices of the legs that fail.
@@ -170,7 +169,8 @@ pub fn rank(run: CheckRun, by: RankBy) -> Result<Comparison, CompareError> {
 /// Plan and predicted path of one route in the common frame of a comparison, metres.
 #[derive(Debug, Clone, PartialEq)]
 pub struct FramedRoute {
-    pub plan: Vec<[f64; 2]>,
+    /// Each leg's plan, sampled along its arc length.
+    pub plan_legs: Vec<Vec<[f64; 2]>>,
     pub predicted: Vec<[f64; 2]>,
 }
 
@@ -211,8 +211,17 @@ pub fn common_frame(routes: &[CheckedRoute]) -> Result<Vec<FramedRoute>, Compare
                 }
                 _ => {}
             }
+            let plan = &cr.drive.plan;
+            let step_m = (plan.length_m() / 2000.0).max(0.05);
+            let plan_legs = (0..plan.leg_count())
+                .map(|leg| {
+                    let (a, b) = plan.leg_bounds_m(leg);
+                    let n = (((b - a) / step_m).ceil() as usize).clamp(1, 20_000);
+                    (0..=n).map(|k| map(plan.point_at(a + (b - a) * k as f64 / n as f64))).collect()
+                })
+                .collect();
             Ok(FramedRoute {
-                plan: cr.drive.plan.points().iter().map(|&p| map(p)).collect(),
+                plan_legs,
                 predicted: cr.trace.steps.iter().map(|s| map([s.pose.x_m, s.pose.y_m])).collect(),
             })
         })
@@ -290,8 +299,8 @@ mod tests {
         let run = check_routes(vec![a, b], &Profile::demo(), true);
         let framed = common_frame(&run.routes).expect("frame");
         // b's first point is o2, which lies at p in a's frame.
-        approx::assert_abs_diff_eq!(framed[1].plan[0][0], p[0], epsilon = 1e-6);
-        approx::assert_abs_diff_eq!(framed[1].plan[0][1], p[1], epsilon = 1e-6);
-        approx::assert_abs_diff_eq!(framed[0].plan[1][0], 10.0, epsilon = 1e-9);
+        approx::assert_abs_diff_eq!(framed[1].plan_legs[0][0][0], p[0], epsilon = 1e-6);
+        approx::assert_abs_diff_eq!(framed[1].plan_legs[0][0][1], p[1], epsilon = 1e-6);
+        approx::assert_abs_diff_eq!(framed[0].plan_legs[0].last().expect("point")[0], 10.0, epsilon = 1e-9);
     }
 }

@@ -6,8 +6,10 @@
 //! Everything inside is SI, local frame x east, y north, yaw anticlockwise from x.
 
 pub mod assess;
+pub mod batch;
 pub mod check;
 pub mod compare;
+pub mod effort;
 pub mod error;
 pub mod follow;
 pub mod kinematics;

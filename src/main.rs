@@ -19,6 +19,10 @@ struct Cli {
 enum Command {
     /// Roll routes out through the terrain models and report every leg.
     Check(cli::check::CheckArgs),
+    /// Check alternative routes and rank them (verdict first, then --by).
+    Compare(cli::compare::CompareArgs),
+    /// Widen corners too tight for the terrain and write the repaired route.
+    Relax(cli::relax::RelaxArgs),
     /// Print the built-in demo profile, or validate a profile file.
     Profile(cli::profile::ProfileArgs),
 }
@@ -34,6 +38,8 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Command::Check(a) => cli::check::run_check(a),
         Command::Profile(a) => cli::profile::run_profile(a),
+        Command::Compare(a) => cli::compare::run_compare(a),
+        Command::Relax(a) => cli::relax::run_relax(a),
     };
     match result {
         Ok(code) => code,

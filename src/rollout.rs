@@ -7,6 +7,7 @@
 //! Units: seconds, metres, radians, local frame. The step loop allocates nothing (the trace is
 //! reserved up front from the time bound).
 
+use crate::effort::{effort_step, EffortStep, EffortVehicle, Ground};
 use crate::follow::{Follower, FollowerLimits};
 use crate::kinematics::{Model, MotionModel, Pose, Twist};
 use crate::route::{PlanPath, Route};
@@ -21,6 +22,8 @@ pub struct LegDrive {
     pub controller: Model,
     pub speed_mps: f64,
     pub corridor_m: f64,
+    /// Ground coefficients for the effort model.
+    pub ground: Ground,
 }
 
 /// Everything a rollout of one route needs.
@@ -32,6 +35,8 @@ pub struct RouteDrive {
     pub limits: FollowerLimits,
     /// Spacing at which the plan's curvature is measured (DESIGN 6.4).
     pub curvature_scale_m: f64,
+    /// Vehicle constants for the effort model.
+    pub vehicle: EffortVehicle,
 }
 
 impl RouteDrive {
@@ -45,6 +50,11 @@ impl RouteDrive {
             .iter()
             .map(|leg| {
                 let terrain = profile.terrain.get(&leg.terrain);
+                let ground = terrain.map(Ground::from_terrain).unwrap_or(Ground {
+                    rolling_resistance: 0.0,
+                    traction_coefficient: f64::INFINITY,
+                    lateral_resistance_max: 0.0,
+                });
                 let actual = terrain.map(|t| t.model.clone()).unwrap_or_else(|| Model::ideal(v.track_width_m));
                 let controller =
                     terrain.map(|t| profile.controller_model(t)).unwrap_or_else(|| Model::ideal(v.track_width_m));
@@ -54,6 +64,7 @@ impl RouteDrive {
                     controller,
                     speed_mps: leg.speed_mps.unwrap_or(v.cruise_speed_mps),
                     corridor_m: leg.corridor_m.unwrap_or(profile.follower.corridor_m),
+                    ground,
                 }
             })
             .collect();
@@ -66,7 +77,14 @@ impl RouteDrive {
             max_side_accel_mps2: v.max_side_accel_mps2,
             track_width_m: v.track_width_m,
         };
-        RouteDrive { plan, legs, speeds_mps, limits, curvature_scale_m: profile.follower.curvature_scale_m }
+        RouteDrive {
+            plan,
+            legs,
+            speeds_mps,
+            limits,
+            curvature_scale_m: profile.follower.curvature_scale_m,
+            vehicle: EffortVehicle::from_profile(profile),
+        }
     }
 
     /// Time bound for a rollout: three times the planned driving time at the reachable leg
@@ -98,6 +116,10 @@ pub struct Step {
     pub right_mps: f64,
     /// Actual body twist over the step that starts here.
     pub twist: Twist,
+    /// Forward acceleration over the step that ends here, m/s^2.
+    pub accel_mps2: f64,
+    /// Thrust, power and grade over the step that starts here.
+    pub effort: EffortStep,
 }
 
 /// How a rollout ended.
@@ -132,6 +154,7 @@ pub fn roll_out(drive: &RouteDrive) -> Trace {
     let mut follower = Follower::new(plan, &drive.speeds_mps, drive.limits);
     let mut t = 0.0;
     let mut k: u64 = 0;
+    let mut prev_vx = 0.0;
     let outcome = loop {
         follower.update_progress(pose);
         let leg = follower.leg();
@@ -159,6 +182,19 @@ pub fn roll_out(drive: &RouteDrive) -> Trace {
         step.left_mps = cmd.left_mps;
         step.right_mps = cmd.right_mps;
         step.twist = twist;
+        step.accel_mps2 = (twist.vx_mps - prev_vx) / dt;
+        prev_vx = twist.vx_mps;
+        let grade = if plan.has_altitude() { plan.grade_at(step.progress_m) } else { 0.0 };
+        step.effort = effort_step(
+            &drive.vehicle,
+            &legd.ground,
+            twist.vx_mps,
+            twist.omega_radps,
+            cmd.left_mps,
+            cmd.right_mps,
+            step.accel_mps2,
+            grade,
+        );
         steps.push(step);
         pose = pose.step(twist, dt);
         k += 1;
@@ -183,10 +219,12 @@ mod tests {
                 controller: Model::ideal(limits.track_width_m),
                 speed_mps,
                 corridor_m: 0.5,
+                ground: Ground { rolling_resistance: 0.05, traction_coefficient: 0.6, lateral_resistance_max: 0.5 },
             }],
             speeds_mps: vec![speed_mps],
             limits,
             curvature_scale_m: 0.5,
+            vehicle: EffortVehicle::from_profile(&crate::vehicle::Profile::demo()),
         }
     }
 
@@ -199,16 +237,6 @@ mod tests {
             max_side_accel_mps2: 2.0,
             track_width_m: 0.9,
         }
-    }
-
-    fn circle(radius_m: f64, turns: f64) -> Vec<[f64; 2]> {
-        let n = (turns * 2000.0) as usize;
-        (0..=n)
-            .map(|i| {
-                let a = turns * std::f64::consts::TAU * i as f64 / n as f64 - std::f64::consts::FRAC_PI_2;
-                [radius_m * a.cos(), radius_m + radius_m * a.sin()]
-            })
-            .collect()
     }
 
     #[test]
@@ -233,7 +261,7 @@ mod tests {
         let (radius_m, lookahead_m, chi) = (6.0, 2.0, 1.6);
         let actual =
             Model::ExtendedSymmetric(ExtendedSymmetric { track_width_m: 0.9, alpha: 1.0, track_expansion: chi });
-        let d = drive_on(circle(radius_m, 2.0), actual, 0.8, limits(lookahead_m));
+        let d = drive_on(crate::route::plan::circle_points(radius_m, 4000, 2.0), actual, 0.8, limits(lookahead_m));
         let tr = roll_out(&d);
         let expected = (radius_m * radius_m + (chi - 1.0) * lookahead_m * lookahead_m).sqrt();
         // Second half of the second turn: settled.

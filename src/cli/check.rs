@@ -8,11 +8,11 @@ use clap::Args;
 use skidroute::assess::Verdict;
 use skidroute::report::{self, CheckOutputs};
 
-use super::{color_wanted, load_profile};
+use super::{color_wanted, emit, load_profile};
 
 #[derive(Args)]
 pub struct CheckArgs {
-    /// Route files (.geojson, .json or .csv).
+    /// Route files (.geojson, .json or .csv) or folders of them (taken sorted by name).
     #[arg(required = true)]
     pub routes: Vec<PathBuf>,
     /// Vehicle profile (TOML); the built-in demo profile when omitted.
@@ -36,6 +36,12 @@ pub struct CheckArgs {
     /// Treat cautions as failures for the exit code.
     #[arg(long)]
     pub strict: bool,
+    /// Stdout format: the table, the JSON document, or JSON Lines (one route per line).
+    #[arg(long, value_enum, default_value = "table")]
+    pub format: super::batch::Format,
+    /// Write a self-contained HTML report (plot inline, per-leg table, reasons, caution).
+    #[arg(long, value_name = "FILE")]
+    pub html: Option<PathBuf>,
     /// Print nothing but errors.
     #[arg(long)]
     pub quiet: bool,
@@ -44,16 +50,20 @@ pub struct CheckArgs {
 pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
     let outputs =
         CheckOutputs { report_json: a.report, trace_csv: a.trace, predicted_geojson: a.predicted, plot: a.plot };
-    let inputs: Vec<PathBuf> = a.routes.iter().chain(a.vehicle.iter()).cloned().collect();
-    report::refuse_overwriting_inputs(&inputs, outputs.paths())?;
+    let files = skidroute::batch::expand_inputs(&a.routes)?;
+    let inputs: Vec<PathBuf> = files.iter().chain(a.vehicle.iter()).cloned().collect();
+    report::refuse_overwriting_inputs(&inputs, outputs.paths().chain(a.html.iter()))?;
     let (profile, demo) = load_profile(&a.vehicle)?;
-    let routes = skidroute::check::load_routes(&a.routes, &profile)?;
+    let routes = skidroute::batch::load_routes_parallel(&files, &profile)?;
     let run = skidroute::check::check_routes(routes, &profile, demo);
     report::write_check_outputs(&run, &outputs)?;
-    if a.json {
-        print!("{}", report::json::check_json(&run));
+    super::batch::write_html(&run, a.html.as_deref())?;
+    if a.format == super::batch::Format::Jsonl && !a.json {
+        emit(&report::jsonl::check_jsonl(&run))?;
+    } else if a.json || a.format == super::batch::Format::Json {
+        emit(&report::json::check_json(&run))?;
     } else if !a.quiet {
-        print!("{}", report::table::check_table(&run, color_wanted()));
+        emit(&report::table::check_table(&run, color_wanted()))?;
     }
     let failing = match run.verdict() {
         Verdict::Fail => true,

@@ -2,9 +2,12 @@
 //! calls the library and maps the outcome to an exit code. Helpers shared by subcommands live
 //! here.
 
+pub mod batch;
 pub mod check;
+pub mod compare;
 pub mod profile;
 pub mod progress;
+pub mod relax;
 
 use std::io::IsTerminal;
 use std::path::PathBuf;
@@ -22,5 +25,15 @@ pub fn load_profile(path: &Option<PathBuf>) -> Result<(Profile, bool)> {
     match path {
         Some(p) => Ok((Profile::read(p)?, false)),
         None => Ok((Profile::demo(), true)),
+    }
+}
+
+/// Prints to stdout; a closed pipe (`skidroute check ... | head`) is not an error.
+pub fn emit(text: &str) -> Result<()> {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    match out.write_all(text.as_bytes()).and_then(|_| out.flush()) {
+        Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => Err(e.into()),
+        _ => Ok(()),
     }
 }

@@ -20,14 +20,14 @@ pub fn run_profile(a: ProfileArgs) -> Result<ExitCode> {
     match (a.demo, a.file) {
         (_, Some(file)) => {
             let p = Profile::read(&file)?;
-            println!(
-                "{}: valid profile for '{}' with terrains {}",
+            super::emit(&format!(
+                "{}: valid profile for '{}' with terrains {}\n",
                 file.display(),
                 p.vehicle.name,
                 p.terrain_names().join(", ")
-            );
+            ))?;
         }
-        (true, None) => print!("{DEMO_PROFILE_TOML}"),
+        (true, None) => super::emit(DEMO_PROFILE_TOML)?,
         (false, None) => anyhow::bail!("give a profile file to validate, or --demo to print the built-in one"),
     }
     Ok(ExitCode::SUCCESS)

@@ -35,8 +35,8 @@ impl Pose {
         } else {
             let (s, c) = theta.sin_cos();
             let inv_w = 1.0 / twist.omega_radps;
-            // 1 - cos(theta) as 2 sin^2(theta/2) keeps precision for small steps.
-            let one_minus_c = if theta.abs() < 0.1 { 2.0 * (0.5 * theta).sin().powi(2) } else { 1.0 - c };
+            // 1 - cos(theta) = sin^2(theta) / (1 + cos(theta)) keeps precision for small steps.
+            let one_minus_c = if c > 0.0 { s * s / (1.0 + c) } else { 1.0 - c };
             (
                 (twist.vx_mps * s - twist.vy_mps * one_minus_c) * inv_w,
                 (twist.vx_mps * one_minus_c + twist.vy_mps * s) * inv_w,

@@ -35,8 +35,10 @@ pub use fillet::{fillet, tangent_length_m, turning_angle_rad, Fillet};
 pub struct RelaxSettings {
     /// Points within this distance of the simplified line are dropped when finding corners.
     pub simplify_tolerance_m: f64,
-    /// Share of the achievable curvature a fillet is sized for; below the 80 % caution share,
-    /// so a sampled fillet and its joins with the straights read under it.
+    /// Share of the achievable curvature a fillet is sized for. Well below the 80 % caution
+    /// share: the follower's transient curvature entering an arc, and the thrust it takes, run
+    /// above the plan's steady value, and 0.6 left the demo's deep-snow corners passing where
+    /// 0.75 still failed on outer-track thrust.
     pub target_share: f64,
     /// Lowest leg speed relax will propose.
     pub min_speed_mps: f64,
@@ -44,7 +46,7 @@ pub struct RelaxSettings {
 
 impl Default for RelaxSettings {
     fn default() -> Self {
-        RelaxSettings { simplify_tolerance_m: 0.02, target_share: 0.75, min_speed_mps: 0.2 }
+        RelaxSettings { simplify_tolerance_m: 0.02, target_share: 0.6, min_speed_mps: 0.2 }
     }
 }
 
@@ -102,18 +104,18 @@ pub struct Relaxed {
     pub max_displacement_m: f64,
 }
 
-/// The traction/thrust/power curvature limit of a leg at `speed_mps`, where the effort model
-/// provides one. The single place relax reads it; `None` until effort exists.
-pub fn traction_limit_per_m(_profile: &Profile, _leg: &LegDrive, _speed_mps: f64) -> Option<f64> {
-    None
+/// The traction/thrust/power curvature limit of a leg at `speed_mps` (the effort model,
+/// DESIGN 6.5/6.6). The single place relax reads it.
+pub fn traction_limit_per_m(drive: &RouteDrive, leg: &LegDrive, speed_mps: f64) -> Option<f64> {
+    Some(crate::effort::traction_curvature_limit(&drive.vehicle, &leg.ground, speed_mps))
 }
 
 /// Achievable curvature of a leg at a speed (DESIGN 6.5): kinematic limit, and the traction
 /// limit where known.
-pub fn achievable_per_m(profile: &Profile, drive: &RouteDrive, leg: usize, speed_mps: f64) -> f64 {
+pub fn achievable_per_m(drive: &RouteDrive, leg: usize, speed_mps: f64) -> f64 {
     let Some(ld) = drive.legs.get(leg) else { return f64::INFINITY };
     let k = kinematic_curvature_limit(&drive.limits, &ld.controller, &ld.actual, speed_mps);
-    traction_limit_per_m(profile, ld, speed_mps).map_or(k, |t| t.min(k))
+    traction_limit_per_m(drive, ld, speed_mps).map_or(k, |t| t.min(k))
 }
 
 /// A corner of the simplified plan.
@@ -126,7 +128,21 @@ struct Corner {
     failing: bool,
 }
 
-/// What to do at a failing corner.
+/// Consecutive failing corners turning the same way, repaired as one corner at the
+/// intersection of the side before the first and the side after the last (a dense curve is
+/// one corner, not many small ones).
+struct Group {
+    /// First and last corner vertex (positions in the simplified vertex list).
+    a: usize,
+    b: usize,
+    /// The virtual corner vertex: where the two outer sides meet (the vertex itself for one corner).
+    x: [f64; 2],
+    turn_rad: f64,
+    kappa_per_m: f64,
+    legs: Vec<usize>,
+}
+
+/// What to do at a failing corner group.
 enum Plan {
     Fillet { fillet: Fillet, speed_mps: Option<f64> },
     Leave(String, f64, f64),
@@ -154,48 +170,89 @@ pub fn relax_route(route: &Route, profile: &Profile, settings: &RelaxSettings) -
     let first_index = leg_first_indices(route);
     let verts = simplified_vertices(pts, &first_index, settings.simplify_tolerance_m);
     let ach: Vec<f64> =
-        (0..drive.legs.len()).map(|i| achievable_per_m(profile, &drive, i, drive.legs[i].speed_mps)).collect();
+        (0..drive.legs.len()).map(|i| achievable_per_m(&drive, i, drive.legs[i].speed_mps)).collect();
     let corners = find_corners(&drive, &verts, &s_m, &ach);
+    let vp = |j: usize| pts[verts[j]];
+    let groups = group_corners(&corners, &vp);
     let spacing_m = (drive.curvature_scale_m / 5.0).min(0.1);
-    let mut plans: Vec<Option<Plan>> = Vec::with_capacity(corners.len());
-    for (c, corner) in corners.iter().enumerate() {
-        if !corner.failing {
-            plans.push(None);
-            continue;
-        }
-        let room = |k: usize, neighbour: Option<&Corner>| {
-            let len = dist(pts[verts[k]], pts[verts[k + 1]]);
-            if neighbour.is_some_and(|n| n.failing) {
-                0.5 * len
-            } else {
-                len
-            }
-        };
-        let j = corner.j;
-        let prev = c.checked_sub(1).and_then(|p| corners.get(p)).filter(|p| p.j + 1 == j);
-        let next = corners.get(c + 1).filter(|n| n.j == j + 1);
-        let room_m = room(j - 1, prev).min(room(j, next));
-        plans.push(Some(plan_corner(
-            profile,
-            &drive,
-            settings,
-            corner,
-            room_m,
-            &ach,
-            [pts[verts[j - 1]], pts[verts[j]], pts[verts[j + 1]]],
-            spacing_m,
-        )));
-    }
-    build(route, &drive, &s_m, &verts, &corners, plans)
+    let plans: Vec<Plan> = groups
+        .iter()
+        .enumerate()
+        .map(|(g, group)| {
+            let prev_adjacent = g.checked_sub(1).and_then(|p| groups.get(p)).is_some_and(|p| p.b + 1 == group.a);
+            let next_adjacent = groups.get(g + 1).is_some_and(|n| n.a == group.b + 1);
+            let share = |adjacent: bool| if adjacent { 0.5 } else { 1.0 };
+            let room_in = dist(vp(group.a - 1), group.x) * share(prev_adjacent);
+            let room_out = dist(group.x, vp(group.b + 1)) * share(next_adjacent);
+            let corner = [vp(group.a - 1), group.x, vp(group.b + 1)];
+            plan_corner(&drive, settings, group, room_in.min(room_out), &ach, corner, spacing_m)
+        })
+        .collect();
+    build(route, &drive, &s_m, &verts, &groups, plans)
 }
 
-/// Chooses the fillet radius and speed for one failing corner.
-#[allow(clippy::too_many_arguments)]
+/// Groups consecutive failing corners that turn the same way; a group whose outer sides do not
+/// meet ahead of it (or that turns back by about 180 degrees) is split into single corners.
+fn group_corners(corners: &[Corner], vp: &dyn Fn(usize) -> [f64; 2]) -> Vec<Group> {
+    let mut runs: Vec<Vec<&Corner>> = Vec::new();
+    for c in corners.iter().filter(|c| c.failing) {
+        match runs.last_mut() {
+            Some(run) if run.last().is_some_and(|l| l.j + 1 == c.j && l.turn_rad.signum() == c.turn_rad.signum()) => {
+                run.push(c)
+            }
+            _ => runs.push(vec![c]),
+        }
+    }
+    let mut groups = Vec::new();
+    for run in runs {
+        match run_group(&run, vp) {
+            Some(g) => groups.push(g),
+            None => groups.extend(run.iter().filter_map(|c| run_group(&[*c], vp))),
+        }
+    }
+    groups
+}
+
+fn run_group(run: &[&Corner], vp: &dyn Fn(usize) -> [f64; 2]) -> Option<Group> {
+    let (first, last) = (run.first()?, run.last()?);
+    let (a, b) = (first.j, last.j);
+    let turn_rad: f64 = run.iter().map(|c| c.turn_rad).sum();
+    if turn_rad.abs() >= std::f64::consts::PI - 0.05 {
+        return None;
+    }
+    let x = if a == b {
+        vp(a)
+    } else {
+        // Intersect p + l d1 (through the first corner) with q + m d2 (through the last).
+        let (p, q) = (vp(a - 1), vp(b + 1));
+        let d1 = [vp(a)[0] - p[0], vp(a)[1] - p[1]];
+        let d2 = [q[0] - vp(b)[0], q[1] - vp(b)[1]];
+        let den = d1[0] * d2[1] - d1[1] * d2[0];
+        if den.abs() < 1e-12 {
+            return None;
+        }
+        let w = [vp(b)[0] - p[0], vp(b)[1] - p[1]];
+        let l = (w[0] * d2[1] - w[1] * d2[0]) / den;
+        let m = (w[0] * d1[1] - w[1] * d1[0]) / den;
+        // The corner lies beyond the first vertex on the incoming side and before the last on
+        // the outgoing side.
+        if l < 1.0 - 1e-9 || m > 1e-9 {
+            return None;
+        }
+        [p[0] + l * d1[0], p[1] + l * d1[1]]
+    };
+    let mut legs: Vec<usize> = run.iter().flat_map(|c| c.legs.iter().copied()).collect();
+    legs.sort_unstable();
+    legs.dedup();
+    let kappa_per_m = run.iter().map(|c| c.kappa_per_m).fold(0.0, f64::max);
+    Some(Group { a, b, x, turn_rad, kappa_per_m, legs })
+}
+
+/// Chooses the fillet radius and speed for one failing corner group.
 fn plan_corner(
-    profile: &Profile,
     drive: &RouteDrive,
     settings: &RelaxSettings,
-    corner: &Corner,
+    corner: &Group,
     room_m: f64,
     ach: &[f64],
     [a, v, b]: [[f64; 2]; 3],
@@ -216,7 +273,7 @@ fn plan_corner(
     let passes = |v_mps: f64| {
         corner.legs.iter().all(|&l| {
             let speed = v_mps.min(drive.legs[l].speed_mps);
-            1.0 / radius_m <= settings.target_share * achievable_per_m(profile, drive, l, speed)
+            1.0 / radius_m <= settings.target_share * achievable_per_m(drive, l, speed)
         })
     };
     let v_max = corner.legs.iter().map(|&l| drive.legs[l].speed_mps).fold(0.0, f64::max);
@@ -321,7 +378,8 @@ struct NewPoint {
     s_m: f64,
 }
 
-/// Arc length on the original plan of a point `u` metres along the simplified segment j..j+1.
+/// Arc length on the original plan of a point `u` metres along the simplified segment j..j+1
+/// (clamped to the segment).
 fn s_on_segment(pts: &[[f64; 2]], verts: &[usize], s_m: &[f64], j: usize, u_m: f64) -> f64 {
     let (a, b) = (verts[j], verts[j + 1]);
     let len = dist(pts[a], pts[b]);
@@ -334,54 +392,50 @@ fn build(
     drive: &RouteDrive,
     s_m: &[f64],
     verts: &[usize],
-    corners: &[Corner],
-    plans: Vec<Option<Plan>>,
+    groups: &[Group],
+    plans: Vec<Plan>,
 ) -> Result<Relaxed, RelaxError> {
     let pts = drive.plan.points();
-    let mut fillet_at: Vec<Option<(&Fillet, Option<f64>)>> = vec![None; verts.len()];
     let mut unrepaired = Vec::new();
     let mut speeds: Vec<Option<f64>> = vec![None; route.legs.len()];
-    let mut pending: Vec<(usize, &Corner, &Fillet, Option<f64>)> = Vec::new();
-    for (corner, plan) in corners.iter().zip(plans.iter()) {
-        let v = pts[verts[corner.j]];
+    let mut repaired: Vec<(&Group, &Fillet, Option<f64>)> = Vec::new();
+    for (g, plan) in groups.iter().zip(plans.iter()) {
         match plan {
-            None => {}
-            Some(Plan::Fillet { fillet, speed_mps }) => {
-                fillet_at[corner.j] = Some((fillet, *speed_mps));
+            Plan::Fillet { fillet, speed_mps } => {
                 if let Some(sp) = speed_mps {
-                    for &l in &corner.legs {
+                    for &l in &g.legs {
                         let cur = speeds[l].unwrap_or(drive.legs[l].speed_mps);
                         speeds[l] = Some(cur.min(*sp));
                     }
                 }
-                pending.push((corner.j, corner, fillet, *speed_mps));
+                repaired.push((g, fillet, *speed_mps));
             }
-            Some(Plan::Leave(reason, needed_m, room_m)) => unrepaired.push(Unrepaired {
-                at_m: s_m[verts[corner.j]],
-                x_m: v[0],
-                y_m: v[1],
-                legs: corner.legs.iter().map(|l| l + 1).collect(),
-                turn_deg: corner.turn_rad.to_degrees(),
-                old_radius_m: 1.0 / corner.kappa_per_m,
+            Plan::Leave(reason, needed_m, room_m) => unrepaired.push(Unrepaired {
+                at_m: s_m[verts[g.a]],
+                x_m: g.x[0],
+                y_m: g.x[1],
+                legs: g.legs.iter().map(|l| l + 1).collect(),
+                turn_deg: g.turn_rad.to_degrees(),
+                old_radius_m: 1.0 / g.kappa_per_m,
                 needed_radius_m: *needed_m,
                 room_radius_m: *room_m,
                 reason: reason.clone(),
             }),
         }
     }
-    let new_points = new_polyline(pts, s_m, verts, &fillet_at);
+    let fillets: Vec<(&Group, &Fillet)> = repaired.iter().map(|(g, f, _)| (*g, *f)).collect();
+    let new_points = new_polyline(pts, s_m, verts, &fillets);
     let mut changes = Vec::new();
-    for (j, corner, f, speed) in pending {
-        let v = pts[verts[j]];
-        let (from_m, to_m) = (s_m[verts[j - 1]], s_m[verts[j + 1]]);
-        let old_speed = corner.legs.iter().map(|&l| drive.legs[l].speed_mps).fold(0.0, f64::max);
+    for (g, f, speed) in repaired {
+        let (from_m, to_m) = (s_m[verts[g.a - 1]], s_m[verts[g.b + 1]]);
+        let old_speed = g.legs.iter().map(|&l| drive.legs[l].speed_mps).fold(0.0, f64::max);
         changes.push(Change {
-            at_m: s_m[verts[j]],
-            x_m: v[0],
-            y_m: v[1],
-            legs: corner.legs.iter().map(|l| l + 1).collect(),
+            at_m: 0.5 * (s_m[verts[g.a]] + s_m[verts[g.b]]),
+            x_m: g.x[0],
+            y_m: g.x[1],
+            legs: g.legs.iter().map(|l| l + 1).collect(),
             turn_deg: f.turn_rad.to_degrees(),
-            old_radius_m: 1.0 / corner.kappa_per_m,
+            old_radius_m: 1.0 / g.kappa_per_m,
             new_radius_m: f.radius_m,
             old_speed_mps: old_speed,
             new_speed_mps: speed,
@@ -394,13 +448,14 @@ fn build(
 }
 
 /// The new plan: original points between untouched vertices, straight simplified sides and
-/// fillets around repaired corners. Near-duplicate points are dropped.
-fn new_polyline(
-    pts: &[[f64; 2]],
-    s_m: &[f64],
-    verts: &[usize],
-    fillet_at: &[Option<(&Fillet, Option<f64>)>],
-) -> Vec<NewPoint> {
+/// fillets in place of repaired corner groups. Near-duplicate points are dropped.
+fn new_polyline(pts: &[[f64; 2]], s_m: &[f64], verts: &[usize], fillets: &[(&Group, &Fillet)]) -> Vec<NewPoint> {
+    let mut in_group: Vec<Option<usize>> = vec![None; verts.len()];
+    for (k, (g, _)) in fillets.iter().enumerate() {
+        for slot in in_group.iter_mut().take(g.b + 1).skip(g.a) {
+            *slot = Some(k);
+        }
+    }
     let mut out: Vec<NewPoint> = Vec::with_capacity(pts.len());
     let mut push = |q: NewPoint| {
         if out.last().is_none_or(|last| dist(last.p, q.p) >= 2.0 * DUPLICATE_POINT_M) {
@@ -408,19 +463,22 @@ fn new_polyline(
         }
     };
     for j in 0..verts.len() {
-        match fillet_at[j] {
-            Some((f, _)) => {
-                let len_in = dist(pts[verts[j - 1]], pts[verts[j]]);
-                let s0 = s_on_segment(pts, verts, s_m, j - 1, len_in - f.tangent_length_m);
-                let s1 = s_on_segment(pts, verts, s_m, j, f.tangent_length_m);
+        match in_group[j].and_then(|k| fillets.get(k)) {
+            Some((g, f)) if g.a == j => {
+                let (a, b) = (g.a, g.b);
+                let u_in = dist(pts[verts[a - 1]], g.x) - f.tangent_length_m;
+                let s0 = s_on_segment(pts, verts, s_m, a - 1, u_in);
+                let u_out = f.tangent_length_m - dist(g.x, pts[verts[b]]);
+                let s1 = s_on_segment(pts, verts, s_m, b, u_out);
                 let n = f.points.len().saturating_sub(1).max(1);
                 for (k, p) in f.points.iter().enumerate() {
                     push(NewPoint { p: *p, s_m: s0 + (s1 - s0) * k as f64 / n as f64 });
                 }
             }
+            Some(_) => {}
             None => push(NewPoint { p: pts[verts[j]], s_m: s_m[verts[j]] }),
         }
-        if j + 1 < verts.len() && fillet_at[j].is_none() && fillet_at[j + 1].is_none() {
+        if j + 1 < verts.len() && in_group[j].is_none() && in_group[j + 1].is_none() {
             for i in verts[j] + 1..verts[j + 1] {
                 push(NewPoint { p: pts[i], s_m: s_m[i] });
             }

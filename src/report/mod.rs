@@ -4,9 +4,13 @@
 //! leaves a partial output.
 
 mod atomic;
+pub mod compare_report;
+pub mod html;
 pub mod json;
+pub mod jsonl;
 pub mod plot;
 pub mod predicted;
+pub mod relaxed;
 pub mod table;
 pub mod trace_csv;
 

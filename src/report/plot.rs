@@ -19,7 +19,7 @@ use crate::check::{CheckRun, CheckedRoute};
 /// Width of the image in pixels.
 const WIDTH_PX: u32 = 1400;
 /// Height of the panels of one route in pixels.
-const ROUTE_HEIGHT_PX: u32 = 1050;
+const ROUTE_HEIGHT_PX: u32 = 1350;
 /// Width of the legend column beside the top view.
 const LEGEND_WIDTH_PX: u32 = 330;
 /// Routes drawn at most in one image.
@@ -116,11 +116,16 @@ where
         format!("route '{}': {}   ({:.0} m, {})", r.route, r.verdict.name().to_uppercase(), r.length_m, profile);
     let body = area.titled(&title, ("sans-serif", 26))?;
     let (w, h) = body.dim_in_pixel();
-    let (top, bottom) = body.split_vertically((h as f64 * 0.72) as u32);
+    let (top, bottom) = body.split_vertically((h as f64 * 0.6) as u32);
     let (map, legend) = top.split_horizontally(w.saturating_sub(LEGEND_WIDTH_PX));
     draw_top_view(&map, cr)?;
     draw_legend(&legend, &legend_entries(cr))?;
-    draw_deviation(&bottom, cr)?;
+    let (_, bh) = bottom.dim_in_pixel();
+    let (deviation, effort) = bottom.split_vertically(bh / 2);
+    draw_deviation(&deviation, cr)?;
+    let (thrust, power) = effort.split_horizontally(w / 2);
+    draw_effort(&thrust, cr, EffortPanel::Thrust)?;
+    draw_effort(&power, cr, EffortPanel::Power)?;
     Ok(())
 }
 
@@ -295,6 +300,83 @@ where
     Ok(())
 }
 
+#[derive(Clone, Copy, PartialEq)]
+enum EffortPanel {
+    Thrust,
+    Power,
+}
+
+/// Outer-track thrust (with each leg's limit: traction or rating) or drawn power (with the
+/// rating) against distance along the route.
+fn draw_effort<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    cr: &CheckedRoute,
+    panel: EffortPanel,
+) -> DrawResult<()>
+where
+    DB::ErrorType: 'static,
+{
+    let total_m = cr.drive.plan.length_m().max(1.0);
+    let veh = &cr.drive.vehicle;
+    let value = |s: &crate::rollout::Step| match panel {
+        EffortPanel::Thrust => s.effort.outer_thrust_n,
+        EffortPanel::Power => s.effort.drawn_power_w,
+    };
+    let limits: Vec<(f64, f64, f64)> = cr
+        .report
+        .legs
+        .iter()
+        .map(|l| {
+            let (a, b) = cr.drive.plan.leg_bounds_m(l.index - 1);
+            let lim = match panel {
+                EffortPanel::Thrust => crate::effort::side_thrust_limit_n(veh, &cr.drive.legs[l.index - 1].ground),
+                EffortPanel::Power => veh.max_power_w,
+            };
+            (a, b, lim)
+        })
+        .collect();
+    let peak = cr.trace.steps.iter().map(value).fold(0.0, f64::max);
+    let low = cr.trace.steps.iter().map(value).fold(0.0, f64::min);
+    let lim_max = limits.iter().map(|l| l.2).fold(0.0, f64::max);
+    let y_max = (peak.max(lim_max) * 1.12).max(1.0);
+    let y_min = (low * 1.12).min(0.0);
+    let mut chart = ChartBuilder::on(area)
+        .margin(12)
+        .x_label_area_size(45)
+        .y_label_area_size(80)
+        .build_cartesian_2d(0.0..total_m, y_min..y_max)?;
+    let (y_desc, line_label, limit_label) = match panel {
+        EffortPanel::Thrust => ("outer-track thrust (N)", "outer-track thrust", "limit: traction or rating"),
+        EffortPanel::Power => ("drawn power (W)", "drawn power", "power rating"),
+    };
+    chart
+        .configure_mesh()
+        .x_desc("distance along the route (m)")
+        .y_desc(y_desc)
+        .label_style(("sans-serif", 15))
+        .axis_desc_style(("sans-serif", 16))
+        .light_line_style(RGBColor(240, 240, 240))
+        .draw()?;
+    let limit_pts = limits.iter().flat_map(|&(a, b, lim)| [(a, lim), (b, lim)]);
+    chart
+        .draw_series(DashedLineSeries::new(limit_pts, 10, 6, FAIL_RED.stroke_width(2)))?
+        .label(limit_label)
+        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 24, y)], FAIL_RED.stroke_width(2)));
+    let pts = cr.trace.steps.iter().map(|s| (s.progress_m, value(s)));
+    chart
+        .draw_series(LineSeries::new(pts, RGBColor(30, 60, 160).stroke_width(2)))?
+        .label(line_label)
+        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 24, y)], RGBColor(30, 60, 160).stroke_width(2)));
+    chart
+        .configure_series_labels()
+        .position(SeriesLabelPosition::UpperLeft)
+        .label_font(("sans-serif", 15))
+        .background_style(WHITE.mix(0.85))
+        .border_style(RGBColor(160, 160, 160))
+        .draw()?;
+    Ok(())
+}
+
 fn draw_deviation<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, cr: &CheckedRoute) -> DrawResult<()>
 where
     DB::ErrorType: 'static,
@@ -345,4 +427,17 @@ where
         .border_style(RGBColor(160, 160, 160))
         .draw()?;
     Ok(())
+}
+
+/// The plot of a run as an SVG document string, for embedding (the HTML report).
+pub fn plot_svg_string(run: &CheckRun) -> Result<String, String> {
+    register_fonts();
+    let n = run.routes.len().clamp(1, MAX_ROUTES_PLOTTED) as u32;
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (WIDTH_PX, ROUTE_HEIGHT_PX * n)).into_drawing_area();
+        draw_run(&root, run)?;
+        root.present().map_err(|e| e.to_string())?;
+    }
+    Ok(svg)
 }

@@ -49,6 +49,8 @@ fn leg_row(l: &LegReport, color: bool) -> Vec<Cell> {
         num(l.rms_deviation_m, 2),
         num(l.corridor_m, 2),
         num(l.time_s, 0),
+        num(l.energy_wh, 1),
+        num(l.peak_side_thrust_n, 0),
         verdict_cell(l.verdict, color),
     ]
 }
@@ -68,6 +70,8 @@ fn route_table(r: &RouteReport, color: bool) -> Table {
         "RMS dev.\nm",
         "corridor\nm",
         "time\ns",
+        "energy\nWh",
+        "peak\nthrust N",
         "verdict",
     ]);
     if color {
@@ -100,15 +104,24 @@ pub fn check_table(run: &CheckRun, color: bool) -> String {
         let _ = writeln!(out, "{}", route_table(r, color));
         for l in r.legs.iter().filter(|l| !l.reasons.is_empty()) {
             for why in &l.reasons {
-                let _ = writeln!(out, "  leg {} ({}): {why}", l.index, l.verdict.name());
+                let _ = writeln!(out, "  leg {}: {why}", l.index);
             }
         }
+        for why in &r.reasons {
+            let _ = writeln!(out, "  route: {why}");
+        }
+        let battery = match r.battery_used_fraction {
+            Some(f) => format!(" ({:.0} % of the battery)", 100.0 * f),
+            None => String::new(),
+        };
         let _ = writeln!(
             out,
-            "total: {:.0} m in {}, largest deviation {:.2} m{} -> {}",
+            "total: {:.0} m in {}, largest deviation {:.2} m, {:.1} Wh{battery}, peak power {:.0} W{} -> {}",
             r.length_m,
             duration(r.time_s),
             r.max_deviation_m,
+            r.energy_wh,
+            r.peak_power_w,
             if r.completed { "" } else { ", did not reach the end" },
             r.verdict.name().to_uppercase()
         );

@@ -8,7 +8,9 @@ use crate::check::CheckRun;
 
 /// Header line of the trace CSV.
 pub const TRACE_HEADER: &str =
-    "t_s,x_m,y_m,yaw_rad,leg,deviation_m,left_mps,right_mps,progress_m,offset_m,vx_mps,vy_mps,yaw_rate_radps,route";
+    "t_s,x_m,y_m,yaw_rad,leg,deviation_m,left_mps,right_mps,progress_m,offset_m,vx_mps,vy_mps,\
+yaw_rate_radps,accel_mps2,grade_rad,left_thrust_n,right_thrust_n,outer_thrust_n,inner_thrust_n,mechanical_power_w,\
+drawn_power_w,route";
 
 /// Quotes a CSV field when it needs it.
 pub(crate) fn csv_field(s: &str) -> String {
@@ -29,7 +31,7 @@ pub fn trace_csv(run: &CheckRun) -> String {
         for s in &cr.trace.steps {
             let _ = writeln!(
                 out,
-                "{:.3},{:.4},{:.4},{:.5},{},{:.4},{:.4},{:.4},{:.3},{:.4},{:.4},{:.4},{:.5},{}",
+                "{:.3},{:.4},{:.4},{:.5},{},{:.4},{:.4},{:.4},{:.3},{:.4},{:.4},{:.4},{:.5},{:.4},{:.5},{:.1},{:.1},{:.1},{:.1},{:.1},{:.1},{}",
                 s.t_s,
                 s.pose.x_m,
                 s.pose.y_m,
@@ -43,6 +45,14 @@ pub fn trace_csv(run: &CheckRun) -> String {
                 s.twist.vx_mps,
                 s.twist.vy_mps,
                 s.twist.omega_radps,
+                s.accel_mps2,
+                s.effort.grade_rad,
+                s.effort.left_thrust_n,
+                s.effort.right_thrust_n,
+                s.effort.outer_thrust_n,
+                s.effort.inner_thrust_n,
+                s.effort.mechanical_power_w,
+                s.effort.drawn_power_w,
                 name
             );
         }

@@ -190,6 +190,16 @@ impl PlanPath {
         Some(alt[i] + t * (alt[i + 1] - alt[i]))
     }
 
+    /// Grade of the plan at arc length `s_m`, rad, positive uphill: the altitude change over the
+    /// metre around `s_m` (0 without altitude).
+    pub fn grade_at(&self, s_m: f64) -> f64 {
+        let (a, b) = ((s_m - 0.5).max(0.0), (s_m + 0.5).min(self.length_m()));
+        match (self.altitude_at(a), self.altitude_at(b)) {
+            (Some(za), Some(zb)) if b > a => (zb - za).atan2(b - a),
+            _ => 0.0,
+        }
+    }
+
     pub fn has_altitude(&self) -> bool {
         self.altitude_m.is_some()
     }
@@ -328,19 +338,22 @@ pub fn dist(a: [f64; 2], b: [f64; 2]) -> f64 {
     ((b[0] - a[0]).powi(2) + (b[1] - a[1]).powi(2)).sqrt()
 }
 
+/// Points of a circle of `radius_m` through the origin, centre (0, R), heading +x at the start,
+/// anticlockwise, `n` segments over `turns` turns (for tests).
+#[cfg(test)]
+pub(crate) fn circle_points(radius_m: f64, n: usize, turns: f64) -> Vec<[f64; 2]> {
+    (0..=n)
+        .map(|i| {
+            let a = turns * std::f64::consts::TAU * i as f64 / n as f64 - std::f64::consts::FRAC_PI_2;
+            [radius_m * a.cos(), radius_m + radius_m * a.sin()]
+        })
+        .collect()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
     use approx::assert_relative_eq;
-
-    fn circle(radius_m: f64, n: usize, turns: f64) -> Vec<[f64; 2]> {
-        (0..=n)
-            .map(|i| {
-                let a = turns * std::f64::consts::TAU * i as f64 / n as f64 - std::f64::consts::FRAC_PI_2;
-                [radius_m * a.cos(), radius_m + radius_m * a.sin()]
-            })
-            .collect()
-    }
 
     #[test]
     fn menger_reference_values() {
@@ -370,7 +383,7 @@ mod tests {
 
     #[test]
     fn circle_curvature_is_inverse_radius() {
-        let plan = PlanPath::from_parts(circle(5.0, 2000, 0.75), &[0], None);
+        let plan = PlanPath::from_parts(circle_points(5.0, 2000, 0.75), &[0], None);
         let (k, _) = plan.required_curvature(0, 0.5, 0.1);
         assert_relative_eq!(k, 0.2, max_relative = 1e-3);
     }
