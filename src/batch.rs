@@ -15,7 +15,9 @@ pub const ROUTE_EXTENSIONS: [&str; 3] = ["geojson", "json", "csv"];
 
 fn is_route_file(p: &Path) -> bool {
     p.is_file()
-        && p.extension().and_then(|e| e.to_str()).is_some_and(|e| ROUTE_EXTENSIONS.contains(&e.to_ascii_lowercase().as_str()))
+        && p.extension()
+            .and_then(|e| e.to_str())
+            .is_some_and(|e| ROUTE_EXTENSIONS.contains(&e.to_ascii_lowercase().as_str()))
 }
 
 /// Files and folders to route files: a file stays as given, a folder gives its route files
@@ -36,7 +38,10 @@ pub fn expand_inputs(paths: &[PathBuf]) -> Result<Vec<PathBuf>, RouteError> {
             }
         }
         if files.is_empty() {
-            return Err(RouteError::File { file: path.clone(), what: "folder holds no .geojson, .json or .csv files".into() });
+            return Err(RouteError::File {
+                file: path.clone(),
+                what: "folder holds no .geojson, .json or .csv files".into(),
+            });
         }
         files.sort();
         out.extend(files);

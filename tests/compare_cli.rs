@@ -31,8 +31,10 @@ fn geojson_route(origin_lon_lat: (f64, f64), points_m: &[[f64; 2]], terrain: &st
     let (lon0, lat0) = origin_lon_lat;
     let m_per_deg_lat = 111_320.0;
     let m_per_deg_lon = m_per_deg_lat * lat0.to_radians().cos();
-    let coords: Vec<String> =
-        points_m.iter().map(|p| format!("[{:.9}, {:.9}]", lon0 + p[0] / m_per_deg_lon, lat0 + p[1] / m_per_deg_lat)).collect();
+    let coords: Vec<String> = points_m
+        .iter()
+        .map(|p| format!("[{:.9}, {:.9}]", lon0 + p[0] / m_per_deg_lon, lat0 + p[1] / m_per_deg_lat))
+        .collect();
     format!(
         r#"{{"type": "FeatureCollection", "features": [{{"type": "Feature", "properties": {{"terrain": "{terrain}", "speed_mps": 1.2}},
            "geometry": {{"type": "LineString", "coordinates": [{}]}}}}]}}"#,
@@ -97,7 +99,8 @@ fn drift_ranking_is_refused_clearly_and_no_passing_alternative_exits_one() {
     assert!(text(&out.stderr).contains("drift"), "{}", text(&out.stderr));
     let dir = tempfile::tempdir().expect("tempdir");
     let bad = dir.path().join("bad.csv");
-    std::fs::write(&bad, "x_m,y_m,terrain\n0,0,deep-snow\n20,0,deep-snow\n20,0.5,deep-snow\n0,1,deep-snow\n").expect("w");
+    std::fs::write(&bad, "x_m,y_m,terrain\n0,0,deep-snow\n20,0,deep-snow\n20,0.5,deep-snow\n0,1,deep-snow\n")
+        .expect("w");
     let out = run(&["compare", s(&bad)]);
     assert_eq!(out.status.code(), Some(1), "{}", text(&out.stdout));
     assert!(text(&out.stdout).contains("no alternative passes"));

@@ -140,7 +140,11 @@ pub fn run_relax(a: RelaxArgs) -> Result<ExitCode> {
     } else if !a.quiet {
         let mut out = String::new();
         if demo {
-            let _ = writeln!(out, "vehicle: {} (built-in demo profile; pass --vehicle FILE for your own)", profile.vehicle.name);
+            let _ = writeln!(
+                out,
+                "vehicle: {} (built-in demo profile; pass --vehicle FILE for your own)",
+                profile.vehicle.name
+            );
         }
         for (r, res) in relaxed.iter().zip(&results) {
             describe(&mut out, res.route, r, res.verdict_before, res.verdict_after);

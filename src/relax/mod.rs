@@ -169,8 +169,7 @@ pub fn relax_route(route: &Route, profile: &Profile, settings: &RelaxSettings) -
     let s_m = arc_lengths(pts);
     let first_index = leg_first_indices(route);
     let verts = simplified_vertices(pts, &first_index, settings.simplify_tolerance_m);
-    let ach: Vec<f64> =
-        (0..drive.legs.len()).map(|i| achievable_per_m(&drive, i, drive.legs[i].speed_mps)).collect();
+    let ach: Vec<f64> = (0..drive.legs.len()).map(|i| achievable_per_m(&drive, i, drive.legs[i].speed_mps)).collect();
     let corners = find_corners(&drive, &verts, &s_m, &ach);
     let vp = |j: usize| pts[verts[j]];
     let groups = group_corners(&corners, &vp);

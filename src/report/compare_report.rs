@@ -175,7 +175,11 @@ pub fn write_compare_plot(c: &Comparison, path: &Path) -> Result<(), ReportError
 
 type DrawResult<T> = Result<T, Box<dyn std::error::Error>>;
 
-fn draw_overlay<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, c: &Comparison, framed: &[FramedRoute]) -> DrawResult<()>
+fn draw_overlay<DB: DrawingBackend>(
+    root: &DrawingArea<DB, Shift>,
+    c: &Comparison,
+    framed: &[FramedRoute],
+) -> DrawResult<()>
 where
     DB::ErrorType: 'static,
 {

@@ -42,13 +42,8 @@ fn opt(x: Option<f64>, decimals: usize, none: &str) -> String {
 }
 
 fn route_section(out: &mut String, r: &RouteReport) {
-    let _ = writeln!(
-        out,
-        "<h2>route '{}' from {}: {}</h2>",
-        escape(&r.route),
-        escape(&r.source),
-        verdict_span(r.verdict)
-    );
+    let _ =
+        writeln!(out, "<h2>route '{}' from {}: {}</h2>", escape(&r.route), escape(&r.source), verdict_span(r.verdict));
     let _ = writeln!(
         out,
         "<p>{:.0} m in {:.0} s, largest deviation {:.2} m, energy {:.1} Wh, peak power {:.0} W{}</p>",

@@ -23,11 +23,18 @@ struct RouteLine<'a> {
 pub fn check_jsonl(run: &CheckRun) -> String {
     let mut out = String::new();
     for cr in &run.routes {
-        let line =
-            RouteLine { format: ROUTE_LINE_FORMAT, vehicle: &run.vehicle_name, demo_profile: run.demo_profile, report: &cr.report };
+        let line = RouteLine {
+            format: ROUTE_LINE_FORMAT,
+            vehicle: &run.vehicle_name,
+            demo_profile: run.demo_profile,
+            report: &cr.report,
+        };
         match serde_json::to_string(&line) {
             Ok(s) => out.push_str(&s),
-            Err(e) => out.push_str(&serde_json::json!({ "format": ROUTE_LINE_FORMAT, "route": cr.report.route, "error": e.to_string() }).to_string()),
+            Err(e) => out.push_str(
+                &serde_json::json!({ "format": ROUTE_LINE_FORMAT, "route": cr.report.route, "error": e.to_string() })
+                    .to_string(),
+            ),
         }
         out.push('\n');
     }
