@@ -44,10 +44,8 @@ impl RankBy {
 pub enum CompareError {
     #[error("nothing to compare: the inputs hold no route")]
     NoRoutes,
-    #[error(
-        "ranking by drift is not available yet: this build has no drift estimate; use --by time, energy or deviation"
-    )]
-    DriftUnavailable,
+    #[error("ranking by drift needs the profile and a seed: use compare::rank_by_drift")]
+    DriftNeedsProfile,
     #[error(
         "cannot overlay route '{csv_route}' (CSV, local map frame) with route '{geo_route}' (GeoJSON, lon/lat) \
          in one plot: their frames are unrelated"
@@ -76,6 +74,8 @@ pub struct Ranked {
     pub max_deviation_m: f64,
     /// 1-based indices of the legs that fail.
     pub failing_legs: Vec<usize>,
+    /// CEP95 at the route's end if localization is lost at its start (only with `--by drift`).
+    pub drift_cep95_m: Option<f64>,
     /// The value ranked on within the verdict class; `None` where it is not available.
     pub ranked_value: Option<f64>,
     /// Index of this alternative in the check run (input order).
@@ -90,6 +90,8 @@ pub struct Comparison {
     pub by: RankBy,
     /// True when `by` was not available for every route and time was used instead.
     pub fell_back_to_time: bool,
+    /// Seed of the drift Monte Carlo, when ranked by drift.
+    pub seed: Option<u64>,
     pub ranking: Vec<Ranked>,
 }
 
@@ -104,13 +106,39 @@ impl Comparison {
     }
 }
 
-fn criterion(r: &RouteReport, by: RankBy) -> Option<f64> {
+fn criterion(r: &RouteReport, by: RankBy, drift_cep95_m: Option<f64>) -> Option<f64> {
     match by {
         RankBy::Time => Some(r.time_s),
         RankBy::Energy => route_energy_wh(r),
         RankBy::Deviation => Some(r.max_deviation_m),
-        RankBy::Drift => None,
+        RankBy::Drift => drift_cep95_m,
     }
+}
+
+/// Monte Carlo samples per alternative when ranking by drift.
+pub const DRIFT_RANKING_SAMPLES: usize = 500;
+
+/// Ranks by drift: for every alternative, the CEP95 at its last leg end when localization is
+/// lost at its start (DESIGN 6.8, calibrated odometry, [`DRIFT_RANKING_SAMPLES`] samples with
+/// the given `seed`, so the ranking is reproducible).
+pub fn rank_by_drift(run: CheckRun, profile: &crate::vehicle::Profile, seed: u64) -> Result<Comparison, crate::Error> {
+    let settings = crate::drift::DriftSettings {
+        samples: DRIFT_RANKING_SAMPLES,
+        seed,
+        paths_kept: 0,
+        ..crate::drift::DriftSettings::default()
+    };
+    let drift = run
+        .routes
+        .iter()
+        .map(|cr| {
+            let report = crate::drift::run_drift(&cr.route, profile, &settings, &crate::progress::NoProgress)?;
+            Ok(report.legs.last().and_then(|l| l.cep95_m()))
+        })
+        .collect::<Result<Vec<_>, crate::drift::DriftError>>()?;
+    let mut cmp = rank_on(run, RankBy::Drift, &drift)?;
+    cmp.seed = Some(seed);
+    Ok(cmp)
 }
 
 /// Ranks checked alternatives: verdict first (pass, caution, fail), then `by` (lower first),
@@ -124,17 +152,25 @@ fn criterion(r: &RouteReport, by: RankBy) -> Option<f64> {
 /// assert!(rank(run, RankBy::Time).is_err()); // nothing to compare
 /// ```
 pub fn rank(run: CheckRun, by: RankBy) -> Result<Comparison, CompareError> {
+    if by == RankBy::Drift {
+        return Err(CompareError::DriftNeedsProfile);
+    }
+    rank_on(run, by, &[])
+}
+
+fn rank_on(run: CheckRun, by: RankBy, drift: &[Option<f64>]) -> Result<Comparison, CompareError> {
     if run.routes.is_empty() {
         return Err(CompareError::NoRoutes);
     }
-    if by == RankBy::Drift {
-        return Err(CompareError::DriftUnavailable);
-    }
     let reports: Vec<&RouteReport> = run.routes.iter().map(|c| &c.report).collect();
-    let fell_back_to_time = reports.iter().any(|r| criterion(r, by).is_none());
+    let d = |i: usize| drift.get(i).copied().flatten();
+    // A route whose drift samples never reached its end has no CEP95 and ranks last in its
+    // verdict class; a missing energy makes the whole ranking fall back to time.
+    let fell_back_to_time =
+        by != RankBy::Drift && (0..reports.len()).any(|i| criterion(reports[i], by, d(i)).is_none());
     let effective = if fell_back_to_time { RankBy::Time } else { by };
     let mut order: Vec<usize> = (0..reports.len()).collect();
-    let key = |i: usize| criterion(reports[i], effective).unwrap_or(f64::INFINITY);
+    let key = |i: usize| criterion(reports[i], effective, d(i)).unwrap_or(f64::INFINITY);
     order.sort_by(|&a, &b| {
         reports[a]
             .verdict
@@ -158,12 +194,13 @@ pub fn rank(run: CheckRun, by: RankBy) -> Result<Comparison, CompareError> {
                 energy_wh: route_energy_wh(r),
                 max_deviation_m: r.max_deviation_m,
                 failing_legs: r.legs.iter().filter(|l| l.verdict == Verdict::Fail).map(|l| l.index).collect(),
-                ranked_value: criterion(r, effective),
+                drift_cep95_m: d(i),
+                ranked_value: criterion(r, effective, d(i)),
                 run_index: i,
             }
         })
         .collect();
-    Ok(Comparison { run, by, fell_back_to_time, ranking })
+    Ok(Comparison { run, by, fell_back_to_time, seed: None, ranking })
 }
 
 /// Plan and predicted path of one route in the common frame of a comparison, metres.
@@ -283,7 +320,11 @@ mod tests {
             assert!(!c.ranking[1].failing_legs.is_empty());
             assert!(c.any_acceptable(false) || c.ranking[0].verdict == Verdict::Fail);
         }
-        assert!(matches!(rank(run, RankBy::Drift), Err(CompareError::DriftUnavailable)));
+        assert!(matches!(rank(run.clone(), RankBy::Drift), Err(CompareError::DriftNeedsProfile)));
+        let by_drift = rank_by_drift(run, &profile, 7).expect("drift ranking");
+        assert_eq!(by_drift.ranking[0].route, "long", "verdict still comes first");
+        assert!(!by_drift.fell_back_to_time);
+        assert!(by_drift.ranking[0].drift_cep95_m.is_some_and(|c| c > 0.0));
     }
 
     #[test]

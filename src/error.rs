@@ -15,4 +15,6 @@ pub enum Error {
     Compare(#[from] crate::compare::CompareError),
     #[error(transparent)]
     Relax(#[from] crate::relax::RelaxError),
+    #[error(transparent)]
+    Drift(#[from] crate::drift::DriftError),
 }

@@ -2,13 +2,15 @@
 //!
 //! Data flow (see README.md): `route` (read + project + plan geometry) -> `vehicle` (profile)
 //! -> `kinematics` (model families, SE(2)) -> `follow` (controller) -> `rollout` (simulation)
-//! -> `assess` (per-leg verdicts) -> `report` (table, JSON, CSV, GeoJSON, plots).
+//! -> `assess` (per-leg verdicts) -> `report` (table, JSON, CSV, GeoJSON, plots); beside them
+//! `drift` (Monte Carlo of the position error when localization is lost).
 //! Everything inside is SI, local frame x east, y north, yaw anticlockwise from x.
 
 pub mod assess;
 pub mod batch;
 pub mod check;
 pub mod compare;
+pub mod drift;
 pub mod effort;
 pub mod error;
 pub mod follow;

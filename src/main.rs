@@ -23,6 +23,8 @@ enum Command {
     Compare(cli::compare::CompareArgs),
     /// Widen corners too tight for the terrain and write the repaired route.
     Relax(cli::relax::RelaxArgs),
+    /// Monte Carlo of the position error at each leg end when localization is lost.
+    Drift(cli::drift::DriftArgs),
     /// Print the built-in demo profile, or validate a profile file.
     Profile(cli::profile::ProfileArgs),
 }
@@ -37,6 +39,7 @@ fn main() -> ExitCode {
     };
     let result = match cli.command {
         Command::Check(a) => cli::check::run_check(a),
+        Command::Drift(a) => cli::drift::run_drift_command(a),
         Command::Profile(a) => cli::profile::run_profile(a),
         Command::Compare(a) => cli::compare::run_compare(a),
         Command::Relax(a) => cli::relax::run_relax(a),

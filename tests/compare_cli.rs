@@ -93,10 +93,16 @@ fn alternatives_from_separate_geojson_files_share_one_plot_frame() {
 }
 
 #[test]
-fn drift_ranking_is_refused_clearly_and_no_passing_alternative_exits_one() {
-    let out = run(&["compare", "--by", "drift", s(&example("store-alternatives.geojson"))]);
-    assert_eq!(out.status.code(), Some(2));
-    assert!(text(&out.stderr).contains("drift"), "{}", text(&out.stderr));
+fn drift_ranking_is_seeded_and_no_passing_alternative_exits_one() {
+    let alternatives = example("store-alternatives.geojson");
+    let args = ["compare", "--by", "drift", "--seed", "3", "--json", s(&alternatives)];
+    let out = run(&args);
+    assert_eq!(out.status.code(), Some(0), "{}", text(&out.stderr));
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("json");
+    assert_eq!((v["ranked_on"].as_str(), v["seed"].as_u64()), (Some("drift"), Some(3)));
+    assert_eq!(v["ranking"][0]["route"], "ridge");
+    assert!(v["ranking"][0]["drift_cep95_m"].as_f64().expect("cep95") > 0.0);
+    assert_eq!(run(&args).stdout, out.stdout, "the same seed gives the same document");
     let dir = tempfile::tempdir().expect("tempdir");
     let bad = dir.path().join("bad.csv");
     std::fs::write(&bad, "x_m,y_m,terrain\n0,0,deep-snow\n20,0,deep-snow\n20,0.5,deep-snow\n0,1,deep-snow\n")

@@ -33,6 +33,9 @@ pub struct CompareArgs {
     /// Print the JSON document to stdout instead of the table.
     #[arg(long)]
     pub json: bool,
+    /// Seed of the drift Monte Carlo (with --by drift).
+    #[arg(long, default_value_t = 7)]
+    pub seed: u64,
     /// Write the JSON document to this file.
     #[arg(long, value_name = "FILE")]
     pub report: Option<PathBuf>,
@@ -64,7 +67,10 @@ pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
     let (profile, demo) = load_profile(&a.vehicle)?;
     let routes = skidroute::batch::load_routes_parallel(&files, &profile)?;
     let run = skidroute::check::check_routes(routes, &profile, demo);
-    let cmp = skidroute::compare::rank(run, by)?;
+    let cmp = match by {
+        RankBy::Drift => skidroute::compare::rank_by_drift(run, &profile, a.seed)?,
+        _ => skidroute::compare::rank(run, by)?,
+    };
     if let Some(p) = &a.report {
         report::write_atomic(p, compare_report::compare_json(&cmp).as_bytes())?;
     }

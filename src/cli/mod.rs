@@ -5,6 +5,7 @@
 pub mod batch;
 pub mod check;
 pub mod compare;
+pub mod drift;
 pub mod profile;
 pub mod progress;
 pub mod relax;

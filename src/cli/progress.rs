@@ -6,10 +6,8 @@ use std::io::IsTerminal;
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use skidroute::progress::Progress;
 
-#[allow(dead_code)] // used by the subcommands with long work (fit, drift)
 pub struct Bar(ProgressBar);
 
-#[allow(dead_code)]
 impl Bar {
     pub fn new(quiet: bool) -> Bar {
         let bar = ProgressBar::hidden();

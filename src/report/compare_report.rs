@@ -27,6 +27,9 @@ struct CompareDocument<'a> {
     ranked_by: &'static str,
     /// The criterion actually used within a verdict class (time when `ranked_by` was unavailable).
     ranked_on: &'static str,
+    /// Seed of the drift Monte Carlo, when ranked by drift.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    seed: Option<u64>,
     caution: &'static str,
     ranking: &'a [Ranked],
 }
@@ -47,6 +50,7 @@ pub fn compare_json(c: &Comparison) -> String {
         demo_profile: c.run.demo_profile,
         ranked_by: c.by.name(),
         ranked_on: ranked_on(c),
+        seed: c.seed,
         caution: CAUTION,
         ranking: &c.ranking,
     };
@@ -87,6 +91,7 @@ pub fn compare_table(c: &Comparison) -> String {
         "energy\nWh",
         "max dev.\nm",
         "failing\nlegs",
+        "drift CEP95\nm",
         "source",
     ]);
     for r in &c.ranking {
@@ -99,6 +104,7 @@ pub fn compare_table(c: &Comparison) -> String {
             r.energy_wh.map_or_else(|| Cell::new("-"), |e| num(e, 1)),
             num(r.max_deviation_m, 2),
             Cell::new(legs_list(&r.failing_legs)),
+            r.drift_cep95_m.map_or_else(|| Cell::new("-"), |d| num(d, 2)),
             Cell::new(&r.source),
         ]);
     }

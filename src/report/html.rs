@@ -106,10 +106,16 @@ fn route_section(out: &mut String, r: &RouteReport) {
 
 fn ranking_section(out: &mut String, c: &Comparison) {
     let on = if c.fell_back_to_time { "time" } else { c.by.name() };
+    let seed = c.seed.map_or(String::new(), |s| {
+        format!("; drift: CEP95 at the route end if localization is lost at the start, seed {s}")
+    });
     let _ = writeln!(out, "<h2>ranking (verdict first, then {on})</h2>");
+    if !seed.is_empty() {
+        let _ = writeln!(out, "<p>{}</p>", &seed[2..]);
+    }
     out.push_str(
         "<table><tr><th>rank</th><th>route</th><th>verdict</th><th>length m</th><th>time s</th><th>energy Wh</th>\
-         <th>max dev. m</th><th>failing legs</th></tr>\n",
+         <th>max dev. m</th><th>failing legs</th><th>drift CEP95 m</th></tr>\n",
     );
     for r in &c.ranking {
         let failing = if r.failing_legs.is_empty() {
@@ -120,14 +126,15 @@ fn ranking_section(out: &mut String, c: &Comparison) {
         let _ = writeln!(
             out,
             "<tr><td class=n>{}</td><td>{}</td><td>{}</td><td class=n>{:.0}</td><td class=n>{:.0}</td><td class=n>{}</td>\
-             <td class=n>{:.2}</td><td>{failing}</td></tr>",
+             <td class=n>{:.2}</td><td>{failing}</td><td class=n>{}</td></tr>",
             r.rank,
             escape(&r.route),
             verdict_span(r.verdict),
             r.length_m,
             r.time_s,
             opt(r.energy_wh, 1, "-"),
-            r.max_deviation_m
+            r.max_deviation_m,
+            opt(r.drift_cep95_m, 2, "-")
         );
     }
     out.push_str("</table>\n");

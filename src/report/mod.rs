@@ -1,10 +1,12 @@
 //! Reports of a check: the terminal table, the JSON document, the trace CSV, the predicted
-//! path as GeoJSON and the plot. This is the only module that writes files; every file is
-//! written to a temporary file in the target folder and renamed into place, so a failure never
-//! leaves a partial output.
+//! path as GeoJSON and the plot; and of a drift run (`drift_report`, `drift_plot`). This is the
+//! only module that writes files; every file is written to a temporary file in the target
+//! folder and renamed into place, so a failure never leaves a partial output.
 
 mod atomic;
 pub mod compare_report;
+pub mod drift_plot;
+pub mod drift_report;
 pub mod html;
 pub mod json;
 pub mod jsonl;

@@ -1,0 +1,103 @@
+//! Benchmark of the drift Monte Carlo: 2000 samples on a synthetic 2 km route (straights and
+//! arcs, plan points every metre, four terrains of the demo profile) at the demo's 20 Hz
+//! control rate, with 1 and 2 rayon threads.
+//!
+//! Run with `cargo run --release --example bench_drift [SAMPLES]`.
+
+use std::time::Instant;
+
+use skidroute::drift::{run_drift, DriftSettings, Odometry};
+use skidroute::progress::NoProgress;
+use skidroute::route::{Leg, Route, SourcePosition};
+use skidroute::vehicle::Profile;
+
+/// A 2 km route of eight 250 m legs, each a straight followed by an arc of radius 15 m that
+/// turns alternately left and right, sampled every metre.
+fn synthetic_route() -> Route {
+    let terrains = ["asphalt", "gravel", "packed-snow", "grass"];
+    let (mut x, mut y, mut yaw) = (0.0_f64, 0.0_f64, 0.0_f64);
+    let mut legs = Vec::new();
+    for k in 0..8 {
+        let mut points = vec![[x, y]];
+        let turn = if k % 2 == 0 { 1.0 } else { -1.0 };
+        for s in 1..=250 {
+            // First 200 m straight, then 50 m of arc (curvature 1/15 m).
+            let curvature_per_m = if s > 200 { turn / 15.0 } else { 0.0 };
+            yaw += curvature_per_m;
+            x += yaw.cos();
+            y += yaw.sin();
+            points.push([x, y]);
+        }
+        legs.push(Leg {
+            name: Some(format!("leg {}", k + 1)),
+            terrain: terrains[k % terrains.len()].to_string(),
+            speed_mps: None,
+            corridor_m: None,
+            points,
+            altitude_m: None,
+            position: SourcePosition::Feature(k),
+        });
+    }
+    Route { name: "synthetic 2 km".into(), source: "synthetic".into(), origin: None, legs }
+}
+
+fn main() {
+    let samples: usize = std::env::args().nth(1).and_then(|s| s.parse().ok()).unwrap_or(2000);
+    let route = synthetic_route();
+    let profile = Profile::demo();
+    let settings = DriftSettings { samples, seed: 7, lost_from_leg: 1, odometry: Odometry::Calibrated, paths_kept: 50 };
+    println!(
+        "drift benchmark: {samples} samples, {:.0} m route, {} legs, {:.0} Hz control",
+        route
+            .legs
+            .iter()
+            .map(|l| l.points.windows(2).map(|w| (w[1][0] - w[0][0]).hypot(w[1][1] - w[0][1])).sum::<f64>())
+            .sum::<f64>(),
+        route.legs.len(),
+        profile.follower.control_rate_hz
+    );
+    // Reference: the deterministic rollout of the same route (follower, plan queries, one
+    // model and one SE(2) step per control step), single thread.
+    let drive = skidroute::rollout::RouteDrive::new(&route, &profile);
+    let t0 = Instant::now();
+    let reps = 20;
+    let mut steps = 0;
+    for _ in 0..reps {
+        steps += skidroute::rollout::roll_out(&drive).steps.len();
+    }
+    let secs = t0.elapsed().as_secs_f64();
+    println!("reference rollout: {:.0} ns per step ({steps} steps)", secs / steps as f64 * 1e9);
+    let mut times = Vec::new();
+    let mut outputs = Vec::new();
+    for threads in [1, 2] {
+        let pool = match rayon::ThreadPoolBuilder::new().num_threads(threads).build() {
+            Ok(p) => p,
+            Err(e) => {
+                eprintln!("cannot build a pool of {threads} threads: {e}");
+                return;
+            }
+        };
+        let t0 = Instant::now();
+        let report = match pool.install(|| run_drift(&route, &profile, &settings, &NoProgress)) {
+            Ok(r) => r,
+            Err(e) => {
+                eprintln!("drift failed: {e}");
+                return;
+            }
+        };
+        let secs = t0.elapsed().as_secs_f64();
+        let last = report.legs.last().and_then(|l| l.cep95_m()).unwrap_or(f64::NAN);
+        println!(
+            "{threads} thread(s): {secs:.2} s, {} steps, {:.1} M steps/s ({:.0} ns per step per thread), timed out {}, \
+             CEP95 at the end {last:.2} m",
+            report.steps,
+            report.steps as f64 / secs / 1e6,
+            secs * threads as f64 / report.steps as f64 * 1e9,
+            report.timed_out
+        );
+        times.push(secs);
+        outputs.push(serde_json::to_string(&report).unwrap_or_default());
+    }
+    println!("speed-up 1 -> 2 threads: {:.2}x", times[0] / times[1]);
+    println!("outputs identical across thread counts: {}", outputs[0] == outputs[1]);
+}

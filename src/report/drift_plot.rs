@@ -1,0 +1,299 @@
+//! The drift plot (SVG or PNG by extension): a top view of the plan coloured by terrain, a
+//! sample of true paths, and at each leg end the 95 % ellipse about the mean true position and
+//! the CEP95 circle about the leg end, on equal axis scales in metres; below it CEP50 and CEP95
+//! against distance along the route. Text uses the bundled font (see `report::plot`).
+
+use std::path::Path;
+
+use plotters::coord::Shift;
+use plotters::prelude::*;
+
+use super::plot::{register_fonts, terrain_color};
+use super::ReportError;
+use crate::drift::DriftReport;
+use crate::route::{PlanPath, Route};
+
+const SIZE_PX: (u32, u32) = (1400, 1250);
+const LEGEND_WIDTH_PX: u32 = 330;
+const ELLIPSE_RED: RGBColor = RGBColor(210, 30, 30);
+const CEP_BLUE: RGBColor = RGBColor(30, 80, 200);
+const LOSS_ORANGE: RGBColor = RGBColor(235, 120, 0);
+
+type DrawResult<T> = Result<T, Box<dyn std::error::Error>>;
+
+/// Writes the plot of a drift run; the format follows the extension (`.svg` or `.png`).
+pub fn write_drift_plot(route: &Route, report: &DriftReport, demo: bool, path: &Path) -> Result<(), ReportError> {
+    register_fonts();
+    let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
+    let fail = |what: String| ReportError::Output { file: path.to_path_buf(), what };
+    let plan = PlanPath::new(route);
+    match ext.as_str() {
+        "svg" => {
+            let mut svg = String::new();
+            {
+                let root = SVGBackend::with_string(&mut svg, SIZE_PX).into_drawing_area();
+                draw(&root, &plan, report, demo).map_err(|e| fail(e.to_string()))?;
+                root.present().map_err(|e| fail(e.to_string()))?;
+            }
+            super::write_atomic(path, svg.as_bytes())
+        }
+        "png" => super::write_atomic_with(path, |tmp| {
+            let root = BitMapBackend::new(tmp, SIZE_PX).into_drawing_area();
+            draw(&root, &plan, report, demo).map_err(|e| std::io::Error::other(e.to_string()))?;
+            root.present().map_err(|e| std::io::Error::other(e.to_string()))
+        }),
+        _ => Err(fail(format!("unknown plot format '.{ext}': expected .svg or .png"))),
+    }
+}
+
+fn draw<DB: DrawingBackend>(
+    root: &DrawingArea<DB, Shift>,
+    plan: &PlanPath,
+    r: &DriftReport,
+    demo: bool,
+) -> DrawResult<()>
+where
+    DB::ErrorType: 'static,
+{
+    root.fill(&WHITE)?;
+    let vehicle = if demo { "built-in demo profile" } else { r.vehicle.as_str() };
+    let title = format!(
+        "drift of route '{}': localization lost at leg {}, {} odometry, {} samples ({vehicle})",
+        r.route,
+        r.lost_from_leg,
+        r.odometry.name(),
+        r.samples
+    );
+    let body = root.titled(&title, ("sans-serif", 24))?;
+    let (w, h) = body.dim_in_pixel();
+    let (top, bottom) = body.split_vertically((h as f64 * 0.72) as u32);
+    let (map, legend) = top.split_horizontally(w.saturating_sub(LEGEND_WIDTH_PX));
+    draw_map(&map, plan, r)?;
+    draw_legend(&legend, r)?;
+    draw_cep(&bottom, r)?;
+    Ok(())
+}
+
+/// Axis ranges with equal metres per pixel on both axes, padded by 6 %.
+fn equal_ranges(points: impl Iterator<Item = [f64; 2]>, w_px: f64, h_px: f64) -> ((f64, f64), (f64, f64)) {
+    let (mut x0, mut x1, mut y0, mut y1) = (f64::INFINITY, f64::NEG_INFINITY, f64::INFINITY, f64::NEG_INFINITY);
+    for [x, y] in points.filter(|p| p[0].is_finite() && p[1].is_finite()) {
+        x0 = x0.min(x);
+        x1 = x1.max(x);
+        y0 = y0.min(y);
+        y1 = y1.max(y);
+    }
+    if !x0.is_finite() {
+        return ((-1.0, 1.0), (-1.0, 1.0));
+    }
+    let (cx, cy) = (0.5 * (x0 + x1), 0.5 * (y0 + y1));
+    let m_per_px = ((x1 - x0).max(1.0) / w_px).max((y1 - y0).max(1.0) / h_px) * 1.06;
+    let (hw, hh) = (0.5 * m_per_px * w_px, 0.5 * m_per_px * h_px);
+    ((cx - hw, cx + hw), (cy - hh, cy + hh))
+}
+
+/// One leg end on the map: leg index, 95 % ellipse outline about the mean true position, the
+/// leg end point and the CEP95 radius (local frame, metres).
+type LegEndShapes = (usize, Vec<[f64; 2]>, [f64; 2], f64);
+
+fn ellipse_outlines(r: &DriftReport) -> Vec<LegEndShapes> {
+    r.legs
+        .iter()
+        .filter_map(|l| {
+            let s = l.stats.as_ref()?;
+            let end = [l.end_east_m, l.end_north_m];
+            let centre = [end[0] + s.bias_east_m, end[1] + s.bias_north_m];
+            Some((l.index, s.ellipse95.outline(centre, 96), end, s.cep95_m))
+        })
+        .collect()
+}
+
+fn circle(c: [f64; 2], radius_m: f64) -> Vec<(f64, f64)> {
+    (0..=96)
+        .map(|k| {
+            let t = std::f64::consts::TAU * f64::from(k) / 96.0;
+            (c[0] + radius_m * t.cos(), c[1] + radius_m * t.sin())
+        })
+        .collect()
+}
+
+fn draw_map<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, plan: &PlanPath, r: &DriftReport) -> DrawResult<()>
+where
+    DB::ErrorType: 'static,
+{
+    let (margin, x_lab, y_lab) = (12u32, 45u32, 70u32);
+    let (w, h) = area.dim_in_pixel();
+    let plot_w = f64::from(w.saturating_sub(2 * margin + y_lab).max(10));
+    let plot_h = f64::from(h.saturating_sub(2 * margin + x_lab).max(10));
+    let ellipses = ellipse_outlines(r);
+    let extent = plan
+        .points()
+        .iter()
+        .copied()
+        .chain(r.sample_paths.iter().flatten().copied())
+        .chain(ellipses.iter().flat_map(|e| e.1.iter().copied()))
+        .chain(ellipses.iter().flat_map(|e| circle(e.2, e.3).into_iter().map(|(x, y)| [x, y])));
+    let ((x0, x1), (y0, y1)) = equal_ranges(extent, plot_w, plot_h);
+    let mut chart = ChartBuilder::on(area)
+        .margin(margin)
+        .x_label_area_size(x_lab)
+        .y_label_area_size(y_lab)
+        .build_cartesian_2d(x0..x1, y0..y1)?;
+    chart
+        .configure_mesh()
+        .x_desc("east (m)")
+        .y_desc("north (m)")
+        .label_style(("sans-serif", 16))
+        .axis_desc_style(("sans-serif", 17))
+        .light_line_style(RGBColor(235, 235, 235))
+        .bold_line_style(RGBColor(215, 215, 215))
+        .draw()?;
+    for path in &r.sample_paths {
+        chart.draw_series(LineSeries::new(path.iter().map(|p| (p[0], p[1])), RGBColor(90, 90, 90).mix(0.35)))?;
+    }
+    for l in &r.legs {
+        let (a, b) = plan.leg_bounds_m(l.index - 1);
+        let n = (((b - a) / 0.5).ceil() as usize).clamp(1, 4000);
+        let pts = (0..=n).map(|k| {
+            let p = plan.point_at(a + (b - a) * k as f64 / n as f64);
+            (p[0], p[1])
+        });
+        chart.draw_series(LineSeries::new(pts, terrain_color(&l.terrain).stroke_width(5)))?;
+    }
+    let loss = plan.point_at(r.loss_start_m);
+    chart.draw_series(std::iter::once(
+        EmptyElement::at((loss[0], loss[1])) + TriangleMarker::new((0, 0), 9, LOSS_ORANGE.filled()),
+    ))?;
+    for (index, outline, end, cep95_m) in &ellipses {
+        chart.draw_series(std::iter::once(PathElement::new(circle(*end, *cep95_m), CEP_BLUE.stroke_width(2))))?;
+        let ring: Vec<(f64, f64)> = outline.iter().map(|p| (p[0], p[1])).collect();
+        chart.draw_series(std::iter::once(PathElement::new(ring, ELLIPSE_RED.stroke_width(3))))?;
+        chart.draw_series(std::iter::once(
+            EmptyElement::at((end[0], end[1]))
+                + Circle::new((0, 0), 4, BLACK.filled())
+                + Text::new(format!("end of leg {index}"), (6, -20), ("sans-serif", 16).into_font()),
+        ))?;
+    }
+    Ok(())
+}
+
+fn draw_legend<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, r: &DriftReport) -> DrawResult<()>
+where
+    DB::ErrorType: 'static,
+{
+    let (x0, mut y) = (16i32, 24i32);
+    let font = ("sans-serif", 17).into_font();
+    area.draw(&Text::new("legend", (x0, y - 8), ("sans-serif", 18).into_font()))?;
+    y += 22;
+    let mut seen: Vec<&str> = Vec::new();
+    for l in &r.legs {
+        if !seen.contains(&l.terrain.as_str()) {
+            seen.push(&l.terrain);
+            area.draw(&PathElement::new(vec![(x0, y), (x0 + 34, y)], terrain_color(&l.terrain).stroke_width(5)))?;
+            area.draw(&Text::new(format!("plan on {}", l.terrain), (x0 + 46, y - 9), font.clone()))?;
+            y += 30;
+        }
+    }
+    let entries: [(RGBColor, u32, String); 3] = [
+        (RGBColor(90, 90, 90), 1, format!("true paths ({} samples)", r.sample_paths.len())),
+        (ELLIPSE_RED, 3, "95 % ellipse, true position".to_string()),
+        (CEP_BLUE, 2, "CEP95 circle about leg end".to_string()),
+    ];
+    for (c, width, text) in entries {
+        area.draw(&PathElement::new(vec![(x0, y), (x0 + 34, y)], c.stroke_width(width)))?;
+        area.draw(&Text::new(text, (x0 + 46, y - 9), font.clone()))?;
+        y += 30;
+    }
+    area.draw(&(EmptyElement::at((x0 + 17, y)) + TriangleMarker::new((0, 0), 9, LOSS_ORANGE.filled())))?;
+    area.draw(&Text::new("localization lost here", (x0 + 46, y - 9), font.clone()))?;
+    Ok(())
+}
+
+fn draw_cep<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, r: &DriftReport) -> DrawResult<()>
+where
+    DB::ErrorType: 'static,
+{
+    let pts = |f: fn(&crate::drift::ErrorStats) -> f64| -> Vec<(f64, f64)> {
+        std::iter::once((r.loss_start_m, 0.0))
+            .chain(r.legs.iter().filter(|l| l.distance_m > 0.0).filter_map(|l| {
+                let s = l.stats.as_ref()?;
+                Some((l.end_along_route_m, f(s)))
+            }))
+            .collect()
+    };
+    let cep95 = pts(|s| s.cep95_m);
+    let cep50 = pts(|s| s.cep50_m);
+    let x_max = r.legs.last().map_or(1.0, |l| l.end_along_route_m).max(1.0);
+    let y_max = cep95.iter().map(|p| p.1).fold(0.0, f64::max).max(0.01) * 1.15;
+    let mut chart = ChartBuilder::on(area)
+        .margin(12)
+        .x_label_area_size(45)
+        .y_label_area_size(70)
+        .build_cartesian_2d(0.0..x_max, 0.0..y_max)?;
+    chart
+        .configure_mesh()
+        .x_desc("distance along the route (m)")
+        .y_desc("radial error (m)")
+        .label_style(("sans-serif", 16))
+        .axis_desc_style(("sans-serif", 17))
+        .light_line_style(RGBColor(240, 240, 240))
+        .draw()?;
+    chart
+        .draw_series(LineSeries::new(cep95.clone(), ELLIPSE_RED.stroke_width(2)))?
+        .label("CEP95 at leg ends")
+        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 24, y)], ELLIPSE_RED.stroke_width(2)));
+    chart.draw_series(cep95.iter().map(|&p| Circle::new(p, 4, ELLIPSE_RED.filled())))?;
+    chart
+        .draw_series(LineSeries::new(cep50.clone(), CEP_BLUE.stroke_width(2)))?
+        .label("CEP50 at leg ends")
+        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 24, y)], CEP_BLUE.stroke_width(2)));
+    chart.draw_series(cep50.iter().map(|&p| Circle::new(p, 4, CEP_BLUE.filled())))?;
+    chart
+        .configure_series_labels()
+        .position(SeriesLabelPosition::UpperLeft)
+        .label_font(("sans-serif", 16))
+        .background_style(WHITE.mix(0.85))
+        .border_style(RGBColor(160, 160, 160))
+        .draw()?;
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::drift::{run_drift, DriftSettings, Odometry};
+    use crate::progress::NoProgress;
+    use crate::route::{Leg, SourcePosition};
+    use crate::vehicle::Profile;
+
+    #[test]
+    fn svg_and_png_are_written_with_text() {
+        let leg = |terrain: &str, points: Vec<[f64; 2]>| Leg {
+            name: None,
+            terrain: terrain.into(),
+            speed_mps: None,
+            corridor_m: None,
+            points,
+            altitude_m: None,
+            position: SourcePosition::Feature(0),
+        };
+        let route = Route {
+            name: "r".into(),
+            source: "r.csv".into(),
+            origin: None,
+            legs: vec![leg("gravel", vec![[0.0, 0.0], [12.0, 0.0]]), leg("asphalt", vec![[12.0, 0.0], [12.0, 8.0]])],
+        };
+        let settings =
+            DriftSettings { samples: 12, seed: 1, lost_from_leg: 1, odometry: Odometry::Calibrated, paths_kept: 4 };
+        let report = run_drift(&route, &Profile::demo(), &settings, &NoProgress).expect("run");
+        let dir = tempfile::tempdir().expect("tempdir");
+        let svg = dir.path().join("d.svg");
+        write_drift_plot(&route, &report, true, &svg).expect("svg");
+        let text = std::fs::read_to_string(&svg).expect("read");
+        assert!(text.contains("CEP95") && text.contains("end of leg 2"));
+        let png = dir.path().join("d.png");
+        write_drift_plot(&route, &report, true, &png).expect("png");
+        assert!(std::fs::metadata(&png).expect("png").len() > 10_000);
+        assert!(write_drift_plot(&route, &report, true, &dir.path().join("d.pdf")).is_err());
+    }
+}
