@@ -10,6 +10,8 @@ pub enum Error {
     #[error(transparent)]
     Vehicle(#[from] crate::vehicle::VehicleError),
     #[error(transparent)]
+    Fit(#[from] crate::fit::FitError),
+    #[error(transparent)]
     Report(#[from] crate::report::ReportError),
     #[error(transparent)]
     Compare(#[from] crate::compare::CompareError),

@@ -13,6 +13,7 @@ pub mod compare;
 pub mod drift;
 pub mod effort;
 pub mod error;
+pub mod fit;
 pub mod follow;
 pub mod kinematics;
 pub mod progress;

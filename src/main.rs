@@ -25,6 +25,8 @@ enum Command {
     Relax(cli::relax::RelaxArgs),
     /// Monte Carlo of the position error at each leg end when localization is lost.
     Drift(cli::drift::DriftArgs),
+    /// Calibrate per-terrain motion models from drive logs and write a profile.
+    Fit(cli::fit::FitArgs),
     /// Print the built-in demo profile, or validate a profile file.
     Profile(cli::profile::ProfileArgs),
 }
@@ -40,6 +42,7 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Command::Check(a) => cli::check::run_check(a),
         Command::Drift(a) => cli::drift::run_drift_command(a),
+        Command::Fit(a) => cli::fit::run_fit(a),
         Command::Profile(a) => cli::profile::run_profile(a),
         Command::Compare(a) => cli::compare::run_compare(a),
         Command::Relax(a) => cli::relax::run_relax(a),

@@ -6,6 +6,7 @@ pub mod batch;
 pub mod check;
 pub mod compare;
 pub mod drift;
+pub mod fit;
 pub mod profile;
 pub mod progress;
 pub mod relax;

@@ -1,12 +1,15 @@
-//! Reports of a check: the terminal table, the JSON document, the trace CSV, the predicted
-//! path as GeoJSON and the plot; and of a drift run (`drift_report`, `drift_plot`). This is the
-//! only module that writes files; every file is written to a temporary file in the target
-//! folder and renamed into place, so a failure never leaves a partial output.
+//! Reports of a check, a drift run and a fit: terminal tables, JSON documents, the trace CSV,
+//! the predicted path and drift ellipses as GeoJSON, and plots. This is the only module that
+//! writes files; every file is written to a temporary file in the target folder and renamed
+//! into place, so a failure never leaves a partial output.
 
 mod atomic;
 pub mod compare_report;
 pub mod drift_plot;
 pub mod drift_report;
+pub mod fit_json;
+pub mod fit_plot;
+pub mod fit_table;
 pub mod html;
 pub mod json;
 pub mod jsonl;
@@ -77,6 +80,31 @@ pub fn refuse_overwriting_inputs<'a>(
                 what: "is one of the inputs; refusing to overwrite it".into(),
             });
         }
+    }
+    Ok(())
+}
+
+/// Where the file outputs of a fit go.
+#[derive(Debug, Clone, Default)]
+pub struct FitOutputs {
+    /// The calibrated profile (always written).
+    pub profile: PathBuf,
+    pub plot: Option<PathBuf>,
+}
+
+/// Writes the calibrated profile (with its provenance header) and the plot when asked for.
+/// The profile text is read back with the strict reader first, so a written profile always loads.
+pub fn write_fit_outputs(run: &crate::fit::FitRun, out: &FitOutputs) -> Result<(), ReportError> {
+    let text = run.profile_toml();
+    if let Err(e) = crate::vehicle::parse_profile(&out.profile, &text) {
+        return Err(ReportError::Output {
+            file: out.profile.clone(),
+            what: format!("calibrated profile does not read back: {e}"),
+        });
+    }
+    write_atomic(&out.profile, text.as_bytes())?;
+    if let Some(p) = &out.plot {
+        fit_plot::write_fit_plot(run, p)?;
     }
     Ok(())
 }

@@ -1,0 +1,274 @@
+//! Reads drive logs (DESIGN 4, "Drive log, CSV"): header `t_s,left_mps,right_mps,x_m,y_m,yaw_rad,terrain`
+//! in any column order, with `lat_deg,lon_deg` allowed in place of `x_m,y_m`. Side speeds are
+//! measured track surface speeds (m/s, positive forward); poses come from a reference
+//! localization. Local frame x east, y north, yaw anticlockwise from east (radians).
+//!
+//! A `lat_deg,lon_deg` log is projected once, here, to east-north metres about its first sample
+//! with the exact WGS 84 transform of [`crate::route::GeoOrigin`]; nothing downstream sees degrees.
+//! Every problem is an error naming the file, the line (the header is line 1) and the column.
+
+use std::path::{Path, PathBuf};
+
+use csv::{ReaderBuilder, StringRecord, Trim};
+
+use super::FitError;
+use crate::route::GeoOrigin;
+
+/// One validated row of a drive log, in local metres.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LogSample {
+    /// 1-based line in the file, for messages.
+    pub line: usize,
+    pub t_s: f64,
+    pub left_mps: f64,
+    pub right_mps: f64,
+    pub x_m: f64,
+    pub y_m: f64,
+    pub yaw_rad: f64,
+    /// Index into [`DriveLog::terrains`].
+    pub terrain: usize,
+}
+
+/// A whole drive log.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DriveLog {
+    pub source: PathBuf,
+    /// Terrain names in order of first appearance.
+    pub terrains: Vec<String>,
+    pub samples: Vec<LogSample>,
+    /// Projection origin when the log gave `lat_deg,lon_deg`.
+    pub origin: Option<GeoOrigin>,
+    /// Median time between samples, the log's sample period.
+    pub period_s: f64,
+}
+
+const KNOWN_COLUMNS: &str = "t_s, left_mps, right_mps, x_m, y_m (or lat_deg, lon_deg), yaw_rad, terrain";
+
+#[derive(Default)]
+struct Columns {
+    t_s: Option<usize>,
+    left_mps: Option<usize>,
+    right_mps: Option<usize>,
+    x_m: Option<usize>,
+    y_m: Option<usize>,
+    lat_deg: Option<usize>,
+    lon_deg: Option<usize>,
+    yaw_rad: Option<usize>,
+    terrain: Option<usize>,
+}
+
+/// Reads and validates a drive log file.
+pub fn read_log(path: &Path) -> Result<DriveLog, FitError> {
+    let text = std::fs::read_to_string(path).map_err(|source| FitError::Io { file: path.to_path_buf(), source })?;
+    parse_log(path, &text)
+}
+
+/// Parses drive-log text; `path` only names the file in messages.
+///
+/// ```
+/// use std::path::Path;
+/// let text = "t_s,left_mps,right_mps,x_m,y_m,yaw_rad,terrain\n0,1,1,0,0,0,grass\n0.02,1,1,0.02,0,0,grass\n";
+/// let log = skidroute::fit::log::parse_log(Path::new("a.csv"), text).unwrap();
+/// assert_eq!(log.samples.len(), 2);
+/// assert!((log.period_s - 0.02).abs() < 1e-12);
+/// ```
+pub fn parse_log(path: &Path, text: &str) -> Result<DriveLog, FitError> {
+    let file_error = |what: &str| FitError::File { file: path.to_path_buf(), what: what.to_string() };
+    let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+    if text.trim().is_empty() {
+        return Err(file_error("file is empty"));
+    }
+    let mut reader = ReaderBuilder::new().trim(Trim::All).from_reader(text.as_bytes());
+    let header = reader.headers().map_err(|e| csv_error(path, &e, 1))?.clone();
+    let columns = read_header(&header).map_err(|what| FitError::Line { file: path.to_path_buf(), line: 1, what })?;
+    let mut terrains: Vec<String> = Vec::new();
+    let mut samples: Vec<LogSample> = Vec::new();
+    let mut origin: Option<GeoOrigin> = None;
+    for (k, record) in reader.records().enumerate() {
+        let record = record.map_err(|e| csv_error(path, &e, k + 2))?;
+        let line = record.position().and_then(|p| usize::try_from(p.line()).ok()).unwrap_or(k + 2);
+        let at = |column: &str, what: String| FitError::Cell {
+            file: path.to_path_buf(),
+            line,
+            column: column.to_string(),
+            what,
+        };
+        let get = |column: &str, index: Option<usize>| -> Result<f64, FitError> {
+            number(index.and_then(|i| record.get(i)).unwrap_or("")).map_err(|w| at(column, w))
+        };
+        let t_s = get("t_s", columns.t_s)?;
+        if let Some(prev) = samples.last() {
+            if t_s <= prev.t_s {
+                let what = format!(
+                    "time {t_s} s is not after the previous row's {} s (time must strictly increase)",
+                    prev.t_s
+                );
+                return Err(at("t_s", what));
+            }
+        }
+        let (x_m, y_m) = match (columns.lat_deg, columns.lon_deg) {
+            (Some(_), Some(_)) => {
+                let lat = get("lat_deg", columns.lat_deg)?;
+                let lon = get("lon_deg", columns.lon_deg)?;
+                if !(-90.0..=90.0).contains(&lat) {
+                    return Err(at("lat_deg", format!("latitude {lat} is outside [-90, 90]")));
+                }
+                if !(-180.0..=180.0).contains(&lon) {
+                    return Err(at("lon_deg", format!("longitude {lon} is outside [-180, 180]")));
+                }
+                let o = *origin.get_or_insert_with(|| GeoOrigin::new(lat, lon, 0.0));
+                let [e, n, _] = o.to_local(lon, lat, 0.0);
+                (e, n)
+            }
+            _ => (get("x_m", columns.x_m)?, get("y_m", columns.y_m)?),
+        };
+        let name = columns.terrain.and_then(|i| record.get(i)).unwrap_or("");
+        if name.is_empty() {
+            return Err(at("terrain", "is empty".to_string()));
+        }
+        let terrain = match terrains.iter().position(|t| t == name) {
+            Some(i) => i,
+            None => {
+                terrains.push(name.to_string());
+                terrains.len() - 1
+            }
+        };
+        samples.push(LogSample {
+            line,
+            t_s,
+            left_mps: get("left_mps", columns.left_mps)?,
+            right_mps: get("right_mps", columns.right_mps)?,
+            x_m,
+            y_m,
+            yaw_rad: get("yaw_rad", columns.yaw_rad)?,
+            terrain,
+        });
+    }
+    if samples.len() < 2 {
+        return Err(file_error("has fewer than 2 data rows; a drive log needs a time series"));
+    }
+    let mut dts: Vec<f64> = samples.windows(2).map(|w| w[1].t_s - w[0].t_s).collect();
+    dts.sort_by(f64::total_cmp);
+    let period_s = dts[dts.len() / 2];
+    Ok(DriveLog { source: path.to_path_buf(), terrains, samples, origin, period_s })
+}
+
+fn csv_error(path: &Path, error: &csv::Error, fallback_line: usize) -> FitError {
+    let line = error.position().and_then(|p| usize::try_from(p.line()).ok()).unwrap_or(fallback_line);
+    let what = match error.kind() {
+        csv::ErrorKind::UnequalLengths { expected_len, len, .. } => {
+            format!("has {len} fields, the header has {expected_len}")
+        }
+        _ => format!("cannot parse CSV: {error}"),
+    };
+    FitError::Line { file: path.to_path_buf(), line, what }
+}
+
+fn read_header(header: &StringRecord) -> Result<Columns, String> {
+    let mut c = Columns::default();
+    for (index, name) in header.iter().enumerate() {
+        let slot = match name {
+            "t_s" => &mut c.t_s,
+            "left_mps" => &mut c.left_mps,
+            "right_mps" => &mut c.right_mps,
+            "x_m" => &mut c.x_m,
+            "y_m" => &mut c.y_m,
+            "lat_deg" => &mut c.lat_deg,
+            "lon_deg" => &mut c.lon_deg,
+            "yaw_rad" => &mut c.yaw_rad,
+            "terrain" => &mut c.terrain,
+            _ => return Err(format!("unknown column '{name}' (expected {KNOWN_COLUMNS})")),
+        };
+        if slot.replace(index).is_some() {
+            return Err(format!("column {name} appears twice"));
+        }
+    }
+    let local = c.x_m.is_some() || c.y_m.is_some();
+    let geographic = c.lat_deg.is_some() || c.lon_deg.is_some();
+    if local && geographic {
+        return Err("give either x_m,y_m or lat_deg,lon_deg, not both".to_string());
+    }
+    let position: [(&str, Option<usize>); 2] =
+        if geographic { [("lat_deg", c.lat_deg), ("lon_deg", c.lon_deg)] } else { [("x_m", c.x_m), ("y_m", c.y_m)] };
+    let required = [
+        ("t_s", c.t_s),
+        ("left_mps", c.left_mps),
+        ("right_mps", c.right_mps),
+        ("yaw_rad", c.yaw_rad),
+        ("terrain", c.terrain),
+    ];
+    for (name, slot) in required.into_iter().chain(position) {
+        if slot.is_none() {
+            return Err(format!("header lacks the required column {name} (expected {KNOWN_COLUMNS})"));
+        }
+    }
+    Ok(c)
+}
+
+fn number(text: &str) -> Result<f64, String> {
+    if text.is_empty() {
+        return Err("is empty".to_string());
+    }
+    match text.parse::<f64>() {
+        Ok(v) if v.is_finite() => Ok(v),
+        Ok(_) => Err(format!("'{text}' is not a finite number")),
+        Err(_) => Err(format!("'{text}' is not a number")),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const HEADER: &str = "t_s,left_mps,right_mps,x_m,y_m,yaw_rad,terrain\n";
+
+    fn err(text: &str) -> String {
+        match parse_log(Path::new("drive.csv"), text) {
+            Ok(_) => panic!("accepted: {text}"),
+            Err(e) => e.to_string(),
+        }
+    }
+
+    #[test]
+    fn reads_local_and_interns_terrains() {
+        let text = format!("{HEADER}0,1,1,0,0,0,grass\n0.1,1,1,0.1,0,0,grass\n0.2,1,1,0.2,0,0,gravel\n");
+        let log = parse_log(Path::new("a.csv"), &text).expect("valid");
+        assert_eq!(log.terrains, vec!["grass", "gravel"]);
+        assert_eq!(log.samples[2].terrain, 1);
+        assert_eq!(log.samples[2].line, 4);
+        assert!(log.origin.is_none());
+    }
+
+    #[test]
+    fn lat_lon_log_is_projected_about_its_first_sample() {
+        let text = "t_s,left_mps,right_mps,lat_deg,lon_deg,yaw_rad,terrain\n\
+                    0,1,1,60.0,10.0,0,grass\n1,1,1,60.0001,10.0,1.57,grass\n";
+        let log = parse_log(Path::new("geo.csv"), text).expect("valid");
+        assert!(log.samples[0].x_m.abs() < 1e-9 && log.samples[0].y_m.abs() < 1e-9);
+        // 1e-4 degrees of latitude is about 11.1 m north.
+        assert!((log.samples[1].y_m - 11.1).abs() < 0.1, "{}", log.samples[1].y_m);
+    }
+
+    #[test]
+    fn bad_cell_names_file_line_and_column() {
+        let e = err(&format!("{HEADER}0,1,1,0,0,0,grass\n0.1,fast,1,0,0,0,grass\n"));
+        assert_eq!(e, "drive.csv: line 3, column left_mps: 'fast' is not a number");
+    }
+
+    #[test]
+    fn time_must_increase() {
+        let e = err(&format!("{HEADER}0,1,1,0,0,0,grass\n0,1,1,0,0,0,grass\n"));
+        assert!(e.contains("line 3, column t_s") && e.contains("strictly increase"), "{e}");
+    }
+
+    #[test]
+    fn header_problems() {
+        assert!(err("t_s,left_mps,right_mps,x_m,yaw_rad,terrain\n0,1,1,0,0,g\n").contains("required column y_m"));
+        assert!(err("t_s,left,right_mps,x_m,y_m,yaw_rad,terrain\n").contains("unknown column 'left'"));
+        let both = "t_s,left_mps,right_mps,x_m,y_m,lat_deg,lon_deg,yaw_rad,terrain\n";
+        assert!(err(both).contains("not both"));
+        assert!(err(&format!("{HEADER}0,1,1,0,0,0,grass\n")).contains("fewer than 2"));
+        assert!(err(&format!("{HEADER}0,1,1,0,0,0\n")).contains("line 2: has 6 fields"));
+        assert!(err(&format!("{HEADER}0,1,1,0,0,inf,grass\n1,1,1,0,0,0,grass\n")).contains("column yaw_rad"));
+    }
+}

@@ -1,0 +1,496 @@
+//! Identification of per-terrain motion models from drive logs (`skidroute fit`, DESIGN 6.7).
+//!
+//! Logs ([`log`]) are split into runs and windows ([`windows`]); every family of DESIGN 6.1 is
+//! started from a velocity-level least-squares fit ([`initial`]) and refined by integrated
+//! prediction error minimisation (Seegmiller, Rogers-Marcovitz, Miller & Kelly 2013, "Vehicle
+//! model identification by integrated prediction error minimization", IJRR 32(8); [`lm`]),
+//! validated on held-out time blocks ([`validate`], medians and quartiles by Hyndman & Fan 1996
+//! type 7, [`stats`]), and one family is chosen per terrain ([`select`]). The result is a complete
+//! profile for `check`, plus everything the reports show. Units: SI, local frame of the logs.
+//!
+//! A terrain that cannot be fitted (too few windows, no turning, no convergence) is a value in
+//! the result, not an error: it keeps the base profile's entry and [`FitRun::failed`] is true.
+
+pub mod initial;
+pub mod lm;
+pub mod log;
+pub mod params;
+pub mod select;
+pub mod stats;
+pub mod sweep;
+pub mod validate;
+pub mod windows;
+
+#[cfg(test)]
+pub(crate) mod testdata;
+#[cfg(test)]
+mod tests;
+
+use std::path::PathBuf;
+
+use serde::Serialize;
+
+use crate::kinematics::{Family, Model};
+use crate::progress::Progress;
+use crate::vehicle::{profile_to_toml, Profile};
+use log::DriveLog;
+use params::Parametrisation;
+use select::{choose, Candidate};
+use sweep::SweepTable;
+use validate::{noise_intensities, summarise, window_errors, NoiseIntensities, Validation, WindowError};
+use windows::{build_series, cut_windows, Series, Window};
+
+/// A problem with the fit's inputs or settings (exit code 2). Messages name the file, line and
+/// column where there is one.
+#[derive(Debug, thiserror::Error)]
+pub enum FitError {
+    #[error("{file}: cannot read: {source}")]
+    Io { file: PathBuf, source: std::io::Error },
+    #[error("{file}: {what}")]
+    File { file: PathBuf, what: String },
+    #[error("{file}: line {line}: {what}")]
+    Line { file: PathBuf, line: usize, what: String },
+    #[error("{file}: line {line}, column {column}: {what}")]
+    Cell { file: PathBuf, line: usize, column: String, what: String },
+    #[error("{file}: line {line}: terrain '{terrain}' is not in the base profile (it knows {known}); add a [terrain.{terrain}] table with its traction coefficients to the --vehicle profile")]
+    UnknownTerrain { file: PathBuf, line: usize, terrain: String, known: String },
+    #[error("{0}")]
+    Settings(String),
+}
+
+/// Families serialise as their profile names.
+fn family_name<S: serde::Serializer>(f: &Family, s: S) -> Result<S::Ok, S::Error> {
+    s.serialize_str(f.name())
+}
+
+/// Fewest training windows for a terrain fit.
+pub const MIN_WINDOWS: usize = 50;
+/// Fewest training windows that turn by at least [`TURN_RAD`] (else the turning parameters are
+/// not identifiable).
+pub const MIN_TURNING_WINDOWS: usize = 10;
+/// Yaw change (rad) from which a window counts as turning.
+pub const TURN_RAD: f64 = 0.1;
+/// Default weight of yaw in the residual: metres per radian (DESIGN 6.7).
+pub const DEFAULT_YAW_SCALE_M_PER_RAD: f64 = 1.0;
+/// Validation windows kept per terrain for the end-point plot.
+pub const PLOTTED_END_POINTS: usize = 400;
+
+/// Validated settings of a fit.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct FitSettings {
+    pub horizon_s: f64,
+    /// Horizons of the sweep; empty for no sweep.
+    pub sweep_horizons_s: Vec<f64>,
+    pub yaw_scale_m_per_rad: f64,
+}
+
+impl FitSettings {
+    /// Checks that the horizons are positive and finite, and sorts the sweep.
+    pub fn new(horizon_s: f64, sweep_horizons_s: &[f64]) -> Result<FitSettings, FitError> {
+        let bad = |h: f64| !(h.is_finite() && h > 0.0 && h <= 600.0);
+        if bad(horizon_s) {
+            return Err(FitError::Settings(format!("--horizon-s must be in (0, 600] seconds, got {horizon_s}")));
+        }
+        if let Some(h) = sweep_horizons_s.iter().find(|h| bad(**h)) {
+            return Err(FitError::Settings(format!("--sweep horizons must be in (0, 600] seconds, got {h}")));
+        }
+        let mut sweep = sweep_horizons_s.to_vec();
+        sweep.sort_by(f64::total_cmp);
+        sweep.dedup();
+        Ok(FitSettings { horizon_s, sweep_horizons_s: sweep, yaw_scale_m_per_rad: DEFAULT_YAW_SCALE_M_PER_RAD })
+    }
+}
+
+/// One family fitted on one terrain.
+#[derive(Debug, Clone, Serialize)]
+pub struct FamilyFit {
+    #[serde(serialize_with = "family_name")]
+    pub family: Family,
+    /// Names of the free parameters, in order.
+    pub names: Vec<String>,
+    pub params: Vec<f64>,
+    /// Standard errors (square roots of the covariance diagonal); `None` if not identifiable.
+    pub std_errors: Option<Vec<f64>>,
+    /// Curvature nodes (1/m) of an `extended-scheduled` table, fixed by the fit.
+    pub nodes_per_m: Vec<f64>,
+    /// Covariance in the profile's parameter order.
+    #[serde(skip)]
+    pub covariance: Option<Vec<Vec<f64>>>,
+    pub converged: bool,
+    pub termination: String,
+    /// Why the family cannot be used although it converged (parameters out of range), if so.
+    pub problem: Option<String>,
+    pub iterations: usize,
+    pub evaluations: usize,
+    pub validation: Validation,
+    #[serde(skip)]
+    pub model: Option<Model>,
+    #[serde(skip)]
+    pub errors: Vec<WindowError>,
+}
+
+impl FamilyFit {
+    /// Converged, physically valid and validated.
+    pub fn usable(&self) -> bool {
+        self.converged && self.problem.is_none() && self.model.is_some()
+    }
+}
+
+/// What happened on a terrain.
+#[derive(Debug, Clone, Serialize)]
+#[serde(tag = "status", rename_all = "kebab-case")]
+pub enum TerrainOutcome {
+    Fitted {
+        #[serde(serialize_with = "family_name")]
+        family: Family,
+        reason: String,
+        noise: Option<NoiseIntensities>,
+    },
+    Failed {
+        reason: String,
+    },
+}
+
+/// Commanded and measured yaw change per metre driven over a window (1/m), for the plot.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct TurnPoint {
+    pub commanded_per_m: f64,
+    pub measured_per_m: f64,
+}
+
+/// Everything about one terrain.
+#[derive(Debug, Clone, Serialize)]
+pub struct TerrainFit {
+    pub terrain: String,
+    pub samples: usize,
+    pub training_samples: usize,
+    pub training_windows: usize,
+    pub validation_windows: usize,
+    pub turning_windows: usize,
+    pub outcome: TerrainOutcome,
+    pub families: Vec<FamilyFit>,
+    pub sweep: Option<SweepTable>,
+    #[serde(skip)]
+    pub turn_points: Vec<TurnPoint>,
+}
+
+impl TerrainFit {
+    pub fn chosen(&self) -> Option<&FamilyFit> {
+        match &self.outcome {
+            TerrainOutcome::Fitted { family, .. } => self.families.iter().find(|f| f.family == *family),
+            TerrainOutcome::Failed { .. } => None,
+        }
+    }
+}
+
+/// One input log in the summary.
+#[derive(Debug, Clone, Serialize)]
+pub struct InputSummary {
+    pub file: String,
+    pub samples: usize,
+    /// "training" or "validation".
+    pub role: &'static str,
+}
+
+/// The whole result of a fit.
+#[derive(Debug, Clone, Serialize)]
+pub struct FitRun {
+    pub inputs: Vec<InputSummary>,
+    pub settings: FitSettings,
+    /// The base profile's file, or "built-in demo profile".
+    pub base_profile: String,
+    pub demo_base: bool,
+    pub terrains: Vec<TerrainFit>,
+    /// Terrains of the base profile without log data, kept as they were.
+    pub kept_from_base: Vec<String>,
+    /// How validation data were chosen, in words.
+    pub holdout: String,
+    #[serde(skip)]
+    pub profile: Profile,
+}
+
+impl FitRun {
+    /// True when a terrain could not be fitted or a family's fit did not converge (exit code 1).
+    pub fn failed(&self) -> bool {
+        self.terrains
+            .iter()
+            .any(|t| matches!(t.outcome, TerrainOutcome::Failed { .. }) || t.families.iter().any(|f| !f.converged))
+    }
+
+    /// The provenance comment of the written profile (no date, so output is reproducible).
+    pub fn provenance(&self) -> String {
+        let mut s = String::from(
+            "Vehicle profile calibrated by `skidroute fit`: integrated prediction error minimisation\n\
+             (Seegmiller, Rogers-Marcovitz, Miller & Kelly 2013, IJRR) on these drive logs:\n",
+        );
+        for i in &self.inputs {
+            s += &format!("  {} ({} samples, {})\n", i.file, i.samples, i.role);
+        }
+        s += &format!(
+            "horizon {} s, windows overlapping by half, yaw weighted {} m per rad; validation: {}\n",
+            self.settings.horizon_s, self.settings.yaw_scale_m_per_rad, self.holdout
+        );
+        s += &format!("geometry, limits, follower and traction coefficients from: {}\n", self.base_profile);
+        for t in &self.terrains {
+            match t.chosen() {
+                Some(f) => {
+                    let err = f
+                        .validation
+                        .translation_rel
+                        .map_or("n/a".to_string(), |e| format!("{:.1} %", 100.0 * e.median));
+                    s += &format!(
+                        "terrain {}: {} from {} samples, {} training and {} validation windows, median translation error {err}\n",
+                        t.terrain, f.family, t.samples, t.training_windows, t.validation_windows
+                    );
+                }
+                None => {
+                    let reason = match &t.outcome {
+                        TerrainOutcome::Failed { reason } => reason.as_str(),
+                        TerrainOutcome::Fitted { .. } => "no usable family",
+                    };
+                    s += &format!("terrain {}: NOT FITTED, kept from the base profile: {reason}\n", t.terrain);
+                }
+            }
+        }
+        for k in &self.kept_from_base {
+            s += &format!("terrain {k}: not in the logs, kept from the base profile\n");
+        }
+        s += "Predictions from this profile are estimates, not guarantees.";
+        s
+    }
+
+    /// The calibrated profile as TOML with the provenance header.
+    pub fn profile_toml(&self) -> String {
+        profile_to_toml(&self.profile, &self.provenance())
+    }
+}
+
+/// Reads nothing and writes nothing: fits `logs` (validation from held-out blocks, or from
+/// `validation_logs` when given) against the base profile and returns the run. `base_name` names
+/// the base profile in the provenance. Fails only on input problems (a terrain the base profile
+/// does not know).
+pub fn fit_logs(
+    logs: &[DriveLog],
+    validation_logs: &[DriveLog],
+    base: &Profile,
+    base_name: &str,
+    demo_base: bool,
+    settings: &FitSettings,
+    progress: &dyn Progress,
+) -> Result<FitRun, FitError> {
+    for log in logs.iter().chain(validation_logs) {
+        for s in &log.samples {
+            let name = &log.terrains[s.terrain];
+            if !base.terrain.contains_key(name) {
+                let known = base.terrain_names().join(", ");
+                return Err(FitError::UnknownTerrain {
+                    file: log.source.clone(),
+                    line: s.line,
+                    terrain: name.clone(),
+                    known,
+                });
+            }
+        }
+    }
+    let series = build_series(logs, validation_logs);
+    let per_terrain = Family::ALL.len() + settings.sweep_horizons_s.len();
+    progress.start((series.len() * per_terrain) as u64, "fitting");
+    let terrains: Vec<TerrainFit> = series.iter().map(|s| fit_terrain(s, base, settings, progress)).collect();
+    progress.finish();
+    let mut profile = base.clone();
+    for t in &terrains {
+        let (TerrainOutcome::Fitted { noise, .. }, Some(f), Some(spec)) =
+            (&t.outcome, t.chosen(), profile.terrain.get_mut(&t.terrain))
+        else {
+            continue;
+        };
+        let Some(model) = f.model.clone() else { continue };
+        spec.model = model;
+        spec.covariance = f.covariance.clone();
+        if let Some(q) = noise {
+            spec.noise_heading_rad_per_sqrt_m = q.heading_rad_per_sqrt_m;
+            spec.noise_along_m_per_sqrt_m = q.along_m_per_sqrt_m;
+            spec.noise_cross_m_per_sqrt_m = q.cross_m_per_sqrt_m;
+        }
+    }
+    let fitted: Vec<&str> = terrains.iter().map(|t| t.terrain.as_str()).collect();
+    let kept_from_base = base.terrain_names().into_iter().filter(|n| !fitted.contains(n)).map(String::from).collect();
+    let summary =
+        |l: &DriveLog, role| InputSummary { file: l.source.display().to_string(), samples: l.samples.len(), role };
+    let inputs = logs
+        .iter()
+        .map(|l| summary(l, "training"))
+        .chain(validation_logs.iter().map(|l| summary(l, "validation")))
+        .collect();
+    let holdout = if validation_logs.is_empty() {
+        format!(
+            "held-out time blocks (block {} of every {} blocks of {} s of driving on each terrain)",
+            windows::HELD_OUT_BLOCK + 1,
+            windows::BLOCK_CYCLE,
+            windows::BLOCK_S
+        )
+    } else {
+        "the --validate logs".to_string()
+    };
+    Ok(FitRun {
+        inputs,
+        settings: settings.clone(),
+        base_profile: base_name.to_string(),
+        demo_base,
+        terrains,
+        kept_from_base,
+        holdout,
+        profile,
+    })
+}
+
+/// Windows that turn by at least [`TURN_RAD`].
+fn turning_windows(s: &Series, windows: &[Window]) -> usize {
+    windows.iter().filter(|w| s.measured_delta(**w)[2].abs() >= TURN_RAD).count()
+}
+
+fn turn_points(s: &Series, windows: &[Window], track_width_m: f64) -> Vec<TurnPoint> {
+    windows
+        .iter()
+        .filter_map(|w| {
+            let d = s.odometry_m(*w);
+            (d >= validate::MIN_TRANSLATION_M).then(|| TurnPoint {
+                commanded_per_m: s.commanded_yaw_rad(*w, track_width_m) / d,
+                measured_per_m: s.measured_delta(*w)[2] / d,
+            })
+        })
+        .collect()
+}
+
+/// Why a terrain's data cannot support a fit, if so.
+fn data_problem(train: usize, validation: usize, turning: usize, horizon_s: f64) -> Option<String> {
+    if train < MIN_WINDOWS {
+        return Some(format!(
+            "too little data: {train} training windows of {horizon_s} s, at least {MIN_WINDOWS} are needed (drive about {:.0} s more on this terrain)",
+            (MIN_WINDOWS - train) as f64 * horizon_s / 2.0 * 1.25
+        ));
+    }
+    if turning < MIN_TURNING_WINDOWS {
+        return Some(format!(
+            "no turning: {turning} training windows turn by {:.0} degrees or more, at least {MIN_TURNING_WINDOWS} are needed to identify turning",
+            TURN_RAD.to_degrees()
+        ));
+    }
+    if validation == 0 {
+        return Some(
+            "no validation windows: the logs are too short to hold out a time block; drive longer or give --validate"
+                .to_string(),
+        );
+    }
+    None
+}
+
+fn fit_terrain(s: &Series, base: &Profile, settings: &FitSettings, progress: &dyn Progress) -> TerrainFit {
+    let b = base.vehicle.track_width_m;
+    let (train, val) = cut_windows(s, settings.horizon_s);
+    let turning = turning_windows(s, &train);
+    let mut all = train.clone();
+    all.extend_from_slice(&val);
+    let mut t = TerrainFit {
+        terrain: s.terrain.clone(),
+        samples: s.len(),
+        training_samples: s.training_samples(),
+        training_windows: train.len(),
+        validation_windows: val.len(),
+        turning_windows: turning,
+        outcome: TerrainOutcome::Failed { reason: String::new() },
+        families: Vec::new(),
+        sweep: None,
+        turn_points: turn_points(s, &all, b),
+    };
+    let per_terrain = (Family::ALL.len() + settings.sweep_horizons_s.len()) as u64;
+    if let Some(reason) = data_problem(train.len(), val.len(), turning, settings.horizon_s) {
+        t.outcome = TerrainOutcome::Failed { reason };
+        progress.advance(per_terrain);
+        return t;
+    }
+    let velocities = initial::velocity_samples(s);
+    let nodes = initial::schedule_nodes(s, b);
+    for family in Family::ALL {
+        let par = Parametrisation::new(family, b, &nodes);
+        t.families.push(fit_family(&par, s, &train, &val, &velocities, settings));
+        progress.advance(1);
+    }
+    let candidates: Vec<Candidate> = t
+        .families
+        .iter()
+        .filter(|f| f.usable())
+        .filter_map(|f| {
+            Some(Candidate { family: f.family, params: f.params.len(), error: f.validation.translation_rel?.median })
+        })
+        .collect();
+    t.outcome = match choose(&candidates) {
+        Some(choice) => {
+            let chosen = t.families.iter().find(|f| f.family == choice.family);
+            let noise = chosen.and_then(|f| noise_intensities(&f.errors));
+            if !settings.sweep_horizons_s.is_empty() {
+                if let Some(f) = chosen {
+                    let par = Parametrisation::new(f.family, b, &f.nodes_per_m);
+                    t.sweep = Some(sweep::sweep(
+                        &par,
+                        s,
+                        &f.params,
+                        &settings.sweep_horizons_s,
+                        settings.yaw_scale_m_per_rad,
+                    ));
+                }
+            }
+            TerrainOutcome::Fitted { family: choice.family, reason: choice.reason, noise }
+        }
+        None => TerrainOutcome::Failed {
+            reason: "no family converged to parameters in their physical range with a validation error".to_string(),
+        },
+    };
+    progress.advance(settings.sweep_horizons_s.len() as u64);
+    let chosen = t.chosen().map(|c| c.family);
+    for f in &mut t.families {
+        if Some(f.family) != chosen {
+            f.errors.clear();
+        }
+    }
+    t
+}
+
+/// Fits one family: start, minimise, check ranges, validate.
+fn fit_family(
+    par: &Parametrisation,
+    s: &Series,
+    train: &[Window],
+    val: &[Window],
+    velocities: &[initial::VelocitySample],
+    settings: &FitSettings,
+) -> FamilyFit {
+    let start = initial::initial_params(par, velocities);
+    let est = lm::minimise(par, s, train, settings.yaw_scale_m_per_rad, &start);
+    let problem = par.physical_problem(&est.params);
+    let model = if est.converged && problem.is_none() { par.model(&est.params) } else { None };
+    let errors = if model.is_some() { window_errors(par, &est.params, s, val) } else { Vec::new() };
+    let std_errors = est.covariance.as_ref().map(|c| (0..c.nrows()).map(|i| c[(i, i)].max(0.0).sqrt()).collect());
+    FamilyFit {
+        family: par.family,
+        names: par.names(),
+        params: est.params.clone(),
+        std_errors,
+        nodes_per_m: par.nodes_per_m.clone(),
+        covariance: est.covariance.as_ref().map(|c| par.profile_covariance(c)),
+        converged: est.converged,
+        termination: est.termination,
+        problem,
+        iterations: est.iterations,
+        evaluations: est.evaluations,
+        validation: summarise(&errors),
+        model,
+        errors,
+    }
+}
+
+/// Validation windows whose end points the plot draws: at most [`PLOTTED_END_POINTS`], evenly spread.
+pub fn plotted_end_points(errors: &[WindowError]) -> impl Iterator<Item = &WindowError> {
+    let step = errors.len().div_ceil(PLOTTED_END_POINTS).max(1);
+    errors.iter().step_by(step)
+}
