@@ -5,7 +5,9 @@ use std::path::PathBuf;
 
 use rayon::prelude::*;
 
-use crate::assess::{assess_route, RouteReport, Verdict};
+use crate::assess::{assess_route, DriftNote, RouteReport, Verdict};
+use crate::drift::{run_drift, DriftSettings};
+use crate::progress::Progress;
 use crate::rollout::{roll_out, RouteDrive, Trace};
 use crate::route::{check_terrains, read_routes, Route};
 use crate::vehicle::Profile;
@@ -61,4 +63,28 @@ pub fn check_route(route: Route, profile: &Profile) -> CheckedRoute {
 pub fn check_routes(routes: Vec<Route>, profile: &Profile, demo_profile: bool) -> CheckRun {
     let routes = routes.into_par_iter().map(|r| check_route(r, profile)).collect();
     CheckRun { vehicle_name: profile.vehicle.name.clone(), demo_profile, routes }
+}
+
+/// Adds the drift estimate (CEP95 at every leg end, DESIGN 6.8) to each route of a check, so one
+/// command screens a plan. Routes run one after another; each runs its samples in parallel.
+pub fn add_drift(
+    run: &mut CheckRun,
+    profile: &Profile,
+    settings: &DriftSettings,
+    progress: &dyn Progress,
+) -> Result<(), Error> {
+    for cr in &mut run.routes {
+        let drift = run_drift(&cr.route, profile, settings, progress)?;
+        for (leg, d) in cr.report.legs.iter_mut().zip(&drift.legs) {
+            leg.drift_cep95_m = d.cep95_m();
+        }
+        cr.report.drift = Some(DriftNote {
+            samples: settings.samples,
+            seed: settings.seed,
+            odometry: settings.odometry.name(),
+            lost_from_leg: settings.lost_from_leg,
+        });
+    }
+    progress.finish();
+    Ok(())
 }

@@ -8,6 +8,9 @@ use clap::Args;
 use skidroute::assess::Verdict;
 use skidroute::report::{self, CheckOutputs};
 
+use skidroute::drift::DriftSettings;
+
+use super::progress::Bar;
 use super::{color_wanted, emit, load_profile};
 
 #[derive(Args)]
@@ -45,6 +48,22 @@ pub struct CheckArgs {
     /// Print nothing but errors.
     #[arg(long)]
     pub quiet: bool,
+    /// Also estimate the drift at every leg end if localization is lost (Monte Carlo).
+    #[arg(long)]
+    pub drift: bool,
+    /// Monte Carlo samples for --drift.
+    #[arg(long, default_value_t = 1000, requires = "drift",
+          value_parser = clap::value_parser!(u64).range(1..=skidroute::drift::MAX_SAMPLES as u64))]
+    pub samples: u64,
+    /// Seed for --drift (the same seed gives the same figures).
+    #[arg(long, default_value_t = 7, requires = "drift")]
+    pub seed: u64,
+    /// Leg (from 1) at whose start localization is lost, for --drift.
+    #[arg(long, default_value_t = 1, requires = "drift", value_parser = clap::value_parser!(u64).range(1..))]
+    pub lost_from_leg: u64,
+    /// Odometry model for --drift; default: the profile's follower `inverse_model`.
+    #[arg(long, value_enum, requires = "drift")]
+    pub odometry: Option<super::drift::OdometryArg>,
 }
 
 pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
@@ -55,7 +74,17 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
     report::refuse_overwriting_inputs(&inputs, outputs.paths().chain(a.html.iter()))?;
     let (profile, demo) = load_profile(&a.vehicle)?;
     let routes = skidroute::batch::load_routes_parallel(&files, &profile)?;
-    let run = skidroute::check::check_routes(routes, &profile, demo);
+    let mut run = skidroute::check::check_routes(routes, &profile, demo);
+    if a.drift {
+        let settings = DriftSettings {
+            samples: a.samples as usize,
+            seed: a.seed,
+            lost_from_leg: a.lost_from_leg as usize,
+            odometry: super::drift::odometry(a.odometry, &profile),
+            paths_kept: 0,
+        };
+        skidroute::check::add_drift(&mut run, &profile, &settings, &Bar::new(a.quiet || a.json))?;
+    }
     report::write_check_outputs(&run, &outputs)?;
     super::batch::write_html(&run, a.html.as_deref())?;
     if a.format == super::batch::Format::Jsonl && !a.json {

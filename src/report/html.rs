@@ -58,7 +58,7 @@ fn route_section(out: &mut String, r: &RouteReport) {
         "<table><tr><th>leg</th><th>terrain</th><th>length m</th><th>speed m/s</th><th>tightest radius m</th>\
          <th>required curv. 1/m</th><th>achievable curv. 1/m</th><th>max dev. m</th><th>RMS dev. m</th>\
          <th>corridor m</th><th>time s</th><th>energy Wh</th><th>peak side thrust N</th><th>peak power W</th>\
-         <th>verdict</th></tr>\n",
+         <th>drift CEP95 m</th><th>verdict</th></tr>\n",
     );
     for l in &r.legs {
         let label = match &l.name {
@@ -69,7 +69,7 @@ fn route_section(out: &mut String, r: &RouteReport) {
             out,
             "<tr><td>{label}</td><td>{}</td><td class=n>{:.1}</td><td class=n>{:.1}</td><td class=n>{}</td>\
              <td class=n>{:.3}</td><td class=n>{}</td><td class=n>{:.2}</td><td class=n>{:.2}</td><td class=n>{:.2}</td>\
-             <td class=n>{:.0}</td><td class=n>{:.1}</td><td class=n>{:.0}</td><td class=n>{:.0}</td><td>{}</td></tr>",
+             <td class=n>{:.0}</td><td class=n>{:.1}</td><td class=n>{:.0}</td><td class=n>{:.0}</td><td class=n>{}</td><td>{}</td></tr>",
             escape(&l.terrain),
             l.length_m,
             l.speed_mps,
@@ -83,10 +83,24 @@ fn route_section(out: &mut String, r: &RouteReport) {
             l.energy_wh,
             l.peak_side_thrust_n,
             l.peak_power_w,
+            opt(l.drift_cep95_m, 2, "-"),
             verdict_span(l.verdict)
         );
     }
     out.push_str("</table>\n");
+    if let Some(d) = &r.drift {
+        let _ = writeln!(
+            out,
+            "<p>drift: 95 % radial error at each leg end if localization is lost from leg {}, {} Monte Carlo \
+             samples, seed {}, {} odometry.</p>",
+            d.lost_from_leg,
+            d.samples,
+            d.seed,
+            escape(d.odometry)
+        );
+    } else {
+        out.push_str("<p>drift not computed (check --drift adds it).</p>\n");
+    }
     let reasons: Vec<String> = r
         .reasons
         .iter()
