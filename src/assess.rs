@@ -121,6 +121,9 @@ pub struct LegReport {
     pub mean_power_w: f64,
     /// Steepest uphill grade of the plan on this leg, percent (0 without altitude).
     pub max_uphill_grade_pct: f64,
+    /// 95 % radial error at the leg end when localization is lost (`check --drift`).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub drift_cep95_m: Option<f64>,
     pub verdict: Verdict,
     pub reasons: Vec<String>,
 }
@@ -142,7 +145,19 @@ pub struct RouteReport {
     pub battery_used_fraction: Option<f64>,
     /// Route-level reasons (battery reserve).
     pub reasons: Vec<String>,
+    /// How the drift figures were computed, when `check --drift` asked for them.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub drift: Option<DriftNote>,
     pub legs: Vec<LegReport>,
+}
+
+/// The settings behind the drift figures of a check report.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct DriftNote {
+    pub samples: usize,
+    pub seed: u64,
+    pub odometry: &'static str,
+    pub lost_from_leg: usize,
 }
 
 /// Battery reserve below which a route earns a caution.
@@ -203,6 +218,7 @@ pub fn assess_route(route: &Route, drive: &RouteDrive, trace: &Trace, battery_wh
         peak_power_w: legs.iter().map(|l| l.peak_power_w).fold(0.0, f64::max),
         battery_used_fraction,
         reasons,
+        drift: None,
         legs,
     }
 }
@@ -294,6 +310,7 @@ fn assess_leg(route: &Route, drive: &RouteDrive, trace: &Trace, i: usize) -> Leg
         peak_power_w: effort.peak_power_w,
         mean_power_w: if time_s > 0.0 { effort.energy_j / time_s } else { 0.0 },
         max_uphill_grade_pct: 100.0 * grade_rad.tan(),
+        drift_cep95_m: None,
         verdict: Verdict::Pass,
         reasons: Vec::new(),
     };

@@ -5,8 +5,10 @@ use std::path::PathBuf;
 
 use rayon::prelude::*;
 
-use crate::assess::{assess_route, RouteReport, Verdict};
+use crate::assess::{assess_route, DriftNote, RouteReport, Verdict};
+use crate::drift::{run_drift, DriftSettings};
 use crate::limits::Limits;
+use crate::progress::Progress;
 use crate::rollout::{roll_out_within, step_bound, RouteDrive, Trace};
 use crate::route::{check_terrains, read_routes_with, too_many_total_points, Route, RouteError};
 use crate::vehicle::Profile;
@@ -50,20 +52,29 @@ pub fn load_routes(paths: &[PathBuf], profile: &Profile) -> Result<Vec<Route>, E
 pub fn load_routes_with(paths: &[PathBuf], profile: &Profile, limits: &Limits) -> Result<Vec<Route>, Error> {
     let known = profile.terrain_names();
     let mut routes = Vec::new();
-    let mut total_points = 0usize;
     for path in paths {
         for route in read_routes_with(path, limits)? {
             check_terrains(&route, &known)?;
-            total_points = total_points.saturating_add(route.legs.iter().map(|l| l.points.len()).sum::<usize>());
-            if total_points > limits.max_total_points {
-                let what = format!("(with the files before it) {}", too_many_total_points(total_points, limits));
-                return Err(RouteError::File { file: path.clone(), what }.into());
-            }
-            check_step_bound(&route, profile, limits)?;
             routes.push(route);
         }
     }
+    check_run_limits(&routes, profile, limits)?;
     Ok(routes)
+}
+
+/// The limits over a whole run that no single file can check: plan points over all files, and
+/// every route's step bound against [`Limits::max_rollout_steps`].
+pub fn check_run_limits(routes: &[Route], profile: &Profile, limits: &Limits) -> Result<(), RouteError> {
+    let mut total_points = 0usize;
+    for route in routes {
+        total_points = total_points.saturating_add(route.legs.iter().map(|l| l.points.len()).sum::<usize>());
+        if total_points > limits.max_total_points {
+            let what = format!("(with the files before it) {}", too_many_total_points(total_points, limits));
+            return Err(RouteError::File { file: route.source.clone(), what });
+        }
+        check_step_bound(route, profile, limits)?;
+    }
+    Ok(())
 }
 
 /// Refuses a route whose rollout could need more than `limits.max_rollout_steps` steps.
@@ -108,4 +119,28 @@ pub fn check_routes(routes: Vec<Route>, profile: &Profile, demo_profile: bool) -
 pub fn check_routes_with(routes: Vec<Route>, profile: &Profile, demo_profile: bool, limits: &Limits) -> CheckRun {
     let routes = routes.into_par_iter().map(|r| check_route_with(r, profile, limits)).collect();
     CheckRun { vehicle_name: profile.vehicle.name.clone(), demo_profile, routes }
+}
+
+/// Adds the drift estimate (CEP95 at every leg end, DESIGN 6.8) to each route of a check, so one
+/// command screens a plan. Routes run one after another; each runs its samples in parallel.
+pub fn add_drift(
+    run: &mut CheckRun,
+    profile: &Profile,
+    settings: &DriftSettings,
+    progress: &dyn Progress,
+) -> Result<(), Error> {
+    for cr in &mut run.routes {
+        let drift = run_drift(&cr.route, profile, settings, progress)?;
+        for (leg, d) in cr.report.legs.iter_mut().zip(&drift.legs) {
+            leg.drift_cep95_m = d.cep95_m();
+        }
+        cr.report.drift = Some(DriftNote {
+            samples: settings.samples,
+            seed: settings.seed,
+            odometry: settings.odometry.name(),
+            lost_from_leg: settings.lost_from_leg,
+        });
+    }
+    progress.finish();
+    Ok(())
 }

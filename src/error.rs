@@ -14,5 +14,9 @@ pub enum Error {
     #[error(transparent)]
     Report(#[from] crate::report::ReportError),
     #[error(transparent)]
+    Compare(#[from] crate::compare::CompareError),
+    #[error(transparent)]
+    Relax(#[from] crate::relax::RelaxError),
+    #[error(transparent)]
     Drift(#[from] crate::drift::DriftError),
 }

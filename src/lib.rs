@@ -7,7 +7,9 @@
 //! Everything inside is SI, local frame x east, y north, yaw anticlockwise from x.
 
 pub mod assess;
+pub mod batch;
 pub mod check;
+pub mod compare;
 pub mod drift;
 pub mod effort;
 pub mod error;
@@ -16,6 +18,7 @@ pub mod follow;
 pub mod kinematics;
 pub mod limits;
 pub mod progress;
+pub mod relax;
 pub mod report;
 pub mod rollout;
 pub mod route;

@@ -19,6 +19,10 @@ struct Cli {
 enum Command {
     /// Roll routes out through the terrain models and report every leg.
     Check(cli::check::CheckArgs),
+    /// Check alternative routes and rank them (verdict first, then --by).
+    Compare(cli::compare::CompareArgs),
+    /// Widen corners too tight for the terrain and write the repaired route.
+    Relax(cli::relax::RelaxArgs),
     /// Monte Carlo of the position error at each leg end when localization is lost.
     Drift(cli::drift::DriftArgs),
     /// Calibrate per-terrain motion models from drive logs and write a profile.
@@ -40,6 +44,8 @@ fn main() -> ExitCode {
         Command::Drift(a) => cli::drift::run_drift_command(a),
         Command::Fit(a) => cli::fit::run_fit(a),
         Command::Profile(a) => cli::profile::run_profile(a),
+        Command::Compare(a) => cli::compare::run_compare(a),
+        Command::Relax(a) => cli::relax::run_relax(a),
     };
     match result {
         Ok(code) => code,

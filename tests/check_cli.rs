@@ -329,3 +329,30 @@ fn usage_errors_exit_two() {
     assert_eq!(out.status.code(), Some(2));
     assert!(text(&out.stderr).contains("no-such-file.geojson"));
 }
+
+#[test]
+fn check_with_drift_adds_cep95_per_leg_end() {
+    let route = example("supply-run.geojson");
+    let args = ["check", "--json", "--drift", "--samples", "60", "--seed", "3", route.to_str().unwrap()];
+    let a = run(&args);
+    let b = run(&args);
+    assert_eq!(a.stdout, b.stdout, "same seed, same figures");
+    let v: serde_json::Value = serde_json::from_slice(&a.stdout).expect("json");
+    let r = &v["routes"][0];
+    assert_eq!(r["drift"]["samples"], 60);
+    assert_eq!(r["drift"]["seed"], 3);
+    let ceps: Vec<f64> =
+        r["legs"].as_array().unwrap().iter().map(|l| l["drift_cep95_m"].as_f64().expect("cep95")).collect();
+    assert!(ceps.iter().all(|c| c.is_finite() && *c > 0.0));
+    // Dead reckoning only gets worse with distance on this route.
+    assert!(ceps.windows(2).all(|w| w[1] >= w[0]), "{ceps:?}");
+    let table = text(&run(&["check", "--drift", "--samples", "20", route.to_str().unwrap()]).stdout);
+    assert!(table.contains("CEP95"));
+    let plain = text(&run(&["check", route.to_str().unwrap()]).stdout);
+    assert!(!plain.contains("CEP95"), "no drift column unless asked");
+    assert_eq!(
+        run(&["check", "--samples", "5", route.to_str().unwrap()]).status.code(),
+        Some(2),
+        "--samples needs --drift"
+    );
+}

@@ -8,11 +8,14 @@ use clap::Args;
 use skidroute::assess::Verdict;
 use skidroute::report::{self, CheckOutputs};
 
+use skidroute::drift::DriftSettings;
+
+use super::progress::Bar;
 use super::{color_wanted, emit, load_profile};
 
 #[derive(Args)]
 pub struct CheckArgs {
-    /// Route files (.geojson, .json or .csv).
+    /// Route files (.geojson, .json or .csv) or folders of them (taken sorted by name).
     #[arg(required = true)]
     pub routes: Vec<PathBuf>,
     /// Vehicle profile (TOML); the built-in demo profile when omitted.
@@ -36,9 +39,31 @@ pub struct CheckArgs {
     /// Treat cautions as failures for the exit code.
     #[arg(long)]
     pub strict: bool,
+    /// Stdout format: the table, the JSON document, or JSON Lines (one route per line).
+    #[arg(long, value_enum, default_value = "table")]
+    pub format: super::batch::Format,
+    /// Write a self-contained HTML report (plot inline, per-leg table, reasons, caution).
+    #[arg(long, value_name = "FILE")]
+    pub html: Option<PathBuf>,
     /// Print nothing but errors.
     #[arg(long)]
     pub quiet: bool,
+    /// Also estimate the drift at every leg end if localization is lost (Monte Carlo).
+    #[arg(long)]
+    pub drift: bool,
+    /// Monte Carlo samples for --drift.
+    #[arg(long, default_value_t = 1000, requires = "drift",
+          value_parser = clap::value_parser!(u64).range(1..=skidroute::drift::MAX_SAMPLES as u64))]
+    pub samples: u64,
+    /// Seed for --drift (the same seed gives the same figures).
+    #[arg(long, default_value_t = 7, requires = "drift")]
+    pub seed: u64,
+    /// Leg (from 1) at whose start localization is lost, for --drift.
+    #[arg(long, default_value_t = 1, requires = "drift", value_parser = clap::value_parser!(u64).range(1..))]
+    pub lost_from_leg: u64,
+    /// Odometry model for --drift; default: the profile's follower `inverse_model`.
+    #[arg(long, value_enum, requires = "drift")]
+    pub odometry: Option<super::drift::OdometryArg>,
     #[command(flatten)]
     pub limits: super::limits::LimitArgs,
 }
@@ -46,14 +71,28 @@ pub struct CheckArgs {
 pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
     let outputs =
         CheckOutputs { report_json: a.report, trace_csv: a.trace, predicted_geojson: a.predicted, plot: a.plot };
-    let inputs: Vec<PathBuf> = a.routes.iter().chain(a.vehicle.iter()).cloned().collect();
-    report::refuse_overwriting_inputs(&inputs, outputs.paths())?;
+    let files = skidroute::batch::expand_inputs(&a.routes)?;
+    let inputs: Vec<PathBuf> = files.iter().chain(a.vehicle.iter()).cloned().collect();
+    report::refuse_overwriting_inputs(&inputs, outputs.paths().chain(a.html.iter()))?;
     let (profile, demo) = load_profile(&a.vehicle)?;
     let limits = a.limits.resolve()?;
-    let routes = skidroute::check::load_routes_with(&a.routes, &profile, &limits)?;
-    let run = skidroute::check::check_routes_with(routes, &profile, demo, &limits);
+    let routes = skidroute::batch::load_routes_parallel_with(&files, &profile, &limits)?;
+    let mut run = skidroute::check::check_routes_with(routes, &profile, demo, &limits);
+    if a.drift {
+        let settings = DriftSettings {
+            samples: a.samples as usize,
+            seed: a.seed,
+            lost_from_leg: a.lost_from_leg as usize,
+            odometry: super::drift::odometry(a.odometry, &profile),
+            paths_kept: 0,
+        };
+        skidroute::check::add_drift(&mut run, &profile, &settings, &Bar::new(a.quiet || a.json))?;
+    }
     report::write_check_outputs(&run, &outputs)?;
-    if a.json {
+    super::batch::write_html(&run, a.html.as_deref())?;
+    if a.format == super::batch::Format::Jsonl && !a.json {
+        emit(&report::jsonl::check_jsonl(&run))?;
+    } else if a.json || a.format == super::batch::Format::Json {
         emit(&report::json::check_json(&run))?;
     } else if !a.quiet {
         emit(&report::table::check_table(&run, color_wanted()))?;

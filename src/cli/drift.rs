@@ -81,7 +81,7 @@ fn pick_route(mut routes: Vec<Route>, name: Option<&str>, file: &std::path::Path
     }
 }
 
-fn odometry(arg: Option<OdometryArg>, profile: &Profile) -> Odometry {
+pub fn odometry(arg: Option<OdometryArg>, profile: &Profile) -> Odometry {
     match arg {
         Some(OdometryArg::Ideal) => Odometry::Ideal,
         Some(OdometryArg::Calibrated) => Odometry::Calibrated,

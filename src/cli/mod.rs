@@ -2,12 +2,15 @@
 //! calls the library and maps the outcome to an exit code. Helpers shared by subcommands live
 //! here.
 
+pub mod batch;
 pub mod check;
+pub mod compare;
 pub mod drift;
 pub mod fit;
 pub mod limits;
 pub mod profile;
 pub mod progress;
+pub mod relax;
 
 use std::io::IsTerminal;
 use std::path::PathBuf;

@@ -4,14 +4,18 @@
 //! into place, so a failure never leaves a partial output.
 
 mod atomic;
+pub mod compare_report;
 pub mod drift_plot;
 pub mod drift_report;
 pub mod fit_json;
 pub mod fit_plot;
 pub mod fit_table;
+pub mod html;
 pub mod json;
+pub mod jsonl;
 pub mod plot;
 pub mod predicted;
+pub mod relaxed;
 pub mod table;
 pub mod trace_csv;
 

@@ -428,3 +428,16 @@ where
         .draw()?;
     Ok(())
 }
+
+/// The plot of a run as an SVG document string, for embedding (the HTML report).
+pub fn plot_svg_string(run: &CheckRun) -> Result<String, String> {
+    register_fonts();
+    let n = run.routes.len().clamp(1, MAX_ROUTES_PLOTTED) as u32;
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (WIDTH_PX, ROUTE_HEIGHT_PX * n)).into_drawing_area();
+        draw_run(&root, run)?;
+        root.present().map_err(|e| e.to_string())?;
+    }
+    Ok(svg)
+}

@@ -51,6 +51,7 @@ fn leg_row(l: &LegReport, color: bool) -> Vec<Cell> {
         num(l.time_s, 0),
         num(l.energy_wh, 1),
         num(l.peak_side_thrust_n, 0),
+        opt_num(l.drift_cep95_m, 1, "-"),
         verdict_cell(l.verdict, color),
     ]
 }
@@ -58,7 +59,7 @@ fn leg_row(l: &LegReport, color: bool) -> Vec<Cell> {
 fn route_table(r: &RouteReport, color: bool) -> Table {
     let mut t = Table::new();
     t.load_style(presets::UTF8_FULL_CONDENSED).set_content_arrangement(ContentArrangement::Disabled);
-    t.set_header(vec![
+    let mut header = vec![
         "leg",
         "terrain",
         "length\nm",
@@ -72,13 +73,23 @@ fn route_table(r: &RouteReport, color: bool) -> Table {
         "time\ns",
         "energy\nWh",
         "peak\nthrust N",
+        "drift\nCEP95 m",
         "verdict",
-    ]);
+    ];
+    if r.drift.is_none() {
+        header.remove(header.len() - 2);
+    }
+    t.set_header(header);
     if color {
         t.enforce_styling();
     }
+    let with_drift = r.drift.is_some();
     for l in &r.legs {
-        t.add_row(leg_row(l, color));
+        let mut row = leg_row(l, color);
+        if !with_drift {
+            row.remove(row.len() - 2);
+        }
+        t.add_row(row);
     }
     t
 }
@@ -109,6 +120,14 @@ pub fn check_table(run: &CheckRun, color: bool) -> String {
         }
         for why in &r.reasons {
             let _ = writeln!(out, "  route: {why}");
+        }
+        if let Some(d) = &r.drift {
+            let _ = writeln!(
+                out,
+                "  drift: CEP95 = 95 % of {} simulated drives end within this distance of where the vehicle believes \
+                 it is, localization lost from leg {}, {} odometry, seed {}",
+                d.samples, d.lost_from_leg, d.odometry, d.seed
+            );
         }
         let battery = match r.battery_used_fraction {
             Some(f) => format!(" ({:.0} % of the battery)", 100.0 * f),

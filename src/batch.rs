@@ -1,0 +1,117 @@
+//! Batch screening inputs: expands folders into the route files inside (`.geojson`, `.json`,
+//! `.csv`, sorted by name, not recursive) and reads many files in parallel (rayon), keeping
+//! the input order so outputs are stable.
+
+use std::path::{Path, PathBuf};
+
+use rayon::prelude::*;
+
+use crate::limits::Limits;
+use crate::route::{check_terrains, read_routes_with, Route, RouteError};
+use crate::vehicle::Profile;
+use crate::Error;
+
+/// Route file extensions taken from a folder.
+pub const ROUTE_EXTENSIONS: [&str; 3] = ["geojson", "json", "csv"];
+
+fn is_route_file(p: &Path) -> bool {
+    p.is_file()
+        && p.extension()
+            .and_then(|e| e.to_str())
+            .is_some_and(|e| ROUTE_EXTENSIONS.contains(&e.to_ascii_lowercase().as_str()))
+}
+
+/// Files and folders to route files: a file stays as given, a folder gives its route files
+/// sorted by name. An empty folder is an error (a pipeline must not pass on nothing).
+pub fn expand_inputs(paths: &[PathBuf]) -> Result<Vec<PathBuf>, RouteError> {
+    let mut out = Vec::new();
+    for path in paths {
+        if !path.is_dir() {
+            out.push(path.clone());
+            continue;
+        }
+        let io = |source| RouteError::Io { file: path.clone(), source };
+        let mut files = Vec::new();
+        for entry in std::fs::read_dir(path).map_err(io)? {
+            let p = entry.map_err(io)?.path();
+            if is_route_file(&p) {
+                files.push(p);
+            }
+        }
+        if files.is_empty() {
+            return Err(RouteError::File {
+                file: path.clone(),
+                what: "folder holds no .geojson, .json or .csv files".into(),
+            });
+        }
+        files.sort();
+        out.extend(files);
+    }
+    Ok(out)
+}
+
+/// Reads every route of every file in parallel and checks each leg's terrain against the
+/// profile; routes come out in file order, then in order within each file. The first error in
+/// input order is returned.
+pub fn load_routes_parallel(paths: &[PathBuf], profile: &Profile) -> Result<Vec<Route>, Error> {
+    load_routes_parallel_with(paths, profile, &Limits::default())
+}
+
+/// [`load_routes_parallel`] with explicit limits (per file while reading, then over the run as
+/// [`crate::check::check_run_limits`]).
+pub fn load_routes_parallel_with(paths: &[PathBuf], profile: &Profile, limits: &Limits) -> Result<Vec<Route>, Error> {
+    let known = profile.terrain_names();
+    let per_file: Vec<Result<Vec<Route>, RouteError>> = paths
+        .par_iter()
+        .map(|p| {
+            let routes = read_routes_with(p, limits)?;
+            for r in &routes {
+                check_terrains(r, &known)?;
+            }
+            Ok(routes)
+        })
+        .collect();
+    let mut routes = Vec::new();
+    for r in per_file {
+        routes.extend(r?);
+    }
+    crate::check::check_run_limits(&routes, profile, limits)?;
+    Ok(routes)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::check::check_routes;
+
+    /// 1000 small routes in 1000 files in a folder: every route is reported once, in name order,
+    /// and a second run gives the same order.
+    #[test]
+    fn batch_of_a_thousand_routes_reports_each_once_in_stable_order() {
+        let dir = tempfile::tempdir().expect("tempdir");
+        for i in 0..1000 {
+            let text = format!("x_m,y_m,terrain\n0,0,asphalt\n{},0,asphalt\n{},2,asphalt\n", 5 + i % 7, 9 + i % 5);
+            std::fs::write(dir.path().join(format!("r{i:04}.csv")), text).expect("write");
+        }
+        std::fs::write(dir.path().join("notes.txt"), "not a route").expect("write");
+        let files = expand_inputs(&[dir.path().to_path_buf()]).expect("expand");
+        assert_eq!(files.len(), 1000);
+        let profile = Profile::demo();
+        let routes = load_routes_parallel(&files, &profile).expect("load");
+        let run = check_routes(routes, &profile, true);
+        let names: Vec<String> = run.routes.iter().map(|r| r.report.route.clone()).collect();
+        let expected: Vec<String> = (0..1000).map(|i| format!("r{i:04}")).collect();
+        assert_eq!(names, expected);
+        let lines = crate::report::jsonl::check_jsonl(&run);
+        assert_eq!(lines.lines().count(), 1000);
+        let again = check_routes(load_routes_parallel(&files, &profile).expect("load"), &profile, true);
+        assert_eq!(crate::report::jsonl::check_jsonl(&again), lines);
+    }
+
+    #[test]
+    fn empty_folder_is_an_error_naming_it() {
+        let dir = tempfile::tempdir().expect("tempdir");
+        let e = expand_inputs(&[dir.path().to_path_buf()]).expect_err("empty");
+        assert!(e.to_string().contains("holds no"), "{e}");
+    }
+}

@@ -1,0 +1,143 @@
+use std::path::PathBuf;
+
+use geo::{Distance, Euclidean, LineString, Point};
+
+use super::*;
+use crate::assess::Verdict;
+use crate::check::check_route;
+use crate::route::{Leg, SourcePosition};
+
+fn leg(points: Vec<[f64; 2]>, terrain: &str, speed_mps: f64) -> Leg {
+    Leg {
+        name: None,
+        terrain: terrain.into(),
+        speed_mps: Some(speed_mps),
+        corridor_m: Some(1.0),
+        points,
+        altitude_m: None,
+        position: SourcePosition::Line(2),
+    }
+}
+
+fn route(legs: Vec<Leg>) -> Route {
+    Route { name: "r".into(), source: PathBuf::from("r.csv"), origin: None, legs }
+}
+
+/// Largest distance from any point of `a` (sampled every 2 cm) to the polyline `b`.
+fn directed_m(a: &[[f64; 2]], b: &[[f64; 2]]) -> f64 {
+    let target: LineString<f64> = b.iter().map(|p| (p[0], p[1])).collect();
+    let mut worst = 0.0_f64;
+    for w in a.windows(2) {
+        let n = (dist(w[0], w[1]) / 0.02).ceil() as usize;
+        for k in 0..=n {
+            let t = k as f64 / n as f64;
+            let p = Point::new(w[0][0] + t * (w[1][0] - w[0][0]), w[0][1] + t * (w[1][1] - w[0][1]));
+            worst = worst.max(Euclidean.distance(&p, &target));
+        }
+    }
+    worst
+}
+
+fn all_points(r: &Route) -> Vec<[f64; 2]> {
+    crate::route::PlanPath::new(r).points().to_vec()
+}
+
+fn curvature_ok(r: &Route, profile: &Profile) -> bool {
+    let checked = check_route(r.clone(), profile);
+    checked
+        .report
+        .legs
+        .iter()
+        .all(|l| l.achievable_curvature_per_m.is_none_or(|a| l.required_curvature_per_m <= CAUTION_CURVATURE_SHARE * a))
+}
+
+/// A zig-zag of right-angle corners on deep snow: every corner fails at 1.2 m/s. After relaxing
+/// the route passes, and no point of either plan is farther from the other than reported.
+#[test]
+fn relax_makes_a_sharp_cornered_route_pass_and_reports_its_largest_displacement() {
+    let profile = Profile::demo();
+    let pts = vec![[0.0, 0.0], [25.0, 0.0], [25.0, 25.0], [50.0, 25.0], [50.0, 0.0], [75.0, 0.0]];
+    // Dense input: points every 0.25 m along the sides, so simplification must find the corners.
+    let mut dense = vec![pts[0]];
+    for w in pts.windows(2) {
+        let n = (dist(w[0], w[1]) / 0.25).round() as usize;
+        for k in 1..=n {
+            let t = k as f64 / n as f64;
+            dense.push([w[0][0] + t * (w[1][0] - w[0][0]), w[0][1] + t * (w[1][1] - w[0][1])]);
+        }
+    }
+    let original = route(vec![leg(dense, "deep-snow", 1.2)]);
+    let before = check_route(original.clone(), &profile);
+    assert_eq!(before.report.verdict, Verdict::Fail);
+    let relaxed = relax_route(&original, &profile, &RelaxSettings::default()).expect("relax");
+    assert_eq!(relaxed.changes.len(), 4, "{:?}", relaxed.unrepaired);
+    assert!(relaxed.unrepaired.is_empty());
+    for c in &relaxed.changes {
+        assert!((c.turn_deg.abs() - 90.0).abs() < 1e-6);
+        assert!(c.new_radius_m > c.old_radius_m);
+        assert!(c.new_speed_mps.is_none());
+    }
+    let after = check_route(relaxed.route.clone(), &profile);
+    assert_ne!(after.report.verdict, Verdict::Fail, "{:#?}", after.report.legs);
+    assert!(curvature_ok(&relaxed.route, &profile));
+    let (a, b) = (all_points(&original), all_points(&relaxed.route));
+    let true_m = directed_m(&a, &b).max(directed_m(&b, &a));
+    assert!(true_m <= relaxed.max_displacement_m + 1e-9, "true {true_m} > reported {}", relaxed.max_displacement_m);
+    assert!(relaxed.max_displacement_m > 0.1, "a fillet moves the corner");
+    // Ends stay where they were.
+    assert_eq!(b.first(), a.first());
+    assert_eq!(b.last(), a.last());
+}
+
+/// A corner at a leg boundary (terrain change) is filleted across both legs; the boundary
+/// moves onto the fillet and the legs still join.
+#[test]
+fn corner_at_a_leg_boundary_is_shared_by_both_legs() {
+    let profile = Profile::demo();
+    let r = route(vec![
+        leg(vec![[0.0, 0.0], [30.0, 0.0]], "grass", 1.2),
+        leg(vec![[30.0, 0.0], [30.0, 30.0]], "deep-snow", 1.2),
+    ]);
+    let relaxed = relax_route(&r, &profile, &RelaxSettings::default()).expect("relax");
+    assert_eq!(relaxed.changes.len(), 1);
+    assert_eq!(relaxed.changes[0].legs, vec![1, 2]);
+    let legs = &relaxed.route.legs;
+    assert_eq!(legs.len(), 2);
+    assert_eq!(legs[0].points.last(), legs[1].points.first());
+    assert!(legs[0].points.len() > 3 && legs[1].points.len() > 3);
+    assert!(curvature_ok(&relaxed.route, &profile));
+}
+
+/// Sides too short for the needed tangent length: the fillet that fits is used and the speed
+/// lowered; with sides that leave almost no room the corner is reported as not repairable.
+#[test]
+fn short_sides_lower_the_speed_or_leave_the_corner_unrepaired() {
+    let profile = Profile::demo();
+    let r = route(vec![leg(vec![[0.0, 0.0], [3.0, 0.0], [3.0, 3.0]], "deep-snow", 1.8)]);
+    let relaxed = relax_route(&r, &profile, &RelaxSettings::default()).expect("relax");
+    if let Some(c) = relaxed.changes.first() {
+        let v = c.new_speed_mps.expect("speed lowered");
+        assert!(v < 1.8 && v >= 0.2);
+        assert_eq!(relaxed.route.legs[0].speed_mps, Some(v));
+        assert!(curvature_ok(&relaxed.route, &profile));
+    } else {
+        assert_eq!(relaxed.unrepaired.len(), 1);
+    }
+    // A 0.2 m jog between two right angles: no room for any fillet that deep snow allows.
+    let tiny = route(vec![leg(vec![[0.0, 0.0], [10.0, 0.0], [10.0, 0.2], [20.0, 0.2]], "deep-snow", 1.2)]);
+    let relaxed = relax_route(&tiny, &profile, &RelaxSettings::default()).expect("relax");
+    assert!(relaxed.changes.is_empty(), "{:?}", relaxed.changes);
+    assert_eq!(relaxed.unrepaired.len(), 2);
+    assert!(relaxed.unrepaired[0].reason.contains("room"), "{}", relaxed.unrepaired[0].reason);
+    assert_eq!(relaxed.route, tiny, "an unrepairable corner is left as it was");
+}
+
+#[test]
+fn passing_routes_are_left_alone() {
+    let profile = Profile::demo();
+    let r = route(vec![leg(vec![[0.0, 0.0], [30.0, 0.0], [60.0, 1.0]], "asphalt", 1.0)]);
+    let relaxed = relax_route(&r, &profile, &RelaxSettings::default()).expect("relax");
+    assert!(relaxed.changes.is_empty() && relaxed.unrepaired.is_empty());
+    assert_eq!(relaxed.route, r);
+    assert_eq!(relaxed.max_displacement_m, 0.0);
+}

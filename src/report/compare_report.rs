@@ -1,0 +1,295 @@
+//! Reports of a comparison of alternative routes: the ranking table, the JSON document
+//! (`"format": "skidroute-compare/1"`) and one overlay plot of all alternatives in a common
+//! frame (the first route's), SVG or PNG.
+
+use std::fmt::Write;
+use std::path::Path;
+
+use comfy_table::{presets, Cell, CellAlignment, ContentArrangement, Table};
+use plotters::coord::Shift;
+use plotters::prelude::*;
+use serde::Serialize;
+
+use super::plot::{register_fonts, terrain_color};
+use super::ReportError;
+use crate::assess::Verdict;
+use crate::compare::{common_frame, Comparison, FramedRoute, Ranked};
+use crate::CAUTION;
+
+/// Format tag of the comparison document.
+pub const COMPARE_FORMAT: &str = "skidroute-compare/1";
+
+#[derive(Serialize)]
+struct CompareDocument<'a> {
+    format: &'static str,
+    vehicle: &'a str,
+    demo_profile: bool,
+    ranked_by: &'static str,
+    /// The criterion actually used within a verdict class (time when `ranked_by` was unavailable).
+    ranked_on: &'static str,
+    /// Seed of the drift Monte Carlo, when ranked by drift.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    seed: Option<u64>,
+    caution: &'static str,
+    ranking: &'a [Ranked],
+}
+
+fn ranked_on(c: &Comparison) -> &'static str {
+    if c.fell_back_to_time {
+        "time"
+    } else {
+        c.by.name()
+    }
+}
+
+/// The JSON document of a comparison, pretty-printed, ending in a newline.
+pub fn compare_json(c: &Comparison) -> String {
+    let doc = CompareDocument {
+        format: COMPARE_FORMAT,
+        vehicle: &c.run.vehicle_name,
+        demo_profile: c.run.demo_profile,
+        ranked_by: c.by.name(),
+        ranked_on: ranked_on(c),
+        seed: c.seed,
+        caution: CAUTION,
+        ranking: &c.ranking,
+    };
+    let mut s = serde_json::to_string_pretty(&doc).unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"));
+    s.push('\n');
+    s
+}
+
+fn num(x: f64, decimals: usize) -> Cell {
+    Cell::new(format!("{x:.decimals$}")).set_alignment(CellAlignment::Right)
+}
+
+fn legs_list(legs: &[usize]) -> String {
+    if legs.is_empty() {
+        "-".to_string()
+    } else {
+        legs.iter().map(|l| l.to_string()).collect::<Vec<_>>().join(", ")
+    }
+}
+
+/// The ranking for a terminal, best first, with the caution.
+pub fn compare_table(c: &Comparison) -> String {
+    let mut out = String::new();
+    let profile = if c.run.demo_profile { " (built-in demo profile; pass --vehicle FILE for your own)" } else { "" };
+    let _ = writeln!(out, "vehicle: {}{profile}", c.run.vehicle_name);
+    let _ = writeln!(out, "ranked by verdict, then {}", ranked_on(c));
+    if c.fell_back_to_time {
+        let _ = writeln!(out, "({} is not available for every route; ranked by time instead)", c.by.name());
+    }
+    let mut t = Table::new();
+    t.load_style(presets::UTF8_FULL_CONDENSED).set_content_arrangement(ContentArrangement::Disabled);
+    t.set_header(vec![
+        "rank",
+        "route",
+        "verdict",
+        "length\nm",
+        "time\ns",
+        "energy\nWh",
+        "max dev.\nm",
+        "failing\nlegs",
+        "drift CEP95\nm",
+        "source",
+    ]);
+    for r in &c.ranking {
+        t.add_row(vec![
+            Cell::new(r.rank),
+            Cell::new(&r.route),
+            Cell::new(r.verdict.name().to_uppercase()),
+            num(r.length_m, 0),
+            num(r.time_s, 0),
+            r.energy_wh.map_or_else(|| Cell::new("-"), |e| num(e, 1)),
+            num(r.max_deviation_m, 2),
+            Cell::new(legs_list(&r.failing_legs)),
+            r.drift_cep95_m.map_or_else(|| Cell::new("-"), |d| num(d, 2)),
+            Cell::new(&r.source),
+        ]);
+    }
+    let _ = writeln!(out, "{t}");
+    for r in &c.ranking {
+        if let Some(cr) = c.run.routes.get(r.run_index) {
+            for l in cr.report.legs.iter().filter(|l| l.verdict == Verdict::Fail) {
+                for why in &l.reasons {
+                    let _ = writeln!(out, "  {} leg {}: {why}", r.route, l.index);
+                }
+            }
+        }
+    }
+    match c.ranking.first() {
+        Some(best) if best.verdict != Verdict::Fail => {
+            let _ = writeln!(out, "best: '{}' ({})", best.route, best.verdict.name());
+        }
+        _ => {
+            let _ = writeln!(out, "no alternative passes");
+        }
+    }
+    let _ = writeln!(out, "\ncaution: {CAUTION}");
+    out
+}
+
+const WIDTH_PX: u32 = 1400;
+const HEIGHT_PX: u32 = 1000;
+const LEGEND_WIDTH_PX: u32 = 380;
+const FAIL_RED: RGBColor = RGBColor(220, 30, 30);
+/// Colours of the alternatives' predicted paths, by rank.
+const PATH_COLORS: [RGBColor; 6] = [
+    RGBColor(0, 0, 0),
+    RGBColor(200, 30, 160),
+    RGBColor(20, 110, 200),
+    RGBColor(230, 120, 0),
+    RGBColor(0, 140, 110),
+    RGBColor(120, 60, 20),
+];
+
+/// The overlay plot as an SVG document string.
+pub fn compare_plot_svg(c: &Comparison) -> Result<String, String> {
+    register_fonts();
+    let framed = common_frame(&c.run.routes).map_err(|e| e.to_string())?;
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (WIDTH_PX, HEIGHT_PX)).into_drawing_area();
+        draw_overlay(&root, c, &framed).map_err(|e| e.to_string())?;
+        root.present().map_err(|e| e.to_string())?;
+    }
+    Ok(svg)
+}
+
+/// Writes the overlay plot of all alternatives (`.svg` or `.png` by extension).
+pub fn write_compare_plot(c: &Comparison, path: &Path) -> Result<(), ReportError> {
+    let fail = |what: String| ReportError::Output { file: path.to_path_buf(), what };
+    let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
+    match ext.as_str() {
+        "svg" => {
+            let svg = compare_plot_svg(c).map_err(fail)?;
+            super::write_atomic(path, svg.as_bytes())
+        }
+        "png" => {
+            register_fonts();
+            let framed = common_frame(&c.run.routes).map_err(|e| fail(e.to_string()))?;
+            super::write_atomic_with(path, |tmp| {
+                let root = BitMapBackend::new(tmp, (WIDTH_PX, HEIGHT_PX)).into_drawing_area();
+                draw_overlay(&root, c, &framed).map_err(|e| std::io::Error::other(e.to_string()))?;
+                root.present().map_err(|e| std::io::Error::other(e.to_string()))
+            })
+        }
+        _ => Err(fail(format!("unknown plot format '.{ext}': expected .svg or .png"))),
+    }
+}
+
+type DrawResult<T> = Result<T, Box<dyn std::error::Error>>;
+
+fn draw_overlay<DB: DrawingBackend>(
+    root: &DrawingArea<DB, Shift>,
+    c: &Comparison,
+    framed: &[FramedRoute],
+) -> DrawResult<()>
+where
+    DB::ErrorType: 'static,
+{
+    root.fill(&WHITE)?;
+    let title = format!("{} alternatives, ranked by verdict then {}", c.ranking.len(), ranked_on(c));
+    let body = root.titled(&title, ("sans-serif", 26))?;
+    let (w, _) = body.dim_in_pixel();
+    let (map, legend) = body.split_horizontally(w.saturating_sub(LEGEND_WIDTH_PX));
+    let (mw, mh) = map.dim_in_pixel();
+    let all = framed.iter().flat_map(|f| f.plan_legs.iter().flatten().chain(f.predicted.iter()));
+    let (mut x0, mut x1, mut y0, mut y1) = (f64::INFINITY, f64::NEG_INFINITY, f64::INFINITY, f64::NEG_INFINITY);
+    for p in all {
+        x0 = x0.min(p[0]);
+        x1 = x1.max(p[0]);
+        y0 = y0.min(p[1]);
+        y1 = y1.max(p[1]);
+    }
+    if !x0.is_finite() {
+        (x0, x1, y0, y1) = (-1.0, 1.0, -1.0, 1.0);
+    }
+    // Equal metres per pixel on both axes, 6 % padding.
+    let (pw, ph) = (f64::from(mw.saturating_sub(110).max(10)), f64::from(mh.saturating_sub(80).max(10)));
+    let m_per_px = ((x1 - x0).max(1.0) / pw).max((y1 - y0).max(1.0) / ph) * 1.06;
+    let (cx, cy) = (0.5 * (x0 + x1), 0.5 * (y0 + y1));
+    let (hw, hh) = (0.5 * m_per_px * pw, 0.5 * m_per_px * ph);
+    let mut chart = ChartBuilder::on(&map)
+        .margin(12)
+        .x_label_area_size(45)
+        .y_label_area_size(70)
+        .build_cartesian_2d(cx - hw..cx + hw, cy - hh..cy + hh)?;
+    let frame = if c.run.routes.first().is_some_and(|r| r.route.origin.is_some()) {
+        "of the first route's start"
+    } else {
+        "in the map frame"
+    };
+    chart
+        .configure_mesh()
+        .x_desc(format!("east {frame} (m)"))
+        .y_desc(format!("north {frame} (m)"))
+        .label_style(("sans-serif", 16))
+        .axis_desc_style(("sans-serif", 17))
+        .light_line_style(RGBColor(235, 235, 235))
+        .bold_line_style(RGBColor(215, 215, 215))
+        .draw()?;
+    let pts = |v: &[[f64; 2]]| v.iter().map(|p| (p[0], p[1])).collect::<Vec<_>>();
+    for r in &c.ranking {
+        let (Some(f), Some(cr)) = (framed.get(r.run_index), c.run.routes.get(r.run_index)) else { continue };
+        for (leg, l) in f.plan_legs.iter().zip(&cr.report.legs) {
+            if l.verdict == Verdict::Fail {
+                chart.draw_series(LineSeries::new(pts(leg), FAIL_RED.mix(0.4).stroke_width(16)))?;
+            }
+        }
+        for (leg, l) in f.plan_legs.iter().zip(&cr.report.legs) {
+            chart.draw_series(LineSeries::new(pts(leg), terrain_color(&l.terrain).stroke_width(6)))?;
+        }
+    }
+    for r in c.ranking.iter().rev() {
+        let Some(f) = framed.get(r.run_index) else { continue };
+        let color = PATH_COLORS[(r.rank - 1) % PATH_COLORS.len()];
+        chart.draw_series(LineSeries::new(pts(&f.predicted), color.stroke_width(2)))?;
+        if let Some(end) = f.predicted.last() {
+            chart.draw_series(std::iter::once(Text::new(
+                format!("{}", r.rank),
+                (end[0], end[1]),
+                ("sans-serif", 20).into_font().color(&color),
+            )))?;
+        }
+    }
+    draw_legend(&legend, c)?;
+    Ok(())
+}
+
+fn draw_legend<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, c: &Comparison) -> DrawResult<()>
+where
+    DB::ErrorType: 'static,
+{
+    let (x0, mut y) = (12i32, 30i32);
+    let font = ("sans-serif", 17).into_font();
+    area.draw(&Text::new("predicted path, by rank", (x0, y - 10), ("sans-serif", 18).into_font()))?;
+    y += 22;
+    for r in c.ranking.iter().take(12) {
+        let color = PATH_COLORS[(r.rank - 1) % PATH_COLORS.len()];
+        area.draw(&PathElement::new(vec![(x0, y), (x0 + 30, y)], color.stroke_width(3)))?;
+        let text = format!("{}. {} - {}", r.rank, r.route, r.verdict.name().to_uppercase());
+        area.draw(&Text::new(text, (x0 + 40, y - 9), font.clone()))?;
+        y += 28;
+    }
+    y += 16;
+    area.draw(&Text::new("plan, by terrain", (x0, y - 10), ("sans-serif", 18).into_font()))?;
+    y += 22;
+    let mut seen: Vec<&str> = Vec::new();
+    for cr in &c.run.routes {
+        for l in &cr.report.legs {
+            if !seen.contains(&l.terrain.as_str()) {
+                seen.push(&l.terrain);
+            }
+        }
+    }
+    for t in seen.iter().take(12) {
+        area.draw(&PathElement::new(vec![(x0, y), (x0 + 30, y)], terrain_color(t).stroke_width(6)))?;
+        area.draw(&Text::new(t.to_string(), (x0 + 40, y - 9), font.clone()))?;
+        y += 28;
+    }
+    area.draw(&PathElement::new(vec![(x0, y), (x0 + 30, y)], FAIL_RED.mix(0.4).stroke_width(14)))?;
+    area.draw(&Text::new("failing leg", (x0 + 40, y - 9), font.clone()))?;
+    Ok(())
+}
