@@ -10,7 +10,7 @@ use crate::drift::{run_drift, DriftSettings};
 use crate::limits::Limits;
 use crate::progress::Progress;
 use crate::rollout::{roll_out_within, step_bound, RouteDrive, Trace};
-use crate::route::{check_terrains, read_routes_with, too_many_total_points, Route, RouteError};
+use crate::route::{check_terrains, read_routes_with, Route, RouteError};
 use crate::vehicle::Profile;
 use crate::Error;
 
@@ -69,7 +69,11 @@ pub fn check_run_limits(routes: &[Route], profile: &Profile, limits: &Limits) ->
     for route in routes {
         total_points = total_points.saturating_add(route.legs.iter().map(|l| l.points.len()).sum::<usize>());
         if total_points > limits.max_total_points {
-            let what = format!("(with the files before it) {}", too_many_total_points(total_points, limits));
+            let what = format!(
+                "brings the run to {total_points} plan points, more than the limit of {} over all files (raise it with \
+                 --max-total-points or SKIDROUTE_MAX_TOTAL_POINTS)",
+                limits.max_total_points
+            );
             return Err(RouteError::File { file: route.source.clone(), what });
         }
         check_step_bound(route, profile, limits)?;

@@ -439,3 +439,21 @@ fn a_route_per_row_is_grouped_without_quadratic_cost() {
     let message = out.expect_err("one-point legs").to_string();
     assert!(message.starts_with("groups.csv: line 2: leg has 1 point"), "{message}");
 }
+
+#[test]
+fn the_total_points_limit_counts_over_all_files() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let paths: Vec<_> = ["a.csv", "b.csv"]
+        .iter()
+        .map(|name| {
+            let path = dir.path().join(name);
+            let points: Vec<[f64; 2]> = (0..6).map(|i| [i as f64, 0.0]).collect();
+            std::fs::write(&path, csv_text(&[(points, "asphalt", 1.0)])).expect("write");
+            path
+        })
+        .collect();
+    let limits = Limits { max_total_points: 11, ..test_limits() };
+    let message = load_routes_with(&paths, &Profile::demo(), &limits).expect_err("12 points").to_string();
+    assert!(message.starts_with(&format!("{}: brings the run to 12 plan points", paths[1].display())), "{message}");
+    assert!(load_routes_with(&paths, &Profile::demo(), &Limits { max_total_points: 12, ..limits }).is_ok());
+}
