@@ -292,8 +292,19 @@ impl PlanPath {
                 return [a[0] + u * d[0], a[1] + u * d[1]];
             }
         }
-        if to_m >= total && dist(p, self.point_at(total)) < lookahead_m {
-            return self.point_at(total);
+        if to_m >= total {
+            // Near the end the plan is extended straight beyond its last point, so the goal
+            // stays a lookahead away and the vehicle does not swerve onto the end point.
+            let (end, d) = (self.point_at(total), self.direction_at(total));
+            let (fx, fy) = (end[0] - p[0], end[1] - p[1]);
+            let fd = fx * d[0] + fy * d[1];
+            let disc = fd * fd - (fx * fx + fy * fy - l2);
+            if disc >= 0.0 {
+                let u = -fd + disc.sqrt();
+                if u >= 0.0 {
+                    return [end[0] + u * d[0], end[1] + u * d[1]];
+                }
+            }
         }
         self.point_at((from_m + lookahead_m).min(total))
     }
@@ -430,8 +441,10 @@ mod tests {
         assert!(g[0] > 2.0 && g[1] == 0.0);
         let far = plan.pursuit_goal([2.0, 5.0], 2.0, 1.5, 10.0);
         assert_relative_eq!(far[0], 3.5, epsilon = 1e-12);
-        let end = plan.pursuit_goal([19.5, 0.0], 19.5, 1.5, 10.0);
-        assert_eq!(end, [20.0, 0.0]);
+        // Near the end the goal lies on the straight extension, a lookahead away.
+        let end = plan.pursuit_goal([19.5, 0.2], 19.5, 1.5, 10.0);
+        assert_relative_eq!(dist(end, [19.5, 0.2]), 1.5, epsilon = 1e-12);
+        assert!(end[0] > 20.0 && end[1] == 0.0, "{end:?}");
     }
 
     #[test]
