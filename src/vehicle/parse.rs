@@ -308,11 +308,21 @@ fn parse_follower(s: &Section) -> Result<FollowerSpec, VehicleError> {
     };
     Ok(FollowerSpec {
         lookahead_m: s.number("lookahead_m", Rule::Positive)?,
-        control_rate_hz: s.number("control_rate_hz", Rule::Positive)?,
+        control_rate_hz: control_rate_hz(s)?,
         inverse_model,
         corridor_m: s.number("corridor_m", Rule::Positive)?,
         curvature_scale_m: s.number("curvature_scale_m", Rule::Positive)?,
     })
+}
+
+/// Controllers of these vehicles run at a few to a few hundred hertz; outside 0.1 to 10 000 Hz
+/// the value is a unit mistake, and the simulation step (its inverse) would be meaningless.
+fn control_rate_hz(s: &Section) -> Result<f64, VehicleError> {
+    let hz = s.number("control_rate_hz", Rule::Positive)?;
+    if !(0.1..=10_000.0).contains(&hz) {
+        return Err(s.error("control_rate_hz", format!("must be between 0.1 and 10000 Hz, got {hz}")));
+    }
+    Ok(hz)
 }
 
 fn valid_terrain_name(name: &str) -> bool {
@@ -775,5 +785,14 @@ lateral_resistance_max = 0.35
         assert_eq!(edit_distance("kitten", "sitting"), 3);
         assert_eq!(edit_distance("alpah", "alpha"), 1);
         assert_eq!(edit_distance("", "abc"), 3);
+    }
+
+    #[test]
+    fn rejects_an_implausible_control_rate() {
+        for bad in ["1e-300", "0.01", "1e6"] {
+            let text = BASE.replace("control_rate_hz = 20.0", &format!("control_rate_hz = {bad}"));
+            let e = parse_profile(Path::new("p.toml"), &text).expect_err(bad).to_string();
+            assert!(e.starts_with("p.toml: follower.control_rate_hz: must be between 0.1 and 10000 Hz"), "{e}");
+        }
     }
 }
