@@ -278,7 +278,9 @@ where
     chart.draw_series(std::iter::once(
         EmptyElement::at((end[0], end[1])) + Rectangle::new([(-6, -6), (6, 6)], BLACK.filled()),
     ))?;
-    for leg in cr.report.legs.iter().filter(|l| l.verdict != Verdict::Pass) {
+    // Labels alternate above and below their marker, so two legs failing at one shared corner
+    // stay readable.
+    for (k, leg) in cr.report.legs.iter().filter(|l| l.verdict != Verdict::Pass).enumerate() {
         let color = if leg.verdict == Verdict::Fail { FAIL_RED } else { CAUTION_AMBER };
         let p = plan.point_at(leg.tightest_turn_at_m);
         let label = format!("leg {} {}", leg.index, leg.verdict.name().to_uppercase());
@@ -290,7 +292,11 @@ where
             (p[0], p[1]),
             ("sans-serif", 18).into_font().color(&color).pos(plotters::style::text_anchor::Pos::new(
                 plotters::style::text_anchor::HPos::Left,
-                plotters::style::text_anchor::VPos::Bottom,
+                if k % 2 == 0 {
+                    plotters::style::text_anchor::VPos::Bottom
+                } else {
+                    plotters::style::text_anchor::VPos::Top
+                },
             )),
         )))?;
     }
