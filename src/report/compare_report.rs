@@ -179,7 +179,7 @@ pub fn write_compare_plot(c: &Comparison, path: &Path) -> Result<(), ReportError
     }
 }
 
-type DrawResult<T> = Result<T, Box<dyn std::error::Error>>;
+use super::plot::DrawResult;
 
 fn draw_overlay<DB: DrawingBackend>(
     root: &DrawingArea<DB, Shift>,

@@ -19,7 +19,7 @@ const ELLIPSE_RED: RGBColor = RGBColor(210, 30, 30);
 const CEP_BLUE: RGBColor = RGBColor(30, 80, 200);
 const LOSS_ORANGE: RGBColor = RGBColor(235, 120, 0);
 
-type DrawResult<T> = Result<T, Box<dyn std::error::Error>>;
+use super::plot::DrawResult;
 
 /// Writes the plot of a drift run; the format follows the extension (`.svg` or `.png`).
 pub fn write_drift_plot(route: &Route, report: &DriftReport, demo: bool, path: &Path) -> Result<(), ReportError> {
@@ -225,19 +225,7 @@ where
     let cep50 = pts(|s| s.cep50_m);
     let x_max = r.legs.last().map_or(1.0, |l| l.end_along_route_m).max(1.0);
     let y_max = cep95.iter().map(|p| p.1).fold(0.0, f64::max).max(0.01) * 1.15;
-    let mut chart = ChartBuilder::on(area)
-        .margin(12)
-        .x_label_area_size(45)
-        .y_label_area_size(70)
-        .build_cartesian_2d(0.0..x_max, 0.0..y_max)?;
-    chart
-        .configure_mesh()
-        .x_desc("distance along the route (m)")
-        .y_desc("radial error (m)")
-        .label_style(("sans-serif", 16))
-        .axis_desc_style(("sans-serif", 17))
-        .light_line_style(RGBColor(240, 240, 240))
-        .draw()?;
+    let mut chart = super::plot::distance_chart(area, x_max, 0.0..y_max, "radial error (m)")?;
     chart
         .draw_series(LineSeries::new(cep95.clone(), ELLIPSE_RED.stroke_width(2)))?
         .label("CEP95 at leg ends")
@@ -248,13 +236,7 @@ where
         .label("CEP50 at leg ends")
         .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 24, y)], CEP_BLUE.stroke_width(2)));
     chart.draw_series(cep50.iter().map(|&p| Circle::new(p, 4, CEP_BLUE.filled())))?;
-    chart
-        .configure_series_labels()
-        .position(SeriesLabelPosition::UpperLeft)
-        .label_font(("sans-serif", 16))
-        .background_style(WHITE.mix(0.85))
-        .border_style(RGBColor(160, 160, 160))
-        .draw()?;
+    super::plot::draw_series_labels(&mut chart, 16)?;
     Ok(())
 }
 

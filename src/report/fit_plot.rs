@@ -25,7 +25,7 @@ const BINS: usize = 16;
 /// Fewest windows for a bin's quartiles to be drawn.
 const MIN_PER_BIN: usize = 5;
 
-type DrawResult<T> = Result<T, Box<dyn std::error::Error>>;
+use super::plot::DrawResult;
 
 /// Writes the fit figure; the format follows the extension (`.svg` or `.png`).
 pub fn write_fit_plot(run: &FitRun, path: &Path) -> Result<(), ReportError> {
@@ -164,13 +164,7 @@ where
             .label("ideal drive (1:1)")
             .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], BLACK.stroke_width(1)));
     }
-    chart
-        .configure_series_labels()
-        .position(SeriesLabelPosition::UpperLeft)
-        .label_font(("sans-serif", 13))
-        .background_style(WHITE.mix(0.85))
-        .border_style(RGBColor(160, 160, 160))
-        .draw()?;
+    super::plot::draw_series_labels(&mut chart, 13)?;
     Ok(())
 }
 
@@ -223,13 +217,7 @@ where
         .draw_series(ends.iter().map(|e| Cross::new((e.predicted[0], e.predicted[1]), 3, predicted.stroke_width(2))))?
         .label("predicted end")
         .legend(move |(x, y)| Cross::new((x + 10, y), 4, predicted.stroke_width(2)));
-    chart
-        .configure_series_labels()
-        .position(SeriesLabelPosition::UpperLeft)
-        .label_font(("sans-serif", 13))
-        .background_style(WHITE.mix(0.85))
-        .border_style(RGBColor(160, 160, 160))
-        .draw()?;
+    super::plot::draw_series_labels(&mut chart, 13)?;
     Ok(())
 }
 
@@ -277,12 +265,6 @@ where
             .label(format!("trained at {h} s"))
             .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], color.stroke_width(2)));
     }
-    chart
-        .configure_series_labels()
-        .position(SeriesLabelPosition::UpperLeft)
-        .label_font(("sans-serif", 13))
-        .background_style(WHITE.mix(0.85))
-        .border_style(RGBColor(160, 160, 160))
-        .draw()?;
+    super::plot::draw_series_labels(&mut chart, 13)?;
     Ok(())
 }

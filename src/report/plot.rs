@@ -8,6 +8,7 @@
 use std::path::Path;
 use std::sync::Once;
 
+use plotters::coord::types::RangedCoordf64;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 use plotters::style::FontStyle;
@@ -104,7 +105,56 @@ where
     Ok(())
 }
 
-type DrawResult<T> = Result<T, Box<dyn std::error::Error>>;
+/// Result of drawing code; plotters' errors are boxed.
+pub(crate) type DrawResult<T> = Result<T, Box<dyn std::error::Error>>;
+
+/// A chart of some quantity against distance along the route, with its mesh drawn.
+pub(crate) type DistanceChart<'a, DB> = ChartContext<'a, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>;
+
+/// Builds a [`DistanceChart`] over `[0, x_max_m]` x `y_range` with the reports' common style.
+pub(crate) fn distance_chart<'a, DB>(
+    area: &'a DrawingArea<DB, Shift>,
+    x_max_m: f64,
+    y_range: std::ops::Range<f64>,
+    y_desc: &str,
+) -> DrawResult<DistanceChart<'a, DB>>
+where
+    DB: DrawingBackend,
+    DB::ErrorType: 'static,
+{
+    let mut chart = ChartBuilder::on(area)
+        .margin(12)
+        .x_label_area_size(45)
+        .y_label_area_size(80)
+        .build_cartesian_2d(0.0..x_max_m, y_range)?;
+    chart
+        .configure_mesh()
+        .x_desc("distance along the route (m)")
+        .y_desc(y_desc)
+        .label_style(("sans-serif", 16))
+        .axis_desc_style(("sans-serif", 17))
+        .light_line_style(RGBColor(240, 240, 240))
+        .draw()?;
+    Ok(chart)
+}
+
+/// Draws a chart's series labels in the upper left: the legend box every chart of the
+/// reports uses.
+pub(crate) fn draw_series_labels<'a, DB, CT>(chart: &mut ChartContext<'a, DB, CT>, font_px: u32) -> DrawResult<()>
+where
+    DB: DrawingBackend + 'a,
+    DB::ErrorType: 'static,
+    CT: plotters::coord::CoordTranslate,
+{
+    chart
+        .configure_series_labels()
+        .position(SeriesLabelPosition::UpperLeft)
+        .label_font(("sans-serif", font_px))
+        .background_style(WHITE.mix(0.85))
+        .border_style(RGBColor(160, 160, 160))
+        .draw()?;
+    Ok(())
+}
 
 fn draw_route<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, cr: &CheckedRoute, run: &CheckRun) -> DrawResult<()>
 where
@@ -228,7 +278,9 @@ where
     chart.draw_series(std::iter::once(
         EmptyElement::at((end[0], end[1])) + Rectangle::new([(-6, -6), (6, 6)], BLACK.filled()),
     ))?;
-    for leg in cr.report.legs.iter().filter(|l| l.verdict != Verdict::Pass) {
+    // Labels alternate above and below their marker, so two legs failing at one shared corner
+    // stay readable.
+    for (k, leg) in cr.report.legs.iter().filter(|l| l.verdict != Verdict::Pass).enumerate() {
         let color = if leg.verdict == Verdict::Fail { FAIL_RED } else { CAUTION_AMBER };
         let p = plan.point_at(leg.tightest_turn_at_m);
         let label = format!("leg {} {}", leg.index, leg.verdict.name().to_uppercase());
@@ -240,7 +292,11 @@ where
             (p[0], p[1]),
             ("sans-serif", 18).into_font().color(&color).pos(plotters::style::text_anchor::Pos::new(
                 plotters::style::text_anchor::HPos::Left,
-                plotters::style::text_anchor::VPos::Bottom,
+                if k % 2 == 0 {
+                    plotters::style::text_anchor::VPos::Bottom
+                } else {
+                    plotters::style::text_anchor::VPos::Top
+                },
             )),
         )))?;
     }
@@ -340,23 +396,11 @@ where
     let lim_max = limits.iter().map(|l| l.2).fold(0.0, f64::max);
     let y_max = (peak.max(lim_max) * 1.12).max(1.0);
     let y_min = (low * 1.12).min(0.0);
-    let mut chart = ChartBuilder::on(area)
-        .margin(12)
-        .x_label_area_size(45)
-        .y_label_area_size(80)
-        .build_cartesian_2d(0.0..total_m, y_min..y_max)?;
     let (y_desc, line_label, limit_label) = match panel {
         EffortPanel::Thrust => ("outer-track thrust (N)", "outer-track thrust", "limit: traction or rating"),
         EffortPanel::Power => ("drawn power (W)", "drawn power", "power rating"),
     };
-    chart
-        .configure_mesh()
-        .x_desc("distance along the route (m)")
-        .y_desc(y_desc)
-        .label_style(("sans-serif", 15))
-        .axis_desc_style(("sans-serif", 16))
-        .light_line_style(RGBColor(240, 240, 240))
-        .draw()?;
+    let mut chart = distance_chart(area, total_m, y_min..y_max, y_desc)?;
     let limit_pts = limits.iter().flat_map(|&(a, b, lim)| [(a, lim), (b, lim)]);
     chart
         .draw_series(DashedLineSeries::new(limit_pts, 10, 6, FAIL_RED.stroke_width(2)))?
@@ -367,13 +411,7 @@ where
         .draw_series(LineSeries::new(pts, RGBColor(30, 60, 160).stroke_width(2)))?
         .label(line_label)
         .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 24, y)], RGBColor(30, 60, 160).stroke_width(2)));
-    chart
-        .configure_series_labels()
-        .position(SeriesLabelPosition::UpperLeft)
-        .label_font(("sans-serif", 15))
-        .background_style(WHITE.mix(0.85))
-        .border_style(RGBColor(160, 160, 160))
-        .draw()?;
+    draw_series_labels(&mut chart, 15)?;
     Ok(())
 }
 
@@ -384,19 +422,7 @@ where
     let total_m = cr.drive.plan.length_m().max(1.0);
     let max_corr = cr.report.legs.iter().map(|l| l.corridor_m).fold(0.0, f64::max);
     let y_max = (cr.report.max_deviation_m.max(max_corr) * 1.15).max(0.1);
-    let mut chart = ChartBuilder::on(area)
-        .margin(12)
-        .x_label_area_size(45)
-        .y_label_area_size(70)
-        .build_cartesian_2d(0.0..total_m, 0.0..y_max)?;
-    chart
-        .configure_mesh()
-        .x_desc("distance along the route (m)")
-        .y_desc("deviation (m)")
-        .label_style(("sans-serif", 16))
-        .axis_desc_style(("sans-serif", 17))
-        .light_line_style(RGBColor(240, 240, 240))
-        .draw()?;
+    let mut chart = distance_chart(area, total_m, 0.0..y_max, "deviation (m)")?;
     for leg in &cr.report.legs {
         let (a, b) = cr.drive.plan.leg_bounds_m(leg.index - 1);
         chart.draw_series(std::iter::once(PathElement::new(
@@ -419,13 +445,7 @@ where
         .draw_series(LineSeries::new(dev, BLACK.stroke_width(2)))?
         .label("predicted deviation")
         .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 24, y)], BLACK.stroke_width(2)));
-    chart
-        .configure_series_labels()
-        .position(SeriesLabelPosition::UpperLeft)
-        .label_font(("sans-serif", 16))
-        .background_style(WHITE.mix(0.85))
-        .border_style(RGBColor(160, 160, 160))
-        .draw()?;
+    draw_series_labels(&mut chart, 16)?;
     Ok(())
 }
 
