@@ -10,7 +10,7 @@ use plotters::coord::Shift;
 use plotters::prelude::*;
 use serde::Serialize;
 
-use super::plot::{register_fonts, terrain_color};
+use super::plot::terrain_color;
 use super::ReportError;
 use crate::assess::Verdict;
 use crate::compare::{common_frame, Comparison, FramedRoute, Ranked};
@@ -144,39 +144,37 @@ const PATH_COLORS: [RGBColor; 6] = [
     RGBColor(120, 60, 20),
 ];
 
+/// The overlay plot of all alternatives, in one frame.
+struct OverlayFigure<'a> {
+    c: &'a Comparison,
+    framed: Vec<FramedRoute>,
+}
+
+impl super::plot::Figure for OverlayFigure<'_> {
+    fn size_px(&self) -> (u32, u32) {
+        (WIDTH_PX, HEIGHT_PX)
+    }
+    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> DrawResult<()>
+    where
+        DB::ErrorType: 'static,
+    {
+        draw_overlay(root, self.c, &self.framed)
+    }
+}
+
+fn overlay_figure(c: &Comparison) -> Result<OverlayFigure<'_>, String> {
+    Ok(OverlayFigure { c, framed: common_frame(&c.run.routes).map_err(|e| e.to_string())? })
+}
+
 /// The overlay plot as an SVG document string.
 pub fn compare_plot_svg(c: &Comparison) -> Result<String, String> {
-    register_fonts();
-    let framed = common_frame(&c.run.routes).map_err(|e| e.to_string())?;
-    let mut svg = String::new();
-    {
-        let root = SVGBackend::with_string(&mut svg, (WIDTH_PX, HEIGHT_PX)).into_drawing_area();
-        draw_overlay(&root, c, &framed).map_err(|e| e.to_string())?;
-        root.present().map_err(|e| e.to_string())?;
-    }
-    Ok(svg)
+    super::plot::svg_string(&overlay_figure(c)?)
 }
 
 /// Writes the overlay plot of all alternatives (`.svg` or `.png` by extension).
 pub fn write_compare_plot(c: &Comparison, path: &Path) -> Result<(), ReportError> {
-    let fail = |what: String| ReportError::Output { file: path.to_path_buf(), what };
-    let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
-    match ext.as_str() {
-        "svg" => {
-            let svg = compare_plot_svg(c).map_err(fail)?;
-            super::write_atomic(path, svg.as_bytes())
-        }
-        "png" => {
-            register_fonts();
-            let framed = common_frame(&c.run.routes).map_err(|e| fail(e.to_string()))?;
-            super::write_atomic_with(path, |tmp| {
-                let root = BitMapBackend::new(tmp, (WIDTH_PX, HEIGHT_PX)).into_drawing_area();
-                draw_overlay(&root, c, &framed).map_err(|e| std::io::Error::other(e.to_string()))?;
-                root.present().map_err(|e| std::io::Error::other(e.to_string()))
-            })
-        }
-        _ => Err(fail(format!("unknown plot format '.{ext}': expected .svg or .png"))),
-    }
+    let fig = overlay_figure(c).map_err(|what| ReportError::Output { file: path.to_path_buf(), what })?;
+    super::plot::write_figure(&fig, path)
 }
 
 use super::plot::DrawResult;

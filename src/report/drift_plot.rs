@@ -8,7 +8,7 @@ use std::path::Path;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
-use super::plot::{register_fonts, terrain_color};
+use super::plot::terrain_color;
 use super::ReportError;
 use crate::drift::DriftReport;
 use crate::route::{PlanPath, Route};
@@ -21,29 +21,28 @@ const LOSS_ORANGE: RGBColor = RGBColor(235, 120, 0);
 
 use super::plot::DrawResult;
 
+/// The drift plot of one route.
+struct DriftFigure<'a> {
+    plan: PlanPath,
+    report: &'a DriftReport,
+    demo: bool,
+}
+
+impl super::plot::Figure for DriftFigure<'_> {
+    fn size_px(&self) -> (u32, u32) {
+        SIZE_PX
+    }
+    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> DrawResult<()>
+    where
+        DB::ErrorType: 'static,
+    {
+        draw(root, &self.plan, self.report, self.demo)
+    }
+}
+
 /// Writes the plot of a drift run; the format follows the extension (`.svg` or `.png`).
 pub fn write_drift_plot(route: &Route, report: &DriftReport, demo: bool, path: &Path) -> Result<(), ReportError> {
-    register_fonts();
-    let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
-    let fail = |what: String| ReportError::Output { file: path.to_path_buf(), what };
-    let plan = PlanPath::new(route);
-    match ext.as_str() {
-        "svg" => {
-            let mut svg = String::new();
-            {
-                let root = SVGBackend::with_string(&mut svg, SIZE_PX).into_drawing_area();
-                draw(&root, &plan, report, demo).map_err(|e| fail(e.to_string()))?;
-                root.present().map_err(|e| fail(e.to_string()))?;
-            }
-            super::write_atomic(path, svg.as_bytes())
-        }
-        "png" => super::write_atomic_with(path, |tmp| {
-            let root = BitMapBackend::new(tmp, SIZE_PX).into_drawing_area();
-            draw(&root, &plan, report, demo).map_err(|e| std::io::Error::other(e.to_string()))?;
-            root.present().map_err(|e| std::io::Error::other(e.to_string()))
-        }),
-        _ => Err(fail(format!("unknown plot format '.{ext}': expected .svg or .png"))),
-    }
+    super::plot::write_figure(&DriftFigure { plan: PlanPath::new(route), report, demo }, path)
 }
 
 fn draw<DB: DrawingBackend>(
@@ -72,24 +71,6 @@ where
     draw_legend(&legend, r)?;
     draw_cep(&bottom, r)?;
     Ok(())
-}
-
-/// Axis ranges with equal metres per pixel on both axes, padded by 6 %.
-fn equal_ranges(points: impl Iterator<Item = [f64; 2]>, w_px: f64, h_px: f64) -> ((f64, f64), (f64, f64)) {
-    let (mut x0, mut x1, mut y0, mut y1) = (f64::INFINITY, f64::NEG_INFINITY, f64::INFINITY, f64::NEG_INFINITY);
-    for [x, y] in points.filter(|p| p[0].is_finite() && p[1].is_finite()) {
-        x0 = x0.min(x);
-        x1 = x1.max(x);
-        y0 = y0.min(y);
-        y1 = y1.max(y);
-    }
-    if !x0.is_finite() {
-        return ((-1.0, 1.0), (-1.0, 1.0));
-    }
-    let (cx, cy) = (0.5 * (x0 + x1), 0.5 * (y0 + y1));
-    let m_per_px = ((x1 - x0).max(1.0) / w_px).max((y1 - y0).max(1.0) / h_px) * 1.06;
-    let (hw, hh) = (0.5 * m_per_px * w_px, 0.5 * m_per_px * h_px);
-    ((cx - hw, cx + hw), (cy - hh, cy + hh))
 }
 
 /// One leg end on the map: leg index, 95 % ellipse outline about the mean true position, the
@@ -133,7 +114,7 @@ where
         .chain(r.sample_paths.iter().flatten().copied())
         .chain(ellipses.iter().flat_map(|e| e.1.iter().copied()))
         .chain(ellipses.iter().flat_map(|e| circle(e.2, e.3).into_iter().map(|(x, y)| [x, y])));
-    let ((x0, x1), (y0, y1)) = equal_ranges(extent, plot_w, plot_h);
+    let ((x0, x1), (y0, y1)) = super::plot::equal_ranges(extent, plot_w, plot_h);
     let mut chart = ChartBuilder::on(area)
         .margin(margin)
         .x_label_area_size(x_lab)

@@ -13,7 +13,7 @@ use std::path::Path;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
-use super::plot::{register_fonts, terrain_color};
+use super::plot::terrain_color;
 use super::ReportError;
 use crate::fit::stats::Spread;
 use crate::fit::{plotted_end_points, FitRun, TerrainFit, TerrainOutcome, TurnPoint};
@@ -29,28 +29,25 @@ use super::plot::DrawResult;
 
 /// Writes the fit figure; the format follows the extension (`.svg` or `.png`).
 pub fn write_fit_plot(run: &FitRun, path: &Path) -> Result<(), ReportError> {
-    register_fonts();
     let columns: u32 = if run.terrains.iter().any(|t| t.sweep.is_some()) { 3 } else { 2 };
-    let rows = run.terrains.len().max(1) as u32;
-    let size = (PANEL_W_PX * columns, ROW_H_PX * rows);
-    let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
-    let fail = |what: String| ReportError::Output { file: path.to_path_buf(), what };
-    match ext.as_str() {
-        "svg" => {
-            let mut svg = String::new();
-            {
-                let root = SVGBackend::with_string(&mut svg, size).into_drawing_area();
-                draw(&root, run, columns).map_err(|e| fail(e.to_string()))?;
-                root.present().map_err(|e| fail(e.to_string()))?;
-            }
-            super::write_atomic(path, svg.as_bytes())
-        }
-        "png" => super::write_atomic_with(path, |tmp| {
-            let root = BitMapBackend::new(tmp, size).into_drawing_area();
-            draw(&root, run, columns).map_err(|e| std::io::Error::other(e.to_string()))?;
-            root.present().map_err(|e| std::io::Error::other(e.to_string()))
-        }),
-        _ => Err(fail(format!("unknown plot format '.{ext}': expected .svg or .png"))),
+    super::plot::write_figure(&FitFigure { run, columns }, path)
+}
+
+/// The fit figure: a row of panels per terrain.
+struct FitFigure<'a> {
+    run: &'a FitRun,
+    columns: u32,
+}
+
+impl super::plot::Figure for FitFigure<'_> {
+    fn size_px(&self) -> (u32, u32) {
+        (PANEL_W_PX * self.columns, ROW_H_PX * self.run.terrains.len().max(1) as u32)
+    }
+    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> DrawResult<()>
+    where
+        DB::ErrorType: 'static,
+    {
+        draw(root, self.run, self.columns)
     }
 }
 

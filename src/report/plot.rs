@@ -66,30 +66,60 @@ pub fn terrain_color(terrain: &str) -> RGBColor {
 const FAIL_RED: RGBColor = RGBColor(220, 30, 30);
 const CAUTION_AMBER: RGBColor = RGBColor(240, 170, 0);
 
-/// Writes the plot of a run; the format follows the extension (`.svg` or `.png`).
-pub fn write_plot(run: &CheckRun, path: &Path) -> Result<(), ReportError> {
+/// A figure the reports render to SVG or PNG.
+pub(crate) trait Figure {
+    fn size_px(&self) -> (u32, u32);
+    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> DrawResult<()>
+    where
+        DB::ErrorType: 'static;
+}
+
+/// A figure as an SVG document string.
+pub(crate) fn svg_string(fig: &impl Figure) -> Result<String, String> {
     register_fonts();
-    let n = run.routes.len().clamp(1, MAX_ROUTES_PLOTTED) as u32;
-    let size = (WIDTH_PX, ROUTE_HEIGHT_PX * n);
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, fig.size_px()).into_drawing_area();
+        fig.draw(&root).map_err(|e| e.to_string())?;
+        root.present().map_err(|e| e.to_string())?;
+    }
+    Ok(svg)
+}
+
+/// Writes a figure atomically; the format follows the extension (`.svg` or `.png`).
+pub(crate) fn write_figure(fig: &impl Figure, path: &Path) -> Result<(), ReportError> {
+    register_fonts();
     let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
     let fail = |what: String| ReportError::Output { file: path.to_path_buf(), what };
     match ext.as_str() {
-        "svg" => {
-            let mut svg = String::new();
-            {
-                let root = SVGBackend::with_string(&mut svg, size).into_drawing_area();
-                draw_run(&root, run).map_err(fail)?;
-                root.present().map_err(|e| fail(e.to_string()))?;
-            }
-            super::write_atomic(path, svg.as_bytes())
-        }
+        "svg" => super::write_atomic(path, svg_string(fig).map_err(fail)?.as_bytes()),
         "png" => super::write_atomic_with(path, |tmp| {
-            let root = BitMapBackend::new(tmp, size).into_drawing_area();
-            draw_run(&root, run).map_err(std::io::Error::other)?;
+            let root = BitMapBackend::new(tmp, fig.size_px()).into_drawing_area();
+            fig.draw(&root).map_err(|e| std::io::Error::other(e.to_string()))?;
             root.present().map_err(|e| std::io::Error::other(e.to_string()))
         }),
         _ => Err(fail(format!("unknown plot format '.{ext}': expected .svg or .png"))),
     }
+}
+
+/// The check plot of a run.
+struct CheckFigure<'a>(&'a CheckRun);
+
+impl Figure for CheckFigure<'_> {
+    fn size_px(&self) -> (u32, u32) {
+        (WIDTH_PX, ROUTE_HEIGHT_PX * self.0.routes.len().clamp(1, MAX_ROUTES_PLOTTED) as u32)
+    }
+    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> DrawResult<()>
+    where
+        DB::ErrorType: 'static,
+    {
+        Ok(draw_run(root, self.0)?)
+    }
+}
+
+/// Writes the plot of a run; the format follows the extension (`.svg` or `.png`).
+pub fn write_plot(run: &CheckRun, path: &Path) -> Result<(), ReportError> {
+    write_figure(&CheckFigure(run), path)
 }
 
 fn draw_run<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, run: &CheckRun) -> Result<(), String>
@@ -179,10 +209,11 @@ where
     Ok(())
 }
 
-/// Axis ranges with equal metres per pixel on both axes, padded by 6 %.
-fn equal_ranges(points: impl Iterator<Item = (f64, f64)>, w_px: f64, h_px: f64) -> ((f64, f64), (f64, f64)) {
+/// Axis ranges with equal metres per pixel on both axes, padded by 6 %; non-finite points are
+/// ignored.
+pub(crate) fn equal_ranges(points: impl Iterator<Item = [f64; 2]>, w_px: f64, h_px: f64) -> ((f64, f64), (f64, f64)) {
     let (mut x0, mut x1, mut y0, mut y1) = (f64::INFINITY, f64::NEG_INFINITY, f64::INFINITY, f64::NEG_INFINITY);
-    for (x, y) in points {
+    for [x, y] in points.filter(|p| p[0].is_finite() && p[1].is_finite()) {
         x0 = x0.min(x);
         x1 = x1.max(x);
         y0 = y0.min(y);
@@ -205,8 +236,8 @@ where
     let (w, h) = area.dim_in_pixel();
     let plot_w = f64::from(w.saturating_sub(2 * margin + y_lab).max(10));
     let plot_h = f64::from(h.saturating_sub(2 * margin + x_lab).max(10));
-    let plan_pts = cr.drive.plan.points().iter().map(|p| (p[0], p[1]));
-    let trace_pts = cr.trace.steps.iter().map(|s| (s.pose.x_m, s.pose.y_m));
+    let plan_pts = cr.drive.plan.points().iter().copied();
+    let trace_pts = cr.trace.steps.iter().map(|s| [s.pose.x_m, s.pose.y_m]);
     let ((x0, x1), (y0, y1)) = equal_ranges(plan_pts.chain(trace_pts), plot_w, plot_h);
     let mut chart = ChartBuilder::on(area)
         .margin(margin)
@@ -451,13 +482,5 @@ where
 
 /// The plot of a run as an SVG document string, for embedding (the HTML report).
 pub fn plot_svg_string(run: &CheckRun) -> Result<String, String> {
-    register_fonts();
-    let n = run.routes.len().clamp(1, MAX_ROUTES_PLOTTED) as u32;
-    let mut svg = String::new();
-    {
-        let root = SVGBackend::with_string(&mut svg, (WIDTH_PX, ROUTE_HEIGHT_PX * n)).into_drawing_area();
-        draw_run(&root, run)?;
-        root.present().map_err(|e| e.to_string())?;
-    }
-    Ok(svg)
+    svg_string(&CheckFigure(run))
 }
