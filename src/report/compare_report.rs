@@ -192,42 +192,13 @@ where
     let body = root.titled(&title, ("sans-serif", 26))?;
     let (w, _) = body.dim_in_pixel();
     let (map, legend) = body.split_horizontally(w.saturating_sub(LEGEND_WIDTH_PX));
-    let (mw, mh) = map.dim_in_pixel();
-    let all = framed.iter().flat_map(|f| f.plan_legs.iter().flatten().chain(f.predicted.iter()));
-    let (mut x0, mut x1, mut y0, mut y1) = (f64::INFINITY, f64::NEG_INFINITY, f64::INFINITY, f64::NEG_INFINITY);
-    for p in all {
-        x0 = x0.min(p[0]);
-        x1 = x1.max(p[0]);
-        y0 = y0.min(p[1]);
-        y1 = y1.max(p[1]);
-    }
-    if !x0.is_finite() {
-        (x0, x1, y0, y1) = (-1.0, 1.0, -1.0, 1.0);
-    }
-    // Equal metres per pixel on both axes, 6 % padding.
-    let (pw, ph) = (f64::from(mw.saturating_sub(110).max(10)), f64::from(mh.saturating_sub(80).max(10)));
-    let m_per_px = ((x1 - x0).max(1.0) / pw).max((y1 - y0).max(1.0) / ph) * 1.06;
-    let (cx, cy) = (0.5 * (x0 + x1), 0.5 * (y0 + y1));
-    let (hw, hh) = (0.5 * m_per_px * pw, 0.5 * m_per_px * ph);
-    let mut chart = ChartBuilder::on(&map)
-        .margin(12)
-        .x_label_area_size(45)
-        .y_label_area_size(70)
-        .build_cartesian_2d(cx - hw..cx + hw, cy - hh..cy + hh)?;
+    let all = framed.iter().flat_map(|f| f.plan_legs.iter().flatten().chain(f.predicted.iter())).copied();
     let frame = if c.run.routes.first().is_some_and(|r| r.route.origin.is_some()) {
         "of the first route's start"
     } else {
         "in the map frame"
     };
-    chart
-        .configure_mesh()
-        .x_desc(format!("east {frame} (m)"))
-        .y_desc(format!("north {frame} (m)"))
-        .label_style(("sans-serif", 16))
-        .axis_desc_style(("sans-serif", 17))
-        .light_line_style(RGBColor(235, 235, 235))
-        .bold_line_style(RGBColor(215, 215, 215))
-        .draw()?;
+    let mut chart = super::plot::map_chart(&map, all, frame)?;
     let pts = |v: &[[f64; 2]]| v.iter().map(|p| (p[0], p[1])).collect::<Vec<_>>();
     for r in &c.ranking {
         let (Some(f), Some(cr)) = (framed.get(r.run_index), c.run.routes.get(r.run_index)) else { continue };

@@ -102,10 +102,6 @@ fn draw_map<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, plan: &PlanPath, 
 where
     DB::ErrorType: 'static,
 {
-    let (margin, x_lab, y_lab) = (12u32, 45u32, 70u32);
-    let (w, h) = area.dim_in_pixel();
-    let plot_w = f64::from(w.saturating_sub(2 * margin + y_lab).max(10));
-    let plot_h = f64::from(h.saturating_sub(2 * margin + x_lab).max(10));
     let ellipses = ellipse_outlines(r);
     let extent = plan
         .points()
@@ -114,21 +110,7 @@ where
         .chain(r.sample_paths.iter().flatten().copied())
         .chain(ellipses.iter().flat_map(|e| e.1.iter().copied()))
         .chain(ellipses.iter().flat_map(|e| circle(e.2, e.3).into_iter().map(|(x, y)| [x, y])));
-    let ((x0, x1), (y0, y1)) = super::plot::equal_ranges(extent, plot_w, plot_h);
-    let mut chart = ChartBuilder::on(area)
-        .margin(margin)
-        .x_label_area_size(x_lab)
-        .y_label_area_size(y_lab)
-        .build_cartesian_2d(x0..x1, y0..y1)?;
-    chart
-        .configure_mesh()
-        .x_desc("east (m)")
-        .y_desc("north (m)")
-        .label_style(("sans-serif", 16))
-        .axis_desc_style(("sans-serif", 17))
-        .light_line_style(RGBColor(235, 235, 235))
-        .bold_line_style(RGBColor(215, 215, 215))
-        .draw()?;
+    let mut chart = super::plot::map_chart(area, extent, "")?;
     for path in &r.sample_paths {
         chart.draw_series(LineSeries::new(path.iter().map(|p| (p[0], p[1])), RGBColor(90, 90, 90).mix(0.35)))?;
     }

@@ -138,6 +138,40 @@ where
 /// Result of drawing code; plotters' errors are boxed.
 pub(crate) type DrawResult<T> = Result<T, Box<dyn std::error::Error>>;
 
+/// A top view in local metres with equal scales on both axes, fitted around `points`, with
+/// its mesh drawn; `frame` completes the axis titles ("east {frame} (m)").
+pub(crate) fn map_chart<'a, DB>(
+    area: &'a DrawingArea<DB, Shift>,
+    points: impl Iterator<Item = [f64; 2]>,
+    frame: &str,
+) -> DrawResult<DistanceChart<'a, DB>>
+where
+    DB: DrawingBackend,
+    DB::ErrorType: 'static,
+{
+    let (margin, x_lab, y_lab) = (12u32, 45u32, 70u32);
+    let (w, h) = area.dim_in_pixel();
+    let plot_w = f64::from(w.saturating_sub(2 * margin + y_lab).max(10));
+    let plot_h = f64::from(h.saturating_sub(2 * margin + x_lab).max(10));
+    let ((x0, x1), (y0, y1)) = equal_ranges(points, plot_w, plot_h);
+    let mut chart = ChartBuilder::on(area)
+        .margin(margin)
+        .x_label_area_size(x_lab)
+        .y_label_area_size(y_lab)
+        .build_cartesian_2d(x0..x1, y0..y1)?;
+    let sep = if frame.is_empty() { "" } else { " " };
+    chart
+        .configure_mesh()
+        .x_desc(format!("east{sep}{frame} (m)"))
+        .y_desc(format!("north{sep}{frame} (m)"))
+        .label_style(("sans-serif", 16))
+        .axis_desc_style(("sans-serif", 17))
+        .light_line_style(RGBColor(235, 235, 235))
+        .bold_line_style(RGBColor(215, 215, 215))
+        .draw()?;
+    Ok(chart)
+}
+
 /// A chart of some quantity against distance along the route, with its mesh drawn.
 pub(crate) type DistanceChart<'a, DB> = ChartContext<'a, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>;
 
@@ -232,28 +266,10 @@ fn draw_top_view<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, cr: &Checked
 where
     DB::ErrorType: 'static,
 {
-    let (margin, x_lab, y_lab) = (12u32, 45u32, 70u32);
-    let (w, h) = area.dim_in_pixel();
-    let plot_w = f64::from(w.saturating_sub(2 * margin + y_lab).max(10));
-    let plot_h = f64::from(h.saturating_sub(2 * margin + x_lab).max(10));
     let plan_pts = cr.drive.plan.points().iter().copied();
     let trace_pts = cr.trace.steps.iter().map(|s| [s.pose.x_m, s.pose.y_m]);
-    let ((x0, x1), (y0, y1)) = equal_ranges(plan_pts.chain(trace_pts), plot_w, plot_h);
-    let mut chart = ChartBuilder::on(area)
-        .margin(margin)
-        .x_label_area_size(x_lab)
-        .y_label_area_size(y_lab)
-        .build_cartesian_2d(x0..x1, y0..y1)?;
     let frame = if cr.route.origin.is_some() { "of the route start" } else { "in the map frame" };
-    chart
-        .configure_mesh()
-        .x_desc(format!("east {frame} (m)"))
-        .y_desc(format!("north {frame} (m)"))
-        .label_style(("sans-serif", 16))
-        .axis_desc_style(("sans-serif", 17))
-        .light_line_style(RGBColor(235, 235, 235))
-        .bold_line_style(RGBColor(215, 215, 215))
-        .draw()?;
+    let mut chart = map_chart(area, plan_pts.chain(trace_pts), frame)?;
     draw_plan_legs(&mut chart, cr)?;
     let pred = cr.trace.steps.iter().map(|s| (s.pose.x_m, s.pose.y_m));
     chart.draw_series(LineSeries::new(pred, BLACK.stroke_width(2)))?;
