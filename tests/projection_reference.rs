@@ -17,10 +17,10 @@ use skidroute::route::GeoOrigin;
 /// Relative tolerance on distances: 0.05 %.
 const TOLERANCE: f64 = 5e-4;
 
-/// (lat_deg, lon_deg, alt_m) origins: high latitude (Tromso, 69.65 N), mid latitude (Zurich),
-/// near the equator and the antimeridian, and the southern hemisphere (Dunedin, Ushuaia).
+/// (lat_deg, lon_deg, alt_m) origins: high northern latitude, mid latitude with altitude, near
+/// the equator and the antimeridian, and two in the southern hemisphere (invented points).
 const ORIGINS: [(f64, f64, f64); 5] =
-    [(69.65, 18.96, 0.0), (47.37, 8.54, 400.0), (0.5, 179.9, 0.0), (-45.87, 170.50, 0.0), (-54.8, -68.3, 20.0)];
+    [(69.61, 18.73, 0.0), (47.21, 8.12, 400.0), (0.5, 179.9, 0.0), (-45.61, 170.31, 0.0), (-54.62, -68.07, 20.0)];
 
 /// Geodesic azimuths, degrees clockwise from north.
 const BEARINGS_DEG: [f64; 9] = [0.0, 17.0, 45.0, 90.0, 135.0, 180.0, 225.0, 270.0, 315.0];

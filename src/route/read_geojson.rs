@@ -281,7 +281,7 @@ mod tests {
 
     const FILE: &str = "plans/demo.geojson";
 
-    /// Points near Tromso, 69.65 N (a high-latitude case, where a flat shortcut is worst).
+    /// Invented points at 69.6 N (a high-latitude case, where a flat shortcut is worst).
     const P0: &str = "[18.95, 69.65]";
     const P1: &str = "[18.96, 69.65]";
     const P2: &str = "[18.96, 69.66]";

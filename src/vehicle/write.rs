@@ -253,7 +253,7 @@ mod tests {
     #[test]
     fn names_needing_quotes_are_quoted() {
         let mut p = Profile::demo();
-        p.vehicle.name = "Mule \"T4\"\tback\\slash".to_string();
+        p.vehicle.name = "Finch \"T4\"\tback\\slash".to_string();
         let snow = p.terrain.remove("slush").expect("slush in demo");
         p.terrain.insert("wet snow".to_string(), snow);
         let text = profile_to_toml(&p, "");
