@@ -1,26 +1,9 @@
 //! End-to-end tests of `skidroute check` and `skidroute profile`: the real binary in a
 //! temporary folder, exit codes, outputs, and one test per malformed input class.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
 
-fn bin() -> Command {
-    let mut c = Command::new(env!("CARGO_BIN_EXE_skidroute"));
-    c.env("NO_COLOR", "1");
-    c
-}
-
-fn example(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("example-routes").join(name)
-}
-
-fn run(args: &[&str]) -> Output {
-    bin().args(args).output().expect("run skidroute")
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
+use common::*;
 
 #[test]
 fn demo_route_prints_table_totals_caution_and_demo_notice() {

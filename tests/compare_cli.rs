@@ -1,30 +1,12 @@
 //! End-to-end tests of `skidroute compare` and of batch screening with `check` (folders,
 //! `--format jsonl`, `--html`): the real binary in a temporary folder.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
 
-fn bin() -> Command {
-    let mut c = Command::new(env!("CARGO_BIN_EXE_skidroute"));
-    c.env("NO_COLOR", "1");
-    c
-}
+use common::*;
 
-fn example(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("example-routes").join(name)
-}
-
-fn run(args: &[&str]) -> Output {
-    bin().args(args).output().expect("run skidroute")
-}
-
-fn s(p: &Path) -> &str {
-    p.to_str().expect("utf-8 path")
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
+use std::path::Path;
+use std::process::Command;
 
 /// A GeoJSON file with one LineString leg given in local metres about an invented origin.
 fn geojson_route(origin_lon_lat: (f64, f64), points_m: &[[f64; 2]], terrain: &str) -> String {

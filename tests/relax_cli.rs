@@ -1,20 +1,9 @@
 //! End-to-end tests of `skidroute relax`: the real binary in a temporary folder, both input
 //! formats, exit codes, kept properties and refused outputs.
 
-use std::path::Path;
-use std::process::{Command, Output};
+mod common;
 
-fn run(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_skidroute")).env("NO_COLOR", "1").args(args).output().expect("run skidroute")
-}
-
-fn s(p: &Path) -> &str {
-    p.to_str().expect("utf-8 path")
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
+use common::*;
 
 /// A CSV route with two right-angle corners on deep snow, with an extra `leg` column.
 const SHARP_CSV: &str = "x_m,y_m,terrain,leg,speed_mps\n\
