@@ -356,7 +356,7 @@ fn judge_effort(leg: &mut LegReport, e: &LegEffort, grade_rad: f64, drive: &Rout
         add(
             Verdict::Caution,
             format!(
-                "accelerating needs up to {:.0} N per side; {what}, so the vehicle will accelerate slower than planned",
+                "changing speed needs up to {:.0} N per side (driving or braking); {what}, so the vehicle will speed up or slow down more gently than planned",
                 e.peak_thrust_n
             ),
         );
