@@ -144,32 +144,15 @@ fn draw_legend<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, r: &DriftRepor
 where
     DB::ErrorType: 'static,
 {
-    let (x0, mut y) = (16i32, 24i32);
-    let font = ("sans-serif", 17).into_font();
-    area.draw(&Text::new("legend", (x0, y - 8), ("sans-serif", 18).into_font()))?;
-    y += 22;
-    let mut seen: Vec<&str> = Vec::new();
-    for l in &r.legs {
-        if !seen.contains(&l.terrain.as_str()) {
-            seen.push(&l.terrain);
-            area.draw(&PathElement::new(vec![(x0, y), (x0 + 34, y)], terrain_color(&l.terrain).stroke_width(5)))?;
-            area.draw(&Text::new(format!("plan on {}", l.terrain), (x0 + 46, y - 9), font.clone()))?;
-            y += 30;
-        }
-    }
-    let entries: [(RGBColor, u32, String); 3] = [
-        (RGBColor(90, 90, 90), 1, format!("true paths ({} samples)", r.sample_paths.len())),
-        (ELLIPSE_RED, 3, "95 % ellipse, true position".to_string()),
-        (CEP_BLUE, 2, "CEP95 circle about leg end".to_string()),
-    ];
-    for (c, width, text) in entries {
-        area.draw(&PathElement::new(vec![(x0, y), (x0 + 34, y)], c.stroke_width(width)))?;
-        area.draw(&Text::new(text, (x0 + 46, y - 9), font.clone()))?;
-        y += 30;
-    }
-    area.draw(&(EmptyElement::at((x0 + 17, y)) + TriangleMarker::new((0, 0), 9, LOSS_ORANGE.filled())))?;
-    area.draw(&Text::new("localization lost here", (x0 + 46, y - 9), font.clone()))?;
-    Ok(())
+    use super::plot::Glyph;
+    let mut entries = super::plot::terrain_entries(r.legs.iter().map(|l| l.terrain.as_str()));
+    entries.extend([
+        (Glyph::Line(RGBColor(90, 90, 90), 1), format!("true paths ({} samples)", r.sample_paths.len())),
+        (Glyph::Line(ELLIPSE_RED, 3), "95 % ellipse, true position".to_string()),
+        (Glyph::Line(CEP_BLUE, 2), "CEP95 circle about leg end".to_string()),
+        (Glyph::Triangle(LOSS_ORANGE), "localization lost here".to_string()),
+    ]);
+    super::plot::draw_legend(area, &entries)
 }
 
 fn draw_cep<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, r: &DriftReport) -> DrawResult<()>

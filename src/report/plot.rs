@@ -351,23 +351,30 @@ where
 }
 
 /// A legend line: what its glyph looks like and its text.
-enum Glyph {
+pub(crate) enum Glyph {
     Line(RGBColor, u32),
     Halo(RGBColor),
     Cross(RGBColor),
     Dot(RGBColor),
     Square,
+    Triangle(RGBColor),
+}
+
+/// Legend lines for the terrains of `terrains`, in first-appearance order.
+pub(crate) fn terrain_entries<'a>(terrains: impl Iterator<Item = &'a str>) -> Vec<(Glyph, String)> {
+    let mut seen: Vec<&str> = Vec::new();
+    let mut entries = Vec::new();
+    for t in terrains {
+        if !seen.contains(&t) {
+            seen.push(t);
+            entries.push((Glyph::Line(terrain_color(t), 7), format!("plan on {t}")));
+        }
+    }
+    entries
 }
 
 fn legend_entries(cr: &CheckedRoute) -> Vec<(Glyph, String)> {
-    let mut entries = Vec::new();
-    let mut seen: Vec<&str> = Vec::new();
-    for leg in &cr.report.legs {
-        if !seen.contains(&leg.terrain.as_str()) {
-            seen.push(&leg.terrain);
-            entries.push((Glyph::Line(terrain_color(&leg.terrain), 7), format!("plan on {}", leg.terrain)));
-        }
-    }
+    let mut entries = terrain_entries(cr.report.legs.iter().map(|l| l.terrain.as_str()));
     entries.push((Glyph::Line(BLACK, 2), "predicted path".to_string()));
     entries.push((Glyph::Dot(RGBColor(0, 140, 0)), "start".to_string()));
     entries.push((Glyph::Square, "end".to_string()));
@@ -380,7 +387,11 @@ fn legend_entries(cr: &CheckedRoute) -> Vec<(Glyph, String)> {
     entries
 }
 
-fn draw_legend<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, entries: &[(Glyph, String)]) -> DrawResult<()>
+/// Draws a legend column: a glyph and a line of text per entry.
+pub(crate) fn draw_legend<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    entries: &[(Glyph, String)],
+) -> DrawResult<()>
 where
     DB::ErrorType: 'static,
 {
@@ -396,6 +407,9 @@ where
             Glyph::Cross(c) => area.draw(&Cross::new((x0 + 17, y), 8, c.stroke_width(4)))?,
             Glyph::Dot(c) => area.draw(&Circle::new((x0 + 17, y), 7, c.filled()))?,
             Glyph::Square => area.draw(&Rectangle::new([(x0 + 11, y - 6), (x0 + 23, y + 6)], BLACK.filled()))?,
+            Glyph::Triangle(c) => {
+                area.draw(&(EmptyElement::at((x0 + 17, y)) + TriangleMarker::new((0, 0), 9, c.filled())))?
+            }
         }
         area.draw(&Text::new(text.as_str(), (x0 + 46, y - 9), font.clone()))?;
         y += 30;
