@@ -116,20 +116,9 @@ where
 {
     let (x0, x1) = robust_range(t.turn_points.iter().map(|p| p.commanded_per_m));
     let (y0, y1) = robust_range(t.turn_points.iter().map(|p| p.measured_per_m));
-    let mut chart = ChartBuilder::on(area)
-        .caption(format!("{}: yaw change per metre driven", t.terrain), ("sans-serif", 18))
-        .margin(10)
-        .x_label_area_size(40)
-        .y_label_area_size(60)
-        .build_cartesian_2d(x0..x1, y0..y1)?;
-    chart
-        .configure_mesh()
-        .x_desc("commanded (ideal drive), rad/m")
-        .y_desc("measured, rad/m")
-        .label_style(("sans-serif", 13))
-        .axis_desc_style(("sans-serif", 14))
-        .light_line_style(RGBColor(238, 238, 238))
-        .draw()?;
+    let caption = format!("{}: yaw change per metre driven", t.terrain);
+    let axes = ("commanded (ideal drive), rad/m", "measured, rad/m");
+    let mut chart = panel_chart(area, &caption, x0..x1, y0..y1, axes)?;
     let color = terrain_color(&t.terrain);
     let step = t.turn_points.len().div_ceil(1500).max(1);
     chart.draw_series(
@@ -165,6 +154,35 @@ where
     Ok(())
 }
 
+/// A linear panel of the fit figure: caption, axes and mesh in the figure's style.
+fn panel_chart<'a, DB>(
+    area: &'a DrawingArea<DB, Shift>,
+    caption: &str,
+    x: std::ops::Range<f64>,
+    y: std::ops::Range<f64>,
+    (x_desc, y_desc): (&str, &str),
+) -> DrawResult<super::plot::LinearChart<'a, DB>>
+where
+    DB: DrawingBackend,
+    DB::ErrorType: 'static,
+{
+    let mut chart = ChartBuilder::on(area)
+        .caption(caption, ("sans-serif", 18))
+        .margin(10)
+        .x_label_area_size(40)
+        .y_label_area_size(60)
+        .build_cartesian_2d(x, y)?;
+    chart
+        .configure_mesh()
+        .x_desc(x_desc)
+        .y_desc(y_desc)
+        .label_style(("sans-serif", 13))
+        .axis_desc_style(("sans-serif", 14))
+        .light_line_style(RGBColor(238, 238, 238))
+        .draw()?;
+    Ok(chart)
+}
+
 fn draw_end_points<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, t: &TerrainFit) -> DrawResult<()>
 where
     DB::ErrorType: 'static,
@@ -181,23 +199,9 @@ where
     let m_per_px = ((x1 - x0) / pw).max((y1 - y0) / ph);
     let (cx, cy) = (0.5 * (x0 + x1), 0.5 * (y0 + y1));
     let (hx, hy) = (0.5 * m_per_px * pw, 0.5 * m_per_px * ph);
-    let mut chart = ChartBuilder::on(area)
-        .caption(
-            format!("{}: validation window ends, {} ({} windows)", t.terrain, chosen.family, ends.len()),
-            ("sans-serif", 18),
-        )
-        .margin(10)
-        .x_label_area_size(40)
-        .y_label_area_size(60)
-        .build_cartesian_2d((cx - hx)..(cx + hx), (cy - hy)..(cy + hy))?;
-    chart
-        .configure_mesh()
-        .x_desc("forward from the window start, m")
-        .y_desc("left, m")
-        .label_style(("sans-serif", 13))
-        .axis_desc_style(("sans-serif", 14))
-        .light_line_style(RGBColor(238, 238, 238))
-        .draw()?;
+    let caption = format!("{}: validation window ends, {} ({} windows)", t.terrain, chosen.family, ends.len());
+    let axes = ("forward from the window start, m", "left, m");
+    let mut chart = panel_chart(area, &caption, (cx - hx)..(cx + hx), (cy - hy)..(cy + hy), axes)?;
     chart.draw_series(ends.iter().map(|e| {
         PathElement::new(
             vec![(e.measured[0], e.measured[1]), (e.predicted[0], e.predicted[1])],

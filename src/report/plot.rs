@@ -144,7 +144,7 @@ pub(crate) fn map_chart<'a, DB>(
     area: &'a DrawingArea<DB, Shift>,
     points: impl Iterator<Item = [f64; 2]>,
     frame: &str,
-) -> DrawResult<DistanceChart<'a, DB>>
+) -> DrawResult<LinearChart<'a, DB>>
 where
     DB: DrawingBackend,
     DB::ErrorType: 'static,
@@ -172,16 +172,16 @@ where
     Ok(chart)
 }
 
-/// A chart of some quantity against distance along the route, with its mesh drawn.
-pub(crate) type DistanceChart<'a, DB> = ChartContext<'a, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>;
+/// A chart with linear f64 axes (maps, charts against distance, fit panels).
+pub(crate) type LinearChart<'a, DB> = ChartContext<'a, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>;
 
-/// Builds a [`DistanceChart`] over `[0, x_max_m]` x `y_range` with the reports' common style.
+/// Builds a [`LinearChart`] over `[0, x_max_m]` x `y_range` with the reports' common style.
 pub(crate) fn distance_chart<'a, DB>(
     area: &'a DrawingArea<DB, Shift>,
     x_max_m: f64,
     y_range: std::ops::Range<f64>,
     y_desc: &str,
-) -> DrawResult<DistanceChart<'a, DB>>
+) -> DrawResult<LinearChart<'a, DB>>
 where
     DB: DrawingBackend,
     DB::ErrorType: 'static,
