@@ -1,4 +1,4 @@
-//! Per-leg assessment of a simulated route (DESIGN 6.4, 6.5, 6.9): the plan's required
+//! Per-leg assessment of a simulated route (docs/method.md, Plan curvature, Achievable curvature, Verdicts): the plan's required
 //! curvature, the achievable curvature at the leg's speed, predicted deviation against the
 //! corridor, time, and a verdict with reasons in plain words.
 //!
@@ -12,7 +12,7 @@ use crate::kinematics::{Model, MotionModel};
 use crate::rollout::{Outcome, RouteDrive, Trace};
 use crate::route::Route;
 
-/// Resampling step for the plan's curvature (DESIGN 6.4).
+/// Resampling step for the plan's curvature (docs/method.md, Plan curvature).
 pub const CURVATURE_STEP_M: f64 = 0.1;
 /// Share of the achievable curvature above which a turn earns a caution.
 pub const CAUTION_CURVATURE_SHARE: f64 = 0.8;
@@ -48,7 +48,7 @@ pub enum CurvatureLimit {
     Traction,
 }
 
-/// Achievable curvature of a leg and what binds it (DESIGN 6.5).
+/// Achievable curvature of a leg and what binds it (docs/method.md, Achievable curvature).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Achievable {
     pub kinematic_per_m: f64,
@@ -319,7 +319,7 @@ fn assess_leg(route: &Route, drive: &RouteDrive, trace: &Trace, i: usize) -> Leg
     leg
 }
 
-/// The effort part of DESIGN 6.9: climbing, thrust and power against traction and ratings.
+/// The effort part of the verdict rules (docs/method.md, Verdicts): climbing, thrust and power against traction and ratings.
 fn judge_effort(leg: &mut LegReport, e: &LegEffort, grade_rad: f64, drive: &RouteDrive, i: usize) {
     let ground = &drive.legs[i].ground;
     let veh = &drive.vehicle;
@@ -377,7 +377,7 @@ fn judge_effort(leg: &mut LegReport, e: &LegEffort, grade_rad: f64, drive: &Rout
     }
 }
 
-/// Applies DESIGN 6.9 and writes the reasons.
+/// Applies the verdict rules (docs/method.md, Verdicts) and writes the reasons.
 fn judge(leg: &mut LegReport, achievable: &Achievable, drive: &RouteDrive, trace: &Trace, i: usize) {
     let mut add = |v: Verdict, why: String| {
         leg.verdict = leg.verdict.max(v);

@@ -125,7 +125,7 @@ pub fn check_routes_with(routes: Vec<Route>, profile: &Profile, demo_profile: bo
     CheckRun { vehicle_name: profile.vehicle.name.clone(), demo_profile, routes }
 }
 
-/// Adds the drift estimate (CEP95 at every leg end, DESIGN 6.8) to each route of a check, so one
+/// Adds the drift estimate (CEP95 at every leg end, docs/method.md, Drift) to each route of a check, so one
 /// command screens a plan. Routes run one after another; each runs its samples in parallel.
 pub fn add_drift(
     run: &mut CheckRun,

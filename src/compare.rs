@@ -119,7 +119,7 @@ fn criterion(r: &RouteReport, by: RankBy, drift_cep95_m: Option<f64>) -> Option<
 pub const DRIFT_RANKING_SAMPLES: usize = 500;
 
 /// Ranks by drift: for every alternative, the CEP95 at its last leg end when localization is
-/// lost at its start (DESIGN 6.8, calibrated odometry, [`DRIFT_RANKING_SAMPLES`] samples with
+/// lost at its start (docs/method.md, Drift, calibrated odometry, [`DRIFT_RANKING_SAMPLES`] samples with
 /// the given `seed`, so the ranking is reproducible).
 pub fn rank_by_drift(run: CheckRun, profile: &crate::vehicle::Profile, seed: u64) -> Result<Comparison, crate::Error> {
     let settings = crate::drift::DriftSettings {

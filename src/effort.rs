@@ -1,6 +1,6 @@
 //! Track effort: thrust per side, mechanical and drawn power, energy, and the traction-limited
 //! tightest turn, after Wong, "Theory of Ground Vehicles", 4th ed. (2008), ch. 7, steering of
-//! tracked vehicles (DESIGN 6.6).
+//! tracked vehicles (docs/method.md, Effort).
 //!
 //! Quasi-static: rolling resistance, turning resistance, acceleration and grade; yaw inertia and
 //! centrifugal load transfer are neglected, which holds at the low speeds of these vehicles.
@@ -148,7 +148,7 @@ fn steady_turn_ok(veh: &EffortVehicle, ground: &Ground, speed_mps: f64, radius_m
 /// Radius above which a turn is treated as a straight for the traction limit, m.
 const STRAIGHT_RADIUS_M: f64 = 1.0e5;
 
-/// The traction/thrust/power limit on curvature at `speed_mps` on level ground (DESIGN 6.5):
+/// The traction/thrust/power limit on curvature at `speed_mps` on level ground (docs/method.md, Achievable curvature):
 /// 1 / R_min with R_min the smallest radius >= B/2 whose steady turn keeps the outer thrust
 /// within traction and the rating and the drawn power within the rating. Outer thrust and power
 /// both fall as the radius grows (mu_t falls with R, the outer side slows), so the condition is

@@ -1,4 +1,4 @@
-//! The path follower being predicted (DESIGN 6.3): pure pursuit on a forward-only progress
+//! The path follower being predicted (docs/method.md, Following): pure pursuit on a forward-only progress
 //! point, a speed profile ramped at the side-acceleration limit that slows for slower legs and
 //! stops at the end, a yaw-rate clamp, side speeds from the controller's inverse model,
 //! curvature-keeping side-speed saturation and a per-side acceleration limit.

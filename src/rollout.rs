@@ -1,6 +1,6 @@
 //! Closed-loop simulation of a route: the follower commands side speeds from the pose, the
 //! terrain model of the leg under the vehicle's progress point turns them into the actual body
-//! twist, and the exact SE(2) step moves the vehicle (DESIGN 6.2, 6.3). The trace keeps what
+//! twist, and the exact SE(2) step moves the vehicle (docs/method.md, Integration and Following). The trace keeps what
 //! the assessment and the effort estimate need: pose, leg, progress, deviation, side speeds and
 //! the actual twist at every control step.
 //!
@@ -33,7 +33,7 @@ pub struct RouteDrive {
     pub legs: Vec<LegDrive>,
     pub speeds_mps: Vec<f64>,
     pub limits: FollowerLimits,
-    /// Spacing at which the plan's curvature is measured (DESIGN 6.4).
+    /// Spacing at which the plan's curvature is measured (docs/method.md, Plan curvature).
     pub curvature_scale_m: f64,
     /// Vehicle constants for the effort model.
     pub vehicle: EffortVehicle,
@@ -296,7 +296,7 @@ mod tests {
 
     #[test]
     fn steady_circle_radius_with_track_expansion() {
-        // Check value derived from the geometry of pure pursuit (DESIGN 6.3; derived here, no
+        // Check value derived from the geometry of pure pursuit (docs/method.md, Following; derived here, no
         // outside source). Vehicle on a concentric circle of radius r, goal G on the plan circle
         // (radius R, centre C) at distance L. With u the unit vector from the vehicle P to C:
         // R^2 = |G - P - r u|^2 = L^2 + r^2 - 2 r y_g, so y_g = (L^2 + r^2 - R^2) / (2 r).

@@ -15,7 +15,7 @@ fn demo_route_prints_table_totals_caution_and_demo_notice() {
     }
     assert!(stdout.contains("total:"));
     assert!(stdout.contains("caution: Predictions come from a model calibrated on past drives"));
-    // The deep-snow drift has a corner tighter than the demo carrier can turn there.
+    // The deep-snow snowbank leg has a corner tighter than the demo carrier can turn there.
     assert!(stdout.contains("FAIL"));
     assert_eq!(out.status.code(), Some(1));
 }

@@ -72,7 +72,7 @@ fn climbing_costs_the_potential_energy() {
 #[test]
 fn slip_costs_energy_in_proportion_to_track_travel() {
     // With slip factor alpha the tracks travel d / alpha to move the vehicle d, so the rolling
-    // work grows by 1 / alpha (kinematics of DESIGN 6.1; common practice, no source).
+    // work grows by 1 / alpha (kinematics of docs/method.md, Model families; common practice, no source).
     let ideal = no_slip_profile();
     let mut slipping = no_slip_profile();
     let b = slipping.vehicle.track_width_m;

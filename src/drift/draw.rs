@@ -1,4 +1,4 @@
-//! Drawing a terrain's model parameters from the profile's parameter covariance (DESIGN 6.8).
+//! Drawing a terrain's model parameters from the profile's parameter covariance (docs/method.md, Drift).
 //!
 //! The covariance is factorised once per terrain as L = V diag(sqrt(max(lambda_i, 0))) from its
 //! symmetric eigen-decomposition C = V diag(lambda) V^T, so L L^T = C for any positive

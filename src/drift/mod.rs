@@ -1,4 +1,4 @@
-//! Mission drift when localization is lost (DESIGN 6.8): a seeded Monte Carlo over samples, run
+//! Mission drift when localization is lost (docs/method.md, Drift): a seeded Monte Carlo over samples, run
 //! in parallel with rayon. Each sample draws every terrain's model parameters from the profile's
 //! covariance and drives the route closed-loop on the pose it believes (dead reckoning of the
 //! measured side speeds through the odometry model), while its true pose follows the drawn
@@ -154,7 +154,7 @@ pub struct DriftReport {
     pub sample_paths: Vec<Vec<[f64; 2]>>,
 }
 
-/// Runs the drift Monte Carlo of `route` with `profile` (DESIGN 6.8) on the current rayon pool.
+/// Runs the drift Monte Carlo of `route` with `profile` (docs/method.md, Drift) on the current rayon pool.
 ///
 /// ```
 /// use skidroute::drift::{run_drift, DriftSettings};

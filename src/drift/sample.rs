@@ -1,6 +1,6 @@
-//! One Monte Carlo sample of a drive with lost localization (DESIGN 6.8).
+//! One Monte Carlo sample of a drive with lost localization (docs/method.md, Drift).
 //!
-//! The follower (DESIGN 6.3) steers on the pose the vehicle *believes*; the measured side speeds
+//! The follower (docs/method.md, Following) steers on the pose the vehicle *believes*; the measured side speeds
 //! it commands move the *true* pose through the sample's drawn terrain model plus random-walk
 //! noise, and move the believed pose through the odometry model (dead reckoning). While the
 //! follower's progress point lies before the start of the leg where localization is lost, the

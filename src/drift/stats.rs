@@ -57,7 +57,7 @@ pub fn eigen_2x2(cov: [[f64; 2]; 2]) -> (f64, f64, f64) {
 }
 
 /// The 95 % confidence ellipse of a bivariate normal with covariance `cov`: semi-axes
-/// sqrt(chi2_{2,0.95} lambda_i) along the eigenvectors (DESIGN 6.8; [`CHI2_2DOF_95`]).
+/// sqrt(chi2_{2,0.95} lambda_i) along the eigenvectors (docs/method.md, Drift; [`CHI2_2DOF_95`]).
 pub fn ellipse95(cov: [[f64; 2]; 2]) -> Ellipse {
     let (l1, l2, angle) = eigen_2x2(cov);
     let mut orientation_rad = angle;

@@ -2,7 +2,7 @@
 //! "Vehicle model identification by integrated prediction error minimization", IJRR 32(8)).
 //!
 //! For every window the measured side speeds are integrated through the model from the measured
-//! start pose (exact SE(2) steps with the speeds held over each sample interval, DESIGN 6.2); the
+//! start pose (exact SE(2) steps with the speeds held over each sample interval, docs/method.md, Integration); the
 //! residual is the measured end pose minus the predicted one, in the start pose's body frame
 //! (forward m, left m, yaw change times `yaw_scale_m_per_rad`). Levenberg-Marquardt (the
 //! `levenberg-marquardt` crate, a port of MINPACK's lmder) minimises the sum of squares with an

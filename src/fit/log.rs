@@ -1,4 +1,4 @@
-//! Reads drive logs (DESIGN 4, "Drive log, CSV"): header `t_s,left_mps,right_mps,x_m,y_m,yaw_rad,terrain`
+//! Reads drive logs (README, "Calibrating from drive logs"): header `t_s,left_mps,right_mps,x_m,y_m,yaw_rad,terrain`
 //! in any column order, with `lat_deg,lon_deg` allowed in place of `x_m,y_m`. Side speeds are
 //! measured track surface speeds (m/s, positive forward); poses come from a reference
 //! localization. Local frame x east, y north, yaw anticlockwise from east (radians).

@@ -1,6 +1,6 @@
-//! Identification of per-terrain motion models from drive logs (`skidroute fit`, DESIGN 6.7).
+//! Identification of per-terrain motion models from drive logs (`skidroute fit`, docs/method.md, Calibration).
 //!
-//! Logs ([`log`]) are split into runs and windows ([`windows`]); every family of DESIGN 6.1 is
+//! Logs ([`log`]) are split into runs and windows ([`windows`]); every family of docs/method.md, Model families, is
 //! started from a velocity-level least-squares fit ([`initial`]) and refined by integrated
 //! prediction error minimisation (Seegmiller, Rogers-Marcovitz, Miller & Kelly 2013, "Vehicle
 //! model identification by integrated prediction error minimization", IJRR 32(8); [`lm`]),
@@ -70,7 +70,7 @@ pub const MIN_WINDOWS: usize = 50;
 pub const MIN_TURNING_WINDOWS: usize = 10;
 /// Yaw change (rad) from which a window counts as turning.
 pub const TURN_RAD: f64 = 0.1;
-/// Default weight of yaw in the residual: metres per radian (DESIGN 6.7).
+/// Default weight of yaw in the residual: metres per radian (docs/method.md, Calibration).
 pub const DEFAULT_YAW_SCALE_M_PER_RAD: f64 = 1.0;
 /// Validation windows kept per terrain for the end-point plot.
 pub const PLOTTED_END_POINTS: usize = 400;

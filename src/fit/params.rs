@@ -1,6 +1,6 @@
 //! The parameter vector of each model family as the fit sees it, the body twist it gives for
 //! measured side speeds, and the twist's derivatives with respect to the parameters (for the
-//! analytic Jacobian of the integrated prediction error). Twists and parameters follow DESIGN 6.1
+//! analytic Jacobian of the integrated prediction error). Twists and parameters follow docs/method.md, Model families
 //! exactly, so a fitted vector turns into the same [`Model`] that `check` drives.
 //!
 //! `extended-scheduled` fits (alpha, track_expansion) at fixed nodes of commanded curvature

@@ -1,4 +1,4 @@
-//! Model choice per terrain (DESIGN 6.7): the lowest validation error, preferring fewer
+//! Model choice per terrain (docs/method.md, Calibration): the lowest validation error, preferring fewer
 //! parameters unless a larger family is at least [`BETTER_FRACTION`] better. The error compared
 //! is the median relative translation error on the held-out windows. Families are visited by
 //! parameter count; a larger family replaces the current choice only when its error is at most

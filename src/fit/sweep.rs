@@ -1,4 +1,4 @@
-//! The horizon sweep (DESIGN 6.7): the chosen family is trained at each horizon of the sweep and
+//! The horizon sweep (docs/method.md, Calibration): the chosen family is trained at each horizon of the sweep and
 //! evaluated on the held-out windows of every horizon, giving a train x evaluate table of median
 //! relative translation error per terrain. Models trained on short windows tend to predict short
 //! horizons best and long-window models long horizons, so the table shows which training horizon

@@ -1,4 +1,4 @@
-//! Validation of a fitted model on held-out windows (DESIGN 6.7): relative translation error
+//! Validation of a fitted model on held-out windows (docs/method.md, Calibration): relative translation error
 //! |dp_pred - dp_meas| / |dp_meas| (windows that move less than [`MIN_TRANSLATION_M`] skipped) and
 //! absolute yaw error in degrees, summarised by median and quartiles (Hyndman & Fan 1996 type 7).
 //!

@@ -1,4 +1,4 @@
-//! From drive logs to identification windows (DESIGN 4 and 6.7).
+//! From drive logs to identification windows (README, Calibrating from drive logs; docs/method.md, Calibration).
 //!
 //! Each log is split into runs at gaps longer than [`GAP_PERIODS`] sample periods and at terrain
 //! changes. A terrain's runs are gathered into one [`Series`] with the yaw unwrapped inside each
@@ -12,7 +12,7 @@
 use super::log::DriveLog;
 use crate::kinematics::se2::wrap_angle;
 
-/// A gap longer than this many sample periods splits a log into runs (DESIGN 4).
+/// A gap longer than this many sample periods splits a log into runs (README, Inputs).
 pub const GAP_PERIODS: f64 = 5.0;
 /// Length of the held-out time blocks, seconds of driving on the terrain.
 pub const BLOCK_S: f64 = 30.0;

@@ -1,4 +1,4 @@
-//! The six model families of DESIGN 6.1, each with its forward twist and inverse.
+//! The six model families of docs/method.md, Model families, each with its forward twist and inverse.
 
 use super::{MotionModel, Twist};
 

@@ -2,7 +2,7 @@
 //! forward) to the body twist (vx forward m/s, vy left m/s, omega anticlockwise rad/s), and back.
 //! Body frame: x forward, y left. Curvature and yaw rate are positive for a left turn.
 //!
-//! Six families (DESIGN 6.1) share the [`MotionModel`] trait; [`Model`] is the enum the rest of
+//! Six families (docs/method.md, Model families) share the [`MotionModel`] trait; [`Model`] is the enum the rest of
 //! the crate stores so hot loops dispatch without allocation or virtual calls.
 
 mod families;

@@ -3,7 +3,7 @@
 //! A route's plan is first simplified per leg (Ramer-Douglas-Peucker through the geo crate's
 //! `SimplifyIdx`, tolerance [`RelaxSettings::simplify_tolerance_m`]) so the corners of dense
 //! polylines show as vertices; leg boundaries are always kept. A vertex is a failing corner when
-//! the plan's measured curvature near it (DESIGN 6.4, on the original plan) is above the caution
+//! the plan's measured curvature near it (docs/method.md, Plan curvature, on the original plan) is above the caution
 //! share (80 %) of the achievable curvature of the legs it touches. Each failing corner is
 //! replaced by a circular fillet tangent to both simplified sides, with radius
 //! 1 / ([`RelaxSettings::target_share`] x achievable), sampled at most a fifth of the curvature
@@ -105,12 +105,12 @@ pub struct Relaxed {
 }
 
 /// The traction/thrust/power curvature limit of a leg at `speed_mps` (the effort model,
-/// DESIGN 6.5/6.6). The single place relax reads it.
+/// docs/method.md, Achievable curvature and Effort). The single place relax reads it.
 pub fn traction_limit_per_m(drive: &RouteDrive, leg: &LegDrive, speed_mps: f64) -> Option<f64> {
     Some(crate::effort::traction_curvature_limit(&drive.vehicle, &leg.ground, speed_mps))
 }
 
-/// Achievable curvature of a leg at a speed (DESIGN 6.5): kinematic limit, and the traction
+/// Achievable curvature of a leg at a speed (docs/method.md, Achievable curvature): kinematic limit, and the traction
 /// limit where known.
 pub fn achievable_per_m(drive: &RouteDrive, leg: usize, speed_mps: f64) -> f64 {
     let Some(ld) = drive.legs.get(leg) else { return f64::INFINITY };

@@ -1,4 +1,4 @@
-//! Reports of a drift run (DESIGN 6.8): the terminal table, the JSON document
+//! Reports of a drift run (docs/method.md, Drift): the terminal table, the JSON document
 //! (`"format": "skidroute-drift/1"`) and the ellipses as GeoJSON polygons in lon/lat.
 //!
 //! The error at a leg end is the true position minus the position the vehicle believes it is

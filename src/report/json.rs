@@ -1,4 +1,4 @@
-//! The check report as a JSON document (`"format": "skidroute-check/1"`, DESIGN 5).
+//! The check report as a JSON document (`"format": "skidroute-check/1"`, docs/method.md, Outputs).
 
 use serde::Serialize;
 

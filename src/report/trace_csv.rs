@@ -1,4 +1,4 @@
-//! The simulated trace as CSV, local frame (DESIGN 5): the designed columns
+//! The simulated trace as CSV, local frame (docs/method.md, Outputs): the designed columns
 //! `t_s,x_m,y_m,yaw_rad,leg,deviation_m,left_mps,right_mps`, then extra columns, then `route`.
 //! Legs are numbered from 1.
 

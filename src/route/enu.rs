@@ -1,7 +1,7 @@
 //! Exact WGS 84 projection between geodetic coordinates (degrees, metres above the ellipsoid) and
 //! a local east-north-up frame (metres) about an origin: geodetic -> ECEF -> ENU and back.
 //!
-//! GeoJSON routes are projected with this once, when they are read (DESIGN 3); predicted paths go
+//! GeoJSON routes are projected with this once, when they are read (docs/method.md, Frames); predicted paths go
 //! back through [`GeoOrigin::to_geodetic`]. No flat-earth shortcut: an equirectangular
 //! approximation is metres off at 20 km, this is sub-millimetre.
 

@@ -61,7 +61,7 @@ pub struct Route {
     pub legs: Vec<Leg>,
 }
 
-/// Largest gap allowed between the end of one leg and the start of the next (DESIGN 4).
+/// Largest gap allowed between the end of one leg and the start of the next (README, Inputs).
 pub const JOIN_TOLERANCE_M: f64 = 0.5;
 /// Two consecutive plan points closer than this are a duplicate point (an input error).
 pub const DUPLICATE_POINT_M: f64 = 1e-3;

@@ -1,7 +1,7 @@
 //! The plan as one polyline per route, in local metres, with arc length, leg boundaries and the
 //! queries the follower and the assessment need: point at arc length, nearest point within a
 //! window of arc length (so a loop's far side never counts), pure-pursuit goal search, and the
-//! plan's curvature measured at a stated scale (DESIGN 6.4).
+//! plan's curvature measured at a stated scale (docs/method.md, Plan curvature).
 //!
 //! All queries are allocation-free.
 
@@ -310,7 +310,7 @@ impl PlanPath {
     }
 
     /// Signed Menger curvature of the plan at arc length `s_m`, from the points `scale_m`
-    /// before and after (DESIGN 6.4): kappa = 2 cross(p2 - p1, p3 - p2) / (|p1p2| |p2p3| |p1p3|).
+    /// before and after (docs/method.md, Plan curvature): kappa = 2 cross(p2 - p1, p3 - p2) / (|p1p2| |p2p3| |p1p3|).
     /// Zero where the points before or after fall off the ends of the plan.
     pub fn curvature_at(&self, s_m: f64, scale_m: f64) -> f64 {
         if s_m - scale_m < 0.0 || s_m + scale_m > self.length_m() {
@@ -319,7 +319,7 @@ impl PlanPath {
         menger_curvature(self.point_at(s_m - scale_m), self.point_at(s_m), self.point_at(s_m + scale_m))
     }
 
-    /// Largest |curvature| over leg `leg`, sampled every `step_m` (0.1 m in DESIGN 6.4), with
+    /// Largest |curvature| over leg `leg`, sampled every `step_m` (0.1 m, docs/method.md, Plan curvature), with
     /// the neighbouring legs' points used near the boundaries; returns (|kappa|, arc length).
     /// A leg longer than `step_m` x [`MAX_SAMPLES_PER_LEG`] is sampled more coarsely, so the cost
     /// stays bounded whatever the input.
@@ -388,7 +388,7 @@ mod tests {
 
     #[test]
     fn sharp_corner_reads_two_sin_half_angle_over_scale() {
-        // DESIGN 6.4 (plane geometry): an isosceles triangle with legs s and turning angle theta
+        // docs/method.md, Plan curvature (plane geometry): an isosceles triangle with legs s and turning angle theta
         // has circumradius s / (2 sin(theta/2)).
         let theta = 1.2_f64;
         let pts = vec![[-10.0, 0.0], [0.0, 0.0], [10.0 * theta.cos(), 10.0 * theta.sin()]];

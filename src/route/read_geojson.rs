@@ -3,7 +3,7 @@
 //!
 //! Every LineString Feature is one leg, in file order; any other geometry is an error rather than
 //! silently skipped, because a screening tool must not pass a route it did not fully read.
-//! Property names are those of DESIGN 4 (`terrain`, `speed_mps`, `corridor_m`, `name`, `route`);
+//! Property names are those of README, Inputs (`terrain`, `speed_mps`, `corridor_m`, `name`, `route`);
 //! other properties are left alone, since GIS tools attach their own (styles, ids).
 
 use std::path::Path;

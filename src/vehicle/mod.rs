@@ -73,7 +73,7 @@ pub struct FollowerSpec {
     pub inverse_model: InverseChoice,
     /// Default corridor (allowed lateral deviation either side) for legs without one.
     pub corridor_m: f64,
-    /// Spacing used to measure the plan's curvature (DESIGN 6.4).
+    /// Spacing used to measure the plan's curvature (docs/method.md, Plan curvature).
     pub curvature_scale_m: f64,
 }
 

@@ -1,4 +1,4 @@
-//! Strict reader for vehicle profiles (DESIGN 4, "Vehicle profile, TOML").
+//! Strict reader for vehicle profiles (README, "Vehicle profile, TOML").
 //!
 //! The text is parsed into a `toml::Table` and walked by hand, because the keys allowed in a
 //! `[terrain.NAME]` table depend on its `model` family, which serde's `deny_unknown_fields` cannot

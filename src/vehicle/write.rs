@@ -1,4 +1,4 @@
-//! Writes a [`Profile`] back as TOML in the layout of DESIGN 4 (used by `fit` to emit calibrated
+//! Writes a [`Profile`] back as TOML in the layout of README, Inputs (used by `fit` to emit calibrated
 //! profiles). Every key is written; floats use Rust's shortest round-trip representation, so
 //! `parse_profile(profile_to_toml(p))` gives back exactly `p`. SI units, as in the input format.
 
@@ -253,7 +253,7 @@ mod tests {
     #[test]
     fn names_needing_quotes_are_quoted() {
         let mut p = Profile::demo();
-        p.vehicle.name = "Finch \"T4\"\tback\\slash".to_string();
+        p.vehicle.name = "Fernhollow \"quoted\"\tback\\slash".to_string();
         let snow = p.terrain.remove("slush").expect("slush in demo");
         p.terrain.insert("wet snow".to_string(), snow);
         let text = profile_to_toml(&p, "");
