@@ -30,7 +30,7 @@ pub const DEFAULT_MAX_ROLLOUT_STEPS: u64 = 5_000_000;
 /// Most Monte Carlo samples one `drift` run may draw (its `--samples` flag is checked against
 /// this by the drift module); not configurable, since each sample's cost is already bounded by the
 /// route's step bound.
-pub const MAX_SAMPLES: usize = crate::drift::MAX_SAMPLES;
+pub const MAX_SAMPLES: usize = 1_000_000;
 
 /// Largest magnitude of a local-frame coordinate (CSV `x_m`, `y_m`), metres. A local map frame
 /// stays well within this (UTM northings are below 1e7 m); larger values are almost always a

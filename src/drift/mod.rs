@@ -35,8 +35,8 @@ pub use draw::{psd_factor, ParamSampler};
 pub use sample::Noise;
 pub use stats::{ellipse95, error_stats, Ellipse, ErrorStats, CHI2_2DOF_95};
 
-/// Most samples a run may ask for.
-pub const MAX_SAMPLES: usize = 1_000_000;
+/// Most samples a run may ask for (the value lives with the other limits).
+pub use crate::limits::MAX_SAMPLES;
 /// True paths kept for plots by default.
 pub const DEFAULT_PATHS_KEPT: usize = 50;
 
