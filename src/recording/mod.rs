@@ -44,8 +44,8 @@ pub enum RecordingError {
     MapNeeded { file: PathBuf },
     #[error("{file}: not an MCAP file (it does not start with the MCAP magic bytes); give drive logs as .csv and ROS 2 recordings as .mcap")]
     NotMcap { file: PathBuf },
-    #[error("{file}: the recording is truncated: it ends in the middle of a record after {bytes} of {size} bytes and {messages} complete messages (was the recorder stopped abruptly?)")]
-    Truncated { file: PathBuf, bytes: u64, size: u64, messages: u64 },
+    #[error("{file}: the recording is truncated: it ends in the middle of a record at byte {bytes}, after {messages} complete messages ({seconds:.1} s of recording); was the recorder stopped abruptly?")]
+    Truncated { file: PathBuf, bytes: u64, messages: u64, seconds: f64 },
     #[error("{file}: cannot read the recording near byte {bytes} (after {messages} messages): {what}")]
     Container { file: PathBuf, bytes: u64, messages: u64, what: String },
     #[error(

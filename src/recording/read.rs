@@ -86,7 +86,7 @@ pub fn read_recording(
     let options = LinearReaderOptions::default().with_skip_start_magic(true).with_record_length_limit(record_limit);
     let mut collector = Collector::new(path, map, track_width_m, limits);
     for item in mcap::io::MessageReader::new_with_options(source, options) {
-        let message = item.map_err(|e| container_error(path, &e, read.get(), meta.len(), collector.messages))?;
+        let message = item.map_err(|e| container_error(path, &e, read.get(), &collector))?;
         collector.message(&message)?;
     }
     progress.finish();
@@ -110,13 +110,21 @@ fn read_up_to(file: &mut File, buf: &mut [u8]) -> std::io::Result<usize> {
     Ok(n)
 }
 
-fn container_error(path: &Path, e: &McapError, bytes: u64, size: u64, messages: u64) -> RecordingError {
-    match e {
-        McapError::UnexpectedEof => RecordingError::Truncated { file: path.to_path_buf(), bytes, size, messages },
-        McapError::Io(source) if source.kind() == std::io::ErrorKind::UnexpectedEof => {
-            RecordingError::Truncated { file: path.to_path_buf(), bytes, size, messages }
-        }
-        other => RecordingError::Container { file: path.to_path_buf(), bytes, messages, what: other.to_string() },
+fn container_error(path: &Path, e: &McapError, bytes: u64, seen: &Collector) -> RecordingError {
+    let messages = seen.messages;
+    let truncated = match e {
+        McapError::UnexpectedEof => true,
+        McapError::Io(source) => source.kind() == std::io::ErrorKind::UnexpectedEof,
+        _ => false,
+    };
+    if truncated {
+        let seconds = match seen.log_span_ns {
+            Some((first, last)) => last.saturating_sub(first) as f64 / 1e9,
+            None => 0.0,
+        };
+        RecordingError::Truncated { file: path.to_path_buf(), bytes, messages, seconds }
+    } else {
+        RecordingError::Container { file: path.to_path_buf(), bytes, messages, what: e.to_string() }
     }
 }
 
@@ -158,6 +166,8 @@ struct Collector<'a> {
     /// Every topic with messages, with its type, for messages.
     topics: BTreeMap<String, String>,
     messages: u64,
+    /// Log times (ns) of the first and the latest message.
+    log_span_ns: Option<(u64, u64)>,
     side: Vec<SideSample>,
     poses: Vec<PoseSample>,
     marks: Vec<(i64, String)>,
@@ -174,6 +184,7 @@ impl<'a> Collector<'a> {
             plans: HashMap::new(),
             topics: BTreeMap::new(),
             messages: 0,
+            log_span_ns: None,
             side: Vec::new(),
             poses: Vec::new(),
             marks: Vec::new(),
@@ -261,6 +272,8 @@ impl<'a> Collector<'a> {
 
     fn message(&mut self, message: &Message) -> Result<(), RecordingError> {
         self.messages += 1;
+        let first = self.log_span_ns.map_or(message.log_time, |(first, _)| first);
+        self.log_span_ns = Some((first, message.log_time));
         let channel = &message.channel;
         if !self.plans.contains_key(&channel.id) {
             let type_name =
