@@ -119,3 +119,42 @@ fn the_file_size_limit_is_honoured() {
     let e = read_recording(&fixture("big-endian.mcap"), &map, TRACK_WIDTH_M, &limits, &NoProgress).expect_err("limit");
     assert!(e.to_string().contains("larger than the file-size limit"), "{e}");
 }
+
+/// Small deterministic pseudo-random numbers (a linear congruential generator).
+struct Lcg(u64);
+impl Lcg {
+    fn next(&mut self) -> u64 {
+        self.0 = self.0.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
+        self.0 >> 33
+    }
+}
+
+#[test]
+fn corrupted_recordings_are_errors_or_logs_never_panics() {
+    // Bytes of the small big-endian recording overwritten at random places: the reader must
+    // return (a log or an error naming the file), whatever the damage.
+    let original = std::fs::read(fixture("big-endian.mcap")).expect("read");
+    let limits = Limits::default();
+    let map = RecordingMap::read(&fixture("big-endian.map.toml"), &limits).expect("map");
+    let dir = tempfile::tempdir().expect("tempdir");
+    let path = dir.path().join("damaged.mcap");
+    let mut rng = Lcg(7);
+    let (mut errors, mut logs) = (0, 0);
+    for _ in 0..300 {
+        let mut bytes = original.clone();
+        for _ in 0..1 + rng.next() % 4 {
+            let at = (rng.next() as usize) % bytes.len();
+            bytes[at] = (rng.next() & 0xff) as u8;
+        }
+        std::fs::write(&path, &bytes).expect("write");
+        match read_recording(&path, &map, TRACK_WIDTH_M, &limits, &NoProgress) {
+            Ok(_) => logs += 1,
+            Err(e) => {
+                assert!(e.to_string().contains("damaged.mcap"), "{e}");
+                errors += 1;
+            }
+        }
+    }
+    assert_eq!(errors + logs, 300);
+    assert!(errors > 0, "some damage must be noticed");
+}

@@ -12,13 +12,13 @@
 use super::schema::{full_type_name, Arity, Field, Kind, Primitive, Schema, Value};
 
 /// Accepted types for the side speeds.
-pub const SIDE_SPEED_TYPES: [&str; 3] =
-    ["sensor_msgs/msg/JointState", "nav_msgs/msg/Odometry", "geometry_msgs/msg/TwistStamped"];
+pub const SIDE_SPEED_TYPES: &[&str] =
+    &["sensor_msgs/msg/JointState", "nav_msgs/msg/Odometry", "geometry_msgs/msg/TwistStamped"];
 /// Accepted types for the poses.
-pub const POSE_TYPES: [&str; 3] =
-    ["nav_msgs/msg/Odometry", "geometry_msgs/msg/PoseStamped", "geometry_msgs/msg/PoseWithCovarianceStamped"];
+pub const POSE_TYPES: &[&str] =
+    &["nav_msgs/msg/Odometry", "geometry_msgs/msg/PoseStamped", "geometry_msgs/msg/PoseWithCovarianceStamped"];
 /// Accepted type for a terrain topic.
-pub const TERRAIN_TYPES: [&str; 1] = ["std_msgs/msg/String"];
+pub const TERRAIN_TYPES: &[&str] = &["std_msgs/msg/String"];
 
 /// Yaw (rad, anticlockwise about z, in (-pi, pi]) of the orientation quaternion (x, y, z, w),
 /// z up: yaw = atan2(2(wz + xy), 1 - 2(y^2 + z^2)), the z-y-x (yaw-pitch-roll) Euler angle
@@ -295,7 +295,7 @@ mod tests {
         for theta in [0.0, 0.3, -1.2, 2.9, PI - 1e-6, 4.0] {
             let (s, c) = (theta / 2.0f64).sin_cos();
             let yaw = yaw_from_quaternion(0.0, 0.0, s, c).expect("unit quaternion");
-            let expected = (theta as f64).sin().atan2(theta.cos());
+            let expected = theta.sin().atan2(theta.cos());
             assert_relative_eq!(yaw, expected, epsilon = 1e-12);
         }
         // A scaled quaternion has the same yaw.

@@ -51,13 +51,13 @@ pub enum RecordingError {
     #[error(
         "{file}: no messages on topic {topic} (named in [{section}] of the recording map); the recording has {present}"
     )]
-    MissingTopic { file: PathBuf, topic: String, section: String, present: String },
-    #[error("{file}: topic {topic} holds {found}, but [{section}] accepts {accepted}")]
-    WrongType { file: PathBuf, topic: String, found: String, section: String, accepted: String },
+    MissingTopic { file: PathBuf, topic: String, section: &'static str, present: String },
+    #[error("{file}: topic {topic} holds {found}, but [{section}] accepts {}", accepted.join(", "))]
+    WrongType { file: PathBuf, topic: String, found: String, section: &'static str, accepted: &'static [&'static str] },
     #[error(
-        "{file}: topic {topic}: joint {joint:?} (from {key}) is not in its messages; the joints present are {present}"
+        "{file}: topic {topic}: joint {joint:?} (from side_speeds.{key}) is not in its messages; the joints present are {present}"
     )]
-    JointsNotFound { file: PathBuf, topic: String, joint: String, key: String, present: String },
+    JointsNotFound { file: PathBuf, topic: String, joint: String, key: &'static str, present: String },
     #[error("{file}: topic {topic}: {what}")]
     Topic { file: PathBuf, topic: String, what: String },
 }

@@ -207,22 +207,22 @@ impl<'a> Collector<'a> {
     fn plan(&self, channel: &mcap::Channel) -> Result<Option<Plan>, RecordingError> {
         let topic = channel.topic.as_str();
         let roles = [
-            (topic == self.map.side_speeds.topic).then_some(("side_speeds", &SIDE_SPEED_TYPES[..])),
-            (topic == self.map.pose_topic).then_some(("pose", &POSE_TYPES[..])),
-            (Some(topic) == self.terrain_topic()).then_some(("terrain", &TERRAIN_TYPES[..])),
+            (topic == self.map.side_speeds.topic).then_some(("side_speeds", SIDE_SPEED_TYPES)),
+            (topic == self.map.pose_topic).then_some(("pose", POSE_TYPES)),
+            (Some(topic) == self.terrain_topic()).then_some(("terrain", TERRAIN_TYPES)),
         ];
         if roles.iter().all(Option::is_none) {
             return Ok(None);
         }
         let type_name = channel.schema.as_ref().map(|s| full_type_name(&s.name)).unwrap_or_default();
-        for (section, accepted) in roles.iter().flatten() {
+        for &(section, accepted) in roles.iter().flatten() {
             if !accepted.contains(&type_name.as_str()) {
                 return Err(RecordingError::WrongType {
                     file: self.file.to_path_buf(),
                     topic: topic.to_string(),
                     found: if type_name.is_empty() { "messages without a schema".to_string() } else { type_name },
-                    section: section.to_string(),
-                    accepted: accepted.join(", "),
+                    section,
+                    accepted,
                 });
             }
         }
@@ -256,7 +256,9 @@ impl<'a> Collector<'a> {
     /// The channel's message definition: parsed from the recording when it is `ros2msg` text,
     /// else the built-in definition of the type.
     fn schema(&self, topic: &str, type_name: &str, channel: &mcap::Channel) -> Result<Schema, RecordingError> {
-        let recorded = channel.schema.as_ref().filter(|s| s.encoding == "ros2msg");
+        // A blank definition (some writers leave it empty) falls back to the built-in one.
+        let recorded =
+            channel.schema.as_ref().filter(|s| s.encoding == "ros2msg" && !s.data.iter().all(u8::is_ascii_whitespace));
         match recorded {
             Some(s) => {
                 let text = std::str::from_utf8(&s.data)
@@ -285,11 +287,11 @@ impl<'a> Collector<'a> {
         let Some(Some(plan)) = self.plans.get_mut(&channel.id) else { return Ok(()) };
         plan.count += 1;
         let number = plan.count;
-        let topic = plan.topic.clone();
+        let topic = plan.topic.as_str();
         let file = self.file;
         let at = |what: String| RecordingError::Topic {
             file: file.to_path_buf(),
-            topic: topic.clone(),
+            topic: topic.to_string(),
             what: format!("message {number}: {what}"),
         };
         let value = plan.schema.decode(&message.data).map_err(|e| at(format!("cannot decode: {e}")))?;
@@ -304,9 +306,9 @@ impl<'a> Collector<'a> {
             let sample = side.sample(&value).map_err(|e| match e {
                 ExtractError::Joint { joint, key, present } => RecordingError::JointsNotFound {
                     file: file.to_path_buf(),
-                    topic: topic.clone(),
+                    topic: topic.to_string(),
                     joint,
-                    key: format!("side_speeds.{key}"),
+                    key,
                     present: if present.is_empty() { "none".to_string() } else { present.join(", ") },
                 },
                 ExtractError::Type(w) | ExtractError::Message(w) => at(w),
@@ -339,18 +341,13 @@ impl<'a> Collector<'a> {
         Ok(())
     }
 
-    fn missing(&self, topic: &str, section: &str) -> RecordingError {
+    fn missing(&self, topic: &str, section: &'static str) -> RecordingError {
         let present = if self.topics.is_empty() {
             "no messages at all".to_string()
         } else {
             self.topics.iter().map(|(t, ty)| format!("{t} ({ty})")).collect::<Vec<_>>().join(", ")
         };
-        RecordingError::MissingTopic {
-            file: self.file.to_path_buf(),
-            topic: topic.to_string(),
-            section: section.to_string(),
-            present,
-        }
+        RecordingError::MissingTopic { file: self.file.to_path_buf(), topic: topic.to_string(), section, present }
     }
 
     fn finish(self) -> Result<DriveLog, RecordingError> {
