@@ -158,3 +158,29 @@ fn corrupted_recordings_are_errors_or_logs_never_panics() {
     assert_eq!(errors + logs, 300);
     assert!(errors > 0, "some damage must be noticed");
 }
+
+#[test]
+fn joints_and_twist_topics_need_matching_map_keys() {
+    let limits = Limits::default();
+    let dir = tempfile::tempdir().expect("tempdir");
+    let read_with = |map_text: String, recording: &str| {
+        let path = dir.path().join("map.toml");
+        std::fs::write(&path, map_text).expect("write");
+        let map = RecordingMap::read(&path, &limits).expect("map");
+        read_recording(&fixture(recording), &map, TRACK_WIDTH_M, &limits, &NoProgress).expect_err("refused").to_string()
+    };
+    let joints = std::fs::read_to_string(fixture("joints-odom.map.toml")).expect("map");
+    let twist =
+        joints.replace("\"/joint_states\"", "\"/wheel/twist\"").replace("\"/reference/odom\"", "\"/reference/pose\"");
+    let e = read_with(twist, "twist-pose.mcap");
+    assert!(
+        e.contains(
+            "topic /wheel/twist: left_joints, right_joints and wheel_radius_m apply to sensor_msgs/msg/JointState only"
+        ),
+        "{e}"
+    );
+    let bare =
+        "[side_speeds]\ntopic = \"/joint_states\"\n[pose]\ntopic = \"/reference/odom\"\n[terrain]\nvalue = \"grass\"\n";
+    let e = read_with(bare.to_string(), "joints-odom.mcap");
+    assert!(e.contains("topic /joint_states: a sensor_msgs/msg/JointState topic needs left_joints"), "{e}");
+}
