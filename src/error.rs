@@ -12,6 +12,8 @@ pub enum Error {
     #[error(transparent)]
     Fit(#[from] crate::fit::FitError),
     #[error(transparent)]
+    Recording(#[from] crate::recording::RecordingError),
+    #[error(transparent)]
     Report(#[from] crate::report::ReportError),
     #[error(transparent)]
     Compare(#[from] crate::compare::CompareError),

@@ -3,7 +3,8 @@
 //! Data flow (see README.md): `route` (read + project + plan geometry) -> `vehicle` (profile)
 //! -> `kinematics` (model families, SE(2)) -> `follow` (controller) -> `rollout` (simulation)
 //! -> `assess` (per-leg verdicts) -> `report` (table, JSON, CSV, GeoJSON, plots); beside them
-//! `drift` (Monte Carlo of the position error when localization is lost).
+//! `drift` (Monte Carlo of the position error when localization is lost); `recording` reads ROS 2
+//! recordings (MCAP) as drive logs for `fit`.
 //! Everything inside is SI, local frame x east, y north, yaw anticlockwise from x.
 
 pub mod assess;
@@ -18,6 +19,7 @@ pub mod follow;
 pub mod kinematics;
 pub mod limits;
 pub mod progress;
+pub mod recording;
 pub mod relax;
 pub mod report;
 pub mod rollout;

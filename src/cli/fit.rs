@@ -5,7 +5,8 @@ use std::process::ExitCode;
 
 use anyhow::Result;
 use clap::Args;
-use skidroute::fit::{fit_logs, log::read_log_with, FitSettings};
+use skidroute::fit::{fit_logs, FitSettings};
+use skidroute::recording::{is_recording, read_drive_log, RecordingError, RecordingMap};
 use skidroute::report::{self, FitOutputs};
 
 use super::load_profile;
@@ -13,9 +14,13 @@ use super::progress::Bar;
 
 #[derive(Args)]
 pub struct FitArgs {
-    /// Drive logs (CSV: t_s,left_mps,right_mps,x_m,y_m,yaw_rad,terrain; lat_deg,lon_deg may replace x_m,y_m).
+    /// Drive logs (CSV: t_s,left_mps,right_mps,x_m,y_m,yaw_rad,terrain; lat_deg,lon_deg may replace x_m,y_m),
+    /// or ROS 2 recordings (.mcap) read through --recording-map.
     #[arg(required = true)]
     pub logs: Vec<PathBuf>,
+    /// Recording map (TOML): which topics of the ROS 2 recordings hold side speeds, poses and terrain.
+    #[arg(long, value_name = "MAP")]
+    pub recording_map: Option<PathBuf>,
     /// Base profile for geometry, limits and traction coefficients; the built-in demo when omitted.
     #[arg(long)]
     pub vehicle: Option<PathBuf>,
@@ -45,17 +50,33 @@ pub struct FitArgs {
 pub fn run_fit(a: FitArgs) -> Result<ExitCode> {
     let settings = FitSettings::new(a.horizon_s, &a.sweep)?;
     let outputs = FitOutputs { profile: a.out.clone(), plot: a.plot.clone() };
-    let inputs: Vec<PathBuf> = a.logs.iter().chain(&a.validate).chain(a.vehicle.iter()).cloned().collect();
+    // Limits from the environment (SKIDROUTE_MAX_FILE_MIB, SKIDROUTE_MAX_TOTAL_POINTS).
+    let limits = super::limits::LimitArgs::default().resolve()?;
+    let map = match &a.recording_map {
+        Some(p) => Some(RecordingMap::read(p, &limits)?),
+        None => {
+            if let Some(file) = a.logs.iter().chain(&a.validate).find(|p| is_recording(p)) {
+                return Err(RecordingError::MapNeeded { file: file.clone() }.into());
+            }
+            None
+        }
+    };
+    let map_files = map.as_ref().map(RecordingMap::files).unwrap_or_default();
+    let inputs: Vec<PathBuf> =
+        a.logs.iter().chain(&a.validate).chain(a.vehicle.iter()).chain(&map_files).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, [&outputs.profile].into_iter().chain(outputs.plot.iter()))?;
     let (base, demo) = load_profile(&a.vehicle)?;
     let base_name = match &a.vehicle {
         Some(p) => p.display().to_string(),
         None => "built-in demo profile".to_string(),
     };
-    // Limits from the environment (SKIDROUTE_MAX_FILE_MIB, SKIDROUTE_MAX_TOTAL_POINTS).
-    let limits = super::limits::LimitArgs::default().resolve()?;
-    let logs = a.logs.iter().map(|p| read_log_with(p, &limits)).collect::<Result<Vec<_>, _>>()?;
-    let validation = a.validate.iter().map(|p| read_log_with(p, &limits)).collect::<Result<Vec<_>, _>>()?;
+    // CSV logs and recordings alike; a recording's side speeds from a twist use the profile's track width.
+    let read = |p: &PathBuf| {
+        let bar = Bar::new(a.quiet || a.json || !is_recording(p));
+        read_drive_log(p, map.as_ref(), base.vehicle.track_width_m, &limits, &bar)
+    };
+    let logs = a.logs.iter().map(read).collect::<Result<Vec<_>, _>>()?;
+    let validation = a.validate.iter().map(read).collect::<Result<Vec<_>, _>>()?;
     let bar = Bar::new(a.quiet || a.json);
     let run = fit_logs(&logs, &validation, &base, &base_name, demo, &settings, &bar)?;
     report::write_fit_outputs(&run, &outputs)?;

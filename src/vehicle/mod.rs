@@ -11,6 +11,7 @@ use std::path::{Path, PathBuf};
 use crate::kinematics::{Family, Model};
 
 pub use parse::parse_profile;
+pub(crate) use parse::{describe, suggestion, valid_terrain_name};
 pub use write::profile_to_toml;
 
 /// The built-in demo profile: an invented tracked carrier. Its coefficients are invented for the

@@ -118,7 +118,7 @@ impl Rule {
 }
 
 /// Short description of a TOML value for error messages.
-fn describe(v: &Value) -> String {
+pub(crate) fn describe(v: &Value) -> String {
     match v {
         Value::Integer(i) => i.to_string(),
         Value::Float(f) => f.to_string(),
@@ -170,7 +170,7 @@ fn edit_distance(a: &str, b: &str) -> usize {
 }
 
 /// The allowed key closest to `key`, if it is close enough to be a likely typo.
-fn suggestion<'k>(key: &str, allowed: &[&'k str]) -> Option<&'k str> {
+pub(crate) fn suggestion<'k>(key: &str, allowed: &[&'k str]) -> Option<&'k str> {
     let len = key.chars().count();
     let limit = (len / 3).clamp(1, 3);
     // Lengths further apart than the limit cannot be within it; skipping them keeps a huge
@@ -325,7 +325,7 @@ fn control_rate_hz(s: &Section) -> Result<f64, VehicleError> {
     Ok(hz)
 }
 
-fn valid_terrain_name(name: &str) -> bool {
+pub(crate) fn valid_terrain_name(name: &str) -> bool {
     !name.is_empty() && name.chars().all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_')
 }
 
