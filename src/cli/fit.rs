@@ -8,8 +8,8 @@ use clap::Args;
 use skidroute::fit::{fit_logs, log::read_log_with, FitSettings};
 use skidroute::report::{self, FitOutputs};
 
-use super::load_profile;
 use super::progress::Bar;
+use super::{emit, load_profile};
 
 #[derive(Args)]
 pub struct FitArgs {
@@ -40,6 +40,8 @@ pub struct FitArgs {
     /// Print nothing but errors, and no progress bar.
     #[arg(long)]
     pub quiet: bool,
+    #[command(flatten)]
+    pub limits: super::limits::LimitArgs,
 }
 
 pub fn run_fit(a: FitArgs) -> Result<ExitCode> {
@@ -47,23 +49,23 @@ pub fn run_fit(a: FitArgs) -> Result<ExitCode> {
     let outputs = FitOutputs { profile: a.out.clone(), plot: a.plot.clone() };
     let inputs: Vec<PathBuf> = a.logs.iter().chain(&a.validate).chain(a.vehicle.iter()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, [&outputs.profile].into_iter().chain(outputs.plot.iter()))?;
-    let (base, demo) = load_profile(&a.vehicle)?;
+    let limits = a.limits.resolve()?;
+    let (base, demo) = load_profile(&a.vehicle, &limits)?;
     let base_name = match &a.vehicle {
         Some(p) => p.display().to_string(),
         None => "built-in demo profile".to_string(),
     };
-    // Limits from the environment (SKIDROUTE_MAX_FILE_MIB, SKIDROUTE_MAX_TOTAL_POINTS).
-    let limits = super::limits::LimitArgs::default().resolve()?;
     let logs = a.logs.iter().map(|p| read_log_with(p, &limits)).collect::<Result<Vec<_>, _>>()?;
     let validation = a.validate.iter().map(|p| read_log_with(p, &limits)).collect::<Result<Vec<_>, _>>()?;
     let bar = Bar::new(a.quiet || a.json);
     let run = fit_logs(&logs, &validation, &base, &base_name, demo, &settings, &bar)?;
     report::write_fit_outputs(&run, &outputs)?;
-    if a.json {
-        print!("{}", report::fit_json::fit_json(&run));
+    if a.out.as_os_str() == "-" || report::stdout_is_an_output(&a.plot) {
+        // An output named `-` has standard output to itself.
+    } else if a.json {
+        emit(&report::fit_json::fit_json(&run))?;
     } else if !a.quiet {
-        print!("{}", report::fit_table::fit_table(&run));
-        println!("profile written to {}", a.out.display());
+        emit(&format!("{}profile written to {}\n", report::fit_table::fit_table(&run), a.out.display()))?;
     }
     Ok(if run.failed() { ExitCode::from(1) } else { ExitCode::SUCCESS })
 }

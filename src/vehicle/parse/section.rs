@@ -1,13 +1,21 @@
 //! The table walker shared by every part of the profile: a [`Section`] is one TOML table with
 //! its dotted key path, and reads numbers, strings and booleans from it by [`Rule`]; unknown keys
 //! get a "did you mean" suggestion.
+//!
+//! Reading never stops at the first problem: every error (with its key and line) and every
+//! warning is recorded in the shared [`Diagnostics`], and a value that could not be read is
+//! replaced by a placeholder that satisfies its rule, so the rest of the profile is still
+//! checked. `parse_profile` returns the errors together when there are any, so a placeholder
+//! never leaves the reader.
 
+use std::cell::RefCell;
 use std::path::Path;
 
-use toml::{Table, Value};
+use toml::de::{DeTable, DeValue};
+use toml::Spanned;
 
 use crate::kinematics::Family;
-use crate::limits::clip;
+use crate::limits::{clip, show_number};
 use crate::vehicle::VehicleError;
 
 /// What a number must be.
@@ -42,33 +50,65 @@ impl Rule {
                 Rule::Fraction => x > 0.0 && x <= 1.0,
             }
     }
+
+    /// A value that satisfies the rule, standing in for one that could not be read.
+    fn placeholder(self) -> f64 {
+        match self {
+            Rule::Negative => -1.0,
+            Rule::Finite | Rule::NonNegative => 0.0,
+            Rule::Positive | Rule::Fraction => 1.0,
+        }
+    }
+}
+
+/// The physically possible and the usual range of a quantity. A value above `max` is an error
+/// (it would make the simulation meaningless and the reports unreadable); a value outside
+/// `usual` is a warning, since it is most often a unit mistake (`hint`).
+#[derive(Debug, Clone, Copy)]
+pub(super) struct Plausible {
+    pub unit: &'static str,
+    pub max: f64,
+    pub usual: (f64, f64),
+    pub hint: &'static str,
 }
 
 /// Short description of a TOML value for error messages.
-pub(super) fn describe(v: &Value) -> String {
+pub(super) fn describe(v: &DeValue) -> String {
     match v {
-        Value::Integer(i) => i.to_string(),
-        Value::Float(f) => f.to_string(),
-        Value::String(s) => format!("the string {:?}", clip(s)),
-        Value::Boolean(b) => format!("the boolean {b}"),
-        Value::Datetime(d) => format!("the date-time {d}"),
-        Value::Array(_) => "an array".to_string(),
-        Value::Table(_) => "a table".to_string(),
+        DeValue::Integer(_) | DeValue::Float(_) => match number_of(v) {
+            Some(x) => show_number(x),
+            None => clip(&v_text(v)).into_owned(),
+        },
+        DeValue::String(s) => format!("the string {:?}", clip(s)),
+        DeValue::Boolean(b) => format!("the boolean {b}"),
+        DeValue::Datetime(d) => format!("the date-time {d}"),
+        DeValue::Array(_) => "an array".to_string(),
+        DeValue::Table(_) => "a table".to_string(),
+    }
+}
+
+fn v_text(v: &DeValue) -> String {
+    match v {
+        DeValue::Integer(i) => i.to_string(),
+        DeValue::Float(f) => f.to_string(),
+        _ => String::new(),
+    }
+}
+
+/// The value of a TOML integer or float (integers are accepted wherever a number is expected).
+fn number_of(v: &DeValue) -> Option<f64> {
+    match v {
+        DeValue::Integer(i) => i64::from_str_radix(i.as_str(), i.radix()).ok().map(|n| n as f64),
+        DeValue::Float(f) => f.as_str().replace('_', "").parse::<f64>().ok(),
+        _ => None,
     }
 }
 
 /// The number in `v` if it satisfies `rule`, otherwise the "must be ..., got ..." message.
-/// TOML integers are accepted wherever a number is expected.
-pub(super) fn check_number(v: &Value, rule: Rule) -> Result<f64, String> {
-    let x = match v {
-        Value::Integer(i) => *i as f64,
-        Value::Float(f) => *f,
-        _ => return Err(format!("must be {}, got {}", rule.expected(), describe(v))),
-    };
-    if rule.accepts(x) {
-        Ok(x)
-    } else {
-        Err(format!("must be {}, got {}", rule.expected(), describe(v)))
+pub(super) fn check_number(v: &DeValue, rule: Rule) -> Result<f64, String> {
+    match number_of(v) {
+        Some(x) if rule.accepts(x) => Ok(x),
+        _ => Err(format!("must be {}, got {}", rule.expected(), describe(v))),
     }
 }
 
@@ -111,14 +151,95 @@ pub(super) fn suggestion<'k>(key: &str, allowed: &[&'k str]) -> Option<&'k str> 
         .map(|(_, k)| k)
 }
 
+/// Every error and warning found in one profile, with the line of each.
+pub(super) struct Diagnostics<'a> {
+    pub file: &'a Path,
+    text: &'a str,
+    errors: RefCell<Vec<(usize, VehicleError)>>,
+    /// Missing keys by table (its path and the line that names it), listed together.
+    missing: RefCell<Vec<(String, usize, String)>>,
+    warnings: RefCell<Vec<(usize, String)>>,
+}
+
+impl<'a> Diagnostics<'a> {
+    pub fn new(file: &'a Path, text: &'a str) -> Self {
+        Diagnostics {
+            file,
+            text,
+            errors: RefCell::new(Vec::new()),
+            missing: RefCell::new(Vec::new()),
+            warnings: RefCell::new(Vec::new()),
+        }
+    }
+
+    /// The 1-based line of a byte offset in the text.
+    pub fn line_of(&self, offset: usize) -> usize {
+        self.text.get(..offset).unwrap_or(self.text).bytes().filter(|&b| b == b'\n').count() + 1
+    }
+
+    pub fn error_count(&self) -> usize {
+        self.errors.borrow().len() + self.missing.borrow().len()
+    }
+
+    fn missing(&self, table: &str, offset: usize, key_and_expected: String) {
+        self.missing.borrow_mut().push((table.to_string(), self.line_of(offset), key_and_expected));
+    }
+
+    fn error(&self, key: String, offset: usize, what: String) {
+        let line = self.line_of(offset);
+        self.errors.borrow_mut().push((line, VehicleError::Key { file: self.file.to_path_buf(), key, what, line }));
+    }
+
+    fn warn(&self, key: &str, offset: usize, what: String) {
+        let line = self.line_of(offset);
+        self.warnings.borrow_mut().push((line, format!("{}: {key}: {what} (line {line})", self.file.display())));
+    }
+
+    /// The errors in line order (one error alone, or all of them), or the warnings in line order.
+    pub fn finish(self) -> Result<Vec<String>, VehicleError> {
+        let mut errors = self.errors.into_inner();
+        // One line per table for its missing keys.
+        let mut missing = self.missing.into_inner();
+        while let Some((table, line, _)) = missing.first().cloned() {
+            let (these, rest): (Vec<_>, Vec<_>) = missing.into_iter().partition(|(t, _, _)| *t == table);
+            missing = rest;
+            let keys: Vec<String> = these.into_iter().map(|(_, _, k)| k).collect();
+            let what = if keys.len() == 1 {
+                format!("missing required key {}", keys[0])
+            } else {
+                format!("missing required keys: {}", keys.join(", "))
+            };
+            let key = if table.is_empty() { "top level".to_string() } else { table };
+            errors.push((line, VehicleError::Key { file: self.file.to_path_buf(), key, what, line }));
+        }
+        errors.sort_by_key(|(line, _)| *line);
+        let mut errors: Vec<VehicleError> = errors.into_iter().map(|(_, e)| e).collect();
+        match errors.len() {
+            0 => {
+                let mut warnings = self.warnings.into_inner();
+                warnings.sort_by_key(|(line, _)| *line);
+                Ok(warnings.into_iter().map(|(_, w)| w).collect())
+            }
+            1 => Err(errors.remove(0)),
+            _ => Err(VehicleError::Several { errors }),
+        }
+    }
+}
+
 /// One TOML table being validated, with its dotted path for messages.
 pub(super) struct Section<'a> {
-    pub(super) file: &'a Path,
+    pub(super) diag: &'a Diagnostics<'a>,
     pub(super) prefix: String,
-    pub(super) table: &'a Table,
+    pub(super) table: &'a DeTable<'a>,
+    /// Byte offset where the table is named (its header), for "missing key" messages.
+    pub(super) at: usize,
 }
 
 impl<'a> Section<'a> {
+    pub(super) fn root(diag: &'a Diagnostics<'a>, table: &'a DeTable<'a>) -> Section<'a> {
+        Section { diag, prefix: String::new(), table, at: 0 }
+    }
+
     pub(super) fn key_path(&self, key: &str) -> String {
         if self.prefix.is_empty() {
             clip(key).into_owned()
@@ -127,68 +248,172 @@ impl<'a> Section<'a> {
         }
     }
 
-    pub(super) fn error(&self, key: &str, what: impl Into<String>) -> VehicleError {
-        VehicleError::Key { file: self.file.to_path_buf(), key: self.key_path(key), what: what.into() }
+    /// The offset of `key`'s value (or of the key when it is a table), else of this table.
+    fn offset_of(&self, key: &str) -> usize {
+        match self.table.get_key_value(key) {
+            Some((k, v)) if matches!(v.get_ref(), DeValue::Table(_)) => k.span().start,
+            Some((_, v)) => v.span().start,
+            None => self.at,
+        }
     }
 
-    /// Rejects any key not in `allowed`; for terrain tables `family` adds a hint when the key
+    /// Records an error about `key` (at its line, or the table's when it is missing).
+    pub(super) fn error(&self, key: &str, what: impl Into<String>) {
+        self.diag.error(self.key_path(key), self.offset_of(key), what.into());
+    }
+
+    /// Records an error about the table itself.
+    pub(super) fn table_error(&self, what: impl Into<String>) {
+        self.diag.error(self.prefix.clone(), self.at, what.into());
+    }
+
+    /// Records a warning about `key`.
+    pub(super) fn warn(&self, key: &str, what: impl Into<String>) {
+        self.diag.warn(&self.key_path(key), self.offset_of(key), what.into());
+    }
+
+    /// The number of errors recorded so far (to skip checks that build on values with errors).
+    pub(super) fn errors(&self) -> usize {
+        self.diag.error_count()
+    }
+
+    /// Records every key not in `allowed`; for terrain tables `family` adds a hint when the key
     /// belongs to another model family.
-    pub(super) fn check_keys(&self, allowed: &[&str], family: Option<Family>) -> Result<(), VehicleError> {
-        let Some(key) = self.table.keys().find(|k| !allowed.contains(&k.as_str())) else {
-            return Ok(());
-        };
-        if let Some(near) = suggestion(key, allowed) {
-            return Err(self.error(key, format!("unknown key (did you mean {near}?)")));
+    pub(super) fn check_keys(&self, allowed: &[&str], family: Option<Family>) {
+        for (k, _) in self.table.iter() {
+            let key: &str = k.get_ref();
+            if allowed.contains(&key) {
+                continue;
+            }
+            let offset = k.span().start;
+            let what = if let Some(near) = suggestion(key, allowed) {
+                format!("unknown key (did you mean {near}?)")
+            } else {
+                match family.map(|f| (f, owners(key))) {
+                    Some((family, owners)) if !owners.is_empty() => {
+                        format!("unknown key for model {family} (it belongs to model {})", owners.join(", "))
+                    }
+                    _ => "unknown key".to_string(),
+                }
+            };
+            self.diag.error(self.key_path(key), offset, what);
         }
-        if let Some(family) = family {
-            let owners: Vec<&str> = Family::ALL
-                .into_iter()
-                .filter(|f| {
-                    f.param_names().contains(&key.as_str()) || (key == "schedule" && *f == Family::ExtendedScheduled)
-                })
-                .map(Family::name)
-                .collect();
-            if !owners.is_empty() {
-                let what = format!("unknown key for model {family} (it belongs to model {})", owners.join(", "));
-                return Err(self.error(key, what));
+    }
+
+    pub(super) fn get(&self, key: &str) -> Option<&'a Spanned<DeValue<'a>>> {
+        self.table.get(key)
+    }
+
+    pub(super) fn required(&self, key: &str, expected: &str) -> Option<&'a DeValue<'a>> {
+        match self.table.get(key) {
+            Some(v) => Some(v.get_ref()),
+            None => {
+                self.missing(key, expected);
+                None
             }
         }
-        Err(self.error(key, "unknown key"))
     }
 
-    pub(super) fn required(&self, key: &str, expected: &str) -> Result<&'a Value, VehicleError> {
-        self.table.get(key).ok_or_else(|| self.error(key, format!("missing required key, expected {expected}")))
+    /// Records `key` as missing (listed with the table's other missing keys).
+    pub(super) fn missing(&self, key: &str, expected: &str) {
+        self.diag.missing(&self.prefix, self.at, format!("{} ({expected})", clip(key)));
     }
 
-    pub(super) fn table(&self, key: &str) -> Result<Section<'a>, VehicleError> {
-        match self.required(key, "a table")? {
-            Value::Table(t) => Ok(Section { file: self.file, prefix: self.key_path(key), table: t }),
-            v => Err(self.error(key, format!("must be a table, got {}", describe(v)))),
+    /// The sub-table `key` (an empty one stands in when it is missing or not a table).
+    pub(super) fn table(&self, key: &str) -> Option<Section<'a>> {
+        let (k, v) = match self.table.get_key_value(key) {
+            Some(kv) => kv,
+            None => {
+                self.missing(key, "a table");
+                return None;
+            }
+        };
+        match v.get_ref() {
+            DeValue::Table(t) => {
+                Some(Section { diag: self.diag, prefix: self.key_path(key), table: t, at: k.span().start })
+            }
+            other => {
+                self.error(key, format!("must be a table, got {}", describe(other)));
+                None
+            }
         }
     }
 
-    pub(super) fn number(&self, key: &str, rule: Rule) -> Result<f64, VehicleError> {
-        check_number(self.required(key, rule.expected())?, rule).map_err(|what| self.error(key, what))
+    /// The number `key`, or `None` (error recorded) when it is missing or breaks `rule`.
+    pub(super) fn number_opt(&self, key: &str, rule: Rule) -> Option<f64> {
+        let v = self.required(key, rule.expected())?;
+        check_number(v, rule).map_err(|what| self.error(key, what)).ok()
     }
 
-    pub(super) fn optional_number(&self, key: &str, rule: Rule) -> Result<Option<f64>, VehicleError> {
-        match self.table.get(key) {
-            None => Ok(None),
-            Some(v) => check_number(v, rule).map(Some).map_err(|what| self.error(key, what)),
+    /// The number `key`; a placeholder when it is missing or breaks `rule` (error recorded).
+    pub(super) fn number(&self, key: &str, rule: Rule) -> f64 {
+        self.number_opt(key, rule).unwrap_or(rule.placeholder())
+    }
+
+    pub(super) fn optional_number(&self, key: &str, rule: Rule) -> Option<f64> {
+        let v = self.table.get(key)?;
+        check_number(v.get_ref(), rule).map_err(|what| self.error(key, what)).ok()
+    }
+
+    /// [`Section::number`] within the plausible range `p` (above `p.max` an error, outside
+    /// `p.usual` a warning).
+    pub(super) fn plausible_number(&self, key: &str, rule: Rule, p: &Plausible) -> f64 {
+        match self.number_opt(key, rule) {
+            Some(x) => self.plausible(key, x, p),
+            None => rule.placeholder(),
         }
     }
 
-    pub(super) fn string(&self, key: &str) -> Result<&'a str, VehicleError> {
-        match self.required(key, "a string")? {
-            Value::String(s) => Ok(s),
-            v => Err(self.error(key, format!("must be a string, got {}", describe(v)))),
+    /// [`Section::optional_number`] within the plausible range `p`.
+    pub(super) fn optional_plausible_number(&self, key: &str, rule: Rule, p: &Plausible) -> Option<f64> {
+        self.optional_number(key, rule).map(|x| self.plausible(key, x, p))
+    }
+
+    /// Checks a value read from `key` against `p`, recording an error or a warning.
+    pub(super) fn plausible(&self, key: &str, x: f64, p: &Plausible) -> f64 {
+        let hint = if p.hint.is_empty() { String::new() } else { format!(" ({})", p.hint) };
+        let unit = if p.unit.is_empty() { String::new() } else { format!(" {}", p.unit) };
+        if x.abs() > p.max {
+            self.error(
+                key,
+                format!("{}{unit} is beyond the possible {}{unit}{hint}", show_number(x), show_number(p.max)),
+            );
+        } else if x < p.usual.0 || x > p.usual.1 {
+            let (lo, hi) = (show_number(p.usual.0), show_number(p.usual.1));
+            self.warn(key, format!("{}{unit} is unusual, expected {lo} to {hi}{unit}{hint}", show_number(x)));
+        }
+        x
+    }
+
+    /// The string `key`; empty when it is missing or not a string (error recorded).
+    pub(super) fn string(&self, key: &str) -> &'a str {
+        match self.required(key, "a string") {
+            Some(DeValue::String(s)) => s,
+            Some(v) => {
+                self.error(key, format!("must be a string, got {}", describe(v)));
+                ""
+            }
+            None => "",
         }
     }
 
-    pub(super) fn boolean(&self, key: &str) -> Result<bool, VehicleError> {
-        match self.required(key, "true or false")? {
-            Value::Boolean(b) => Ok(*b),
-            v => Err(self.error(key, format!("must be true or false, got {}", describe(v)))),
+    pub(super) fn boolean(&self, key: &str) -> bool {
+        match self.required(key, "true or false") {
+            Some(DeValue::Boolean(b)) => *b,
+            Some(v) => {
+                self.error(key, format!("must be true or false, got {}", describe(v)));
+                false
+            }
+            None => false,
         }
     }
+}
+
+/// The model families a parameter key belongs to.
+fn owners(key: &str) -> Vec<&'static str> {
+    Family::ALL
+        .into_iter()
+        .filter(|f| f.param_names().contains(&key) || (key == "schedule" && *f == Family::ExtendedScheduled))
+        .map(Family::name)
+        .collect()
 }
