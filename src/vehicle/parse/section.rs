@@ -204,10 +204,13 @@ impl<'a> Diagnostics<'a> {
             let (these, rest): (Vec<_>, Vec<_>) = missing.into_iter().partition(|(t, _, _)| *t == table);
             missing = rest;
             let keys: Vec<String> = these.into_iter().map(|(_, _, k)| k).collect();
-            let what = if keys.len() == 1 {
-                format!("missing required key {}", keys[0])
-            } else {
-                format!("missing required keys: {}", keys.join(", "))
+            let what = match keys.as_slice() {
+                [one] => format!("missing required key {one}"),
+                // Several: the names alone, to keep the line short.
+                many => {
+                    let names: Vec<&str> = many.iter().map(|k| k.split(" (").next().unwrap_or(k)).collect();
+                    format!("missing required keys: {}", names.join(", "))
+                }
             };
             let key = if table.is_empty() { "top level".to_string() } else { table };
             errors.push((line, VehicleError::Key { file: self.file.to_path_buf(), key, what, line }));
