@@ -22,7 +22,7 @@ pub struct LimitArgs {
     /// Most simulation steps per route [env: SKIDROUTE_MAX_STEPS; default 5000000].
     #[arg(long, value_name = "N", value_parser = clap::value_parser!(u64).range(1..))]
     pub max_steps: Option<u64>,
-    /// Most simulation steps over the whole run (routes x samples) [env: SKIDROUTE_MAX_WORK_STEPS; default 2000000000].
+    /// Most simulation steps over the whole run (routes x samples) [env: SKIDROUTE_MAX_WORK_STEPS; default 1000000000].
     #[arg(long, value_name = "N", value_parser = clap::value_parser!(u64).range(1..))]
     pub max_work_steps: Option<u64>,
 }
