@@ -390,15 +390,20 @@ fn judge(leg: &mut LegReport, achievable: &Achievable, drive: &RouteDrive, trace
         CurvatureLimit::Traction => format!("thrust against traction on {}", leg.terrain),
     };
     let at = format!("{:.0} m along the route", leg.tightest_turn_at_m);
+    // A vehicle that cannot turn at all has no tightest radius to print (never "inf m").
+    let tightest = if ach > 0.0 && (1.0 / ach).is_finite() {
+        format!("the tightest is {:.1} m", 1.0 / ach)
+    } else {
+        "it cannot turn at all".to_string()
+    };
     if req > ach {
         add(
             Verdict::Fail,
             format!(
-                "turn needs radius {:.1} m ({at}); at {:.1} m/s on {} the tightest is {:.1} m ({limiter})",
+                "turn needs radius {:.1} m ({at}); at {:.1} m/s on {} {tightest} ({limiter})",
                 1.0 / req,
                 leg.speed_mps,
-                leg.terrain,
-                1.0 / ach
+                leg.terrain
             ),
         );
     } else if req > CAUTION_CURVATURE_SHARE * ach {

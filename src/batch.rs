@@ -79,6 +79,50 @@ pub fn load_routes_parallel_with(paths: &[PathBuf], profile: &Profile, limits: &
     Ok(routes)
 }
 
+/// A route file that could not be read, for `--keep-going`: its path and the one-line message.
+#[derive(Debug, Clone)]
+pub struct BadFile {
+    pub file: PathBuf,
+    pub error: String,
+}
+
+/// [`load_routes_parallel_with`] that goes on past bad files: every file that cannot be read,
+/// names an unknown terrain, or breaks a per-route or run limit is returned as a [`BadFile`]
+/// (in input order) and its routes are left out; the other files' routes come back in order.
+pub fn load_routes_keep_going(paths: &[PathBuf], profile: &Profile, limits: &Limits) -> (Vec<Route>, Vec<BadFile>) {
+    let known = profile.terrain_names();
+    let per_file: Vec<Result<Vec<Route>, RouteError>> = paths
+        .par_iter()
+        .map(|p| {
+            let routes = read_routes_with(p, limits)?;
+            for r in &routes {
+                check_terrains(r, &known)?;
+                crate::check::check_run_limits(std::slice::from_ref(r), profile, limits)?;
+            }
+            Ok(routes)
+        })
+        .collect();
+    let (mut routes, mut bad, mut total_points) = (Vec::new(), Vec::new(), 0usize);
+    for (path, r) in paths.iter().zip(per_file) {
+        let file_routes = match r {
+            Ok(file_routes) => file_routes,
+            Err(e) => {
+                bad.push(BadFile { file: path.clone(), error: e.to_string() });
+                continue;
+            }
+        };
+        let points: usize = file_routes.iter().flat_map(|r| &r.legs).map(|l| l.points.len()).sum();
+        if total_points.saturating_add(points) > limits.max_total_points {
+            let what = crate::route::too_many_total_points(total_points.saturating_add(points), limits);
+            bad.push(BadFile { file: path.clone(), error: format!("{}: {what}", path.display()) });
+            continue;
+        }
+        total_points += points;
+        routes.extend(file_routes);
+    }
+    (routes, bad)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -106,6 +150,20 @@ mod tests {
         assert_eq!(lines.lines().count(), 1000);
         let again = check_routes(load_routes_parallel(&files, &profile).expect("load"), &profile, true);
         assert_eq!(crate::report::jsonl::check_jsonl(&again), lines);
+    }
+
+    #[test]
+    fn keep_going_reports_bad_files_and_reads_the_rest() {
+        let dir = tempfile::tempdir().expect("tempdir");
+        let good = dir.path().join("a.csv");
+        std::fs::write(&good, "x_m,y_m,terrain\n0,0,asphalt\n10,0,asphalt\n").expect("write");
+        let bad = dir.path().join("b.csv");
+        std::fs::write(&bad, "x_m,y_m,terrain\n0,0,lava\n10,0,lava\n").expect("write");
+        let (routes, errors) = load_routes_keep_going(&[bad.clone(), good], &Profile::demo(), &Limits::default());
+        assert_eq!(routes.len(), 1);
+        assert_eq!(errors.len(), 1);
+        assert_eq!(errors[0].file, bad);
+        assert!(errors[0].error.contains("unknown terrain 'lava'"), "{}", errors[0].error);
     }
 
     #[test]

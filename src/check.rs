@@ -81,6 +81,29 @@ pub fn check_run_limits(routes: &[Route], profile: &Profile, limits: &Limits) ->
     Ok(())
 }
 
+/// The simulation work of rolling every route out once, in control steps: the sum of their step
+/// bounds ([`step_bound`]). A drift estimate costs this times its samples; the CLI charges it to
+/// the run's [`crate::limits::WorkBudget`] before simulating.
+pub fn work_steps(routes: &[Route], profile: &Profile) -> f64 {
+    routes.iter().map(|r| step_bound(r, profile)).sum()
+}
+
+/// Charges `rollouts` rollouts of every route to `budget`, up front; the message counts the
+/// routes and says what the work is for (`what`, e.g. "checking").
+pub fn charge_work(
+    budget: &crate::limits::WorkBudget,
+    routes: &[Route],
+    profile: &Profile,
+    rollouts: u64,
+    what: &str,
+) -> Result<(), crate::limits::WorkBudgetError> {
+    budget.charge_rollouts(work_steps(routes, profile), rollouts, || {
+        let n = routes.len();
+        let times = if rollouts == 1 { String::new() } else { format!(" {rollouts} times") };
+        format!("{what} {n} route{}{times}", if n == 1 { "" } else { "s" })
+    })
+}
+
 /// Refuses a route whose rollout could need more than `limits.max_rollout_steps` steps.
 fn check_step_bound(route: &Route, profile: &Profile, limits: &Limits) -> Result<(), RouteError> {
     let steps = step_bound(route, profile);

@@ -1,5 +1,7 @@
 //! Resource limits for hostile or runaway inputs: file size, points per leg, legs per route,
-//! points per run (and rows per drive log), simulation steps per route and Monte Carlo samples.
+//! points per run (and rows per drive log), simulation steps per route, simulation work over a
+//! whole run ([`WorkBudget`]) and Monte Carlo samples; the plausible range of speeds and corridors;
+//! and the escaping of input text quoted in messages ([`printable`], [`clip`]).
 //!
 //! Every limit is checked before the memory it guards is allocated, and exceeding one is an
 //! input error (exit code 2) whose message names the file, the position, the limit and how to
@@ -27,6 +29,12 @@ pub const DEFAULT_MAX_TOTAL_POINTS: usize = 20_000_000;
 /// trace per step, so the default bounds one trace near 1 GB. At 20 Hz it admits routes of about
 /// 30 h of planned driving.
 pub const DEFAULT_MAX_ROLLOUT_STEPS: u64 = 5_000_000;
+/// Most control steps a whole run may simulate, counted from step bounds: every route's step
+/// bound, times the Monte Carlo samples of a drift estimate, plus any further rollouts a command
+/// makes (relax checks the route before and after). Step bounds are about three times the steps
+/// a run takes (2000 drift samples of the supply-run example: a bound of 53.6 million, 17.1
+/// million taken, in 9.7 s on two busy cores), so the default admits a few minutes of work.
+pub const DEFAULT_MAX_WORK_STEPS: u64 = 1_000_000_000;
 /// Most Monte Carlo samples one `drift` run may draw (its `--samples` flag is checked against
 /// this by the drift module); not configurable, since each sample's cost is already bounded by the
 /// route's step bound.
@@ -38,6 +46,41 @@ pub const MAX_SAMPLES: usize = 1_000_000;
 pub const MAX_ABS_COORDINATE_M: f64 = 1e8;
 /// Largest magnitude of an altitude (CSV `z_m`, GeoJSON third coordinate), metres.
 pub const MAX_ABS_ALTITUDE_M: f64 = 1e5;
+/// Slowest planned leg speed, m/s: the speed the follower creeps at on its final approach. A
+/// slower plan would be simulated for days of vehicle time and is almost always a unit mistake.
+pub const MIN_SPEED_MPS: f64 = 0.05;
+/// Fastest planned leg speed, m/s (360 km/h): far beyond any skid-steered vehicle, so a larger
+/// value is a unit mistake (mm/s, km/h) or garbage.
+pub const MAX_SPEED_MPS: f64 = 100.0;
+/// Widest corridor, metres either side.
+pub const MAX_CORRIDOR_M: f64 = 1e4;
+
+/// A planned speed within [`MIN_SPEED_MPS`, `MAX_SPEED_MPS`], or the reason it is not.
+pub fn check_speed_mps(speed_mps: f64) -> Result<f64, String> {
+    if !speed_mps.is_finite() || speed_mps <= 0.0 {
+        Err(format!("{} must be > 0", show_number(speed_mps)))
+    } else if speed_mps < MIN_SPEED_MPS {
+        Err(format!(
+            "{} m/s is slower than {MIN_SPEED_MPS} m/s, the slowest speed simulated (is it in m/s?)",
+            show_number(speed_mps)
+        ))
+    } else if speed_mps > MAX_SPEED_MPS {
+        Err(format!("{} m/s is faster than {MAX_SPEED_MPS} m/s (is it in m/s?)", show_number(speed_mps)))
+    } else {
+        Ok(speed_mps)
+    }
+}
+
+/// A corridor half-width within (0, [`MAX_CORRIDOR_M`]], or the reason it is not.
+pub fn check_corridor_m(corridor_m: f64) -> Result<f64, String> {
+    if !corridor_m.is_finite() || corridor_m <= 0.0 {
+        Err(format!("{} must be > 0", show_number(corridor_m)))
+    } else if corridor_m > MAX_CORRIDOR_M {
+        Err(format!("{} m is wider than {MAX_CORRIDOR_M} m (is it in metres?)", show_number(corridor_m)))
+    } else {
+        Ok(corridor_m)
+    }
+}
 
 /// The limits of one run. `Limits::default()` holds the documented defaults.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -47,6 +90,8 @@ pub struct Limits {
     pub max_legs_per_route: usize,
     pub max_total_points: usize,
     pub max_rollout_steps: u64,
+    /// Most control steps over the whole run ([`WorkBudget`]).
+    pub max_work_steps: u64,
 }
 
 impl Default for Limits {
@@ -57,6 +102,7 @@ impl Default for Limits {
             max_legs_per_route: DEFAULT_MAX_LEGS_PER_ROUTE,
             max_total_points: DEFAULT_MAX_TOTAL_POINTS,
             max_rollout_steps: DEFAULT_MAX_ROLLOUT_STEPS,
+            max_work_steps: DEFAULT_MAX_WORK_STEPS,
         }
     }
 }
@@ -72,19 +118,20 @@ pub struct LimitSettingError {
 impl Limits {
     /// Environment variables that override the defaults, with the limit each sets:
     /// file size in MiB, points per leg, legs per route, total points (also drive-log rows),
-    /// rollout steps.
-    pub const ENV: [&'static str; 5] = [
+    /// rollout steps, work over the run.
+    pub const ENV: [&'static str; 6] = [
         "SKIDROUTE_MAX_FILE_MIB",
         "SKIDROUTE_MAX_POINTS_PER_LEG",
         "SKIDROUTE_MAX_LEGS_PER_ROUTE",
         "SKIDROUTE_MAX_TOTAL_POINTS",
         "SKIDROUTE_MAX_STEPS",
+        "SKIDROUTE_MAX_WORK_STEPS",
     ];
 
     /// These limits with overrides from `lookup` (the binary passes the process environment;
     /// the library never reads it). Unset or empty variables keep the current value.
     pub fn with_overrides(mut self, lookup: impl Fn(&str) -> Option<String>) -> Result<Limits, LimitSettingError> {
-        let [file, per_leg, legs, total, steps] = Self::ENV;
+        let [file, per_leg, legs, total, steps, work] = Self::ENV;
         if let Some(mib) = setting(file, &lookup)? {
             self.max_file_bytes = mib.saturating_mul(1024 * 1024);
         }
@@ -100,7 +147,15 @@ impl Limits {
         if let Some(n) = setting(steps, &lookup)? {
             self.max_rollout_steps = n;
         }
+        if let Some(n) = setting(work, &lookup)? {
+            self.max_work_steps = n;
+        }
         Ok(self)
+    }
+
+    /// A fresh work budget of [`Limits::max_work_steps`] for one run.
+    pub fn work_budget(&self) -> WorkBudget {
+        WorkBudget::new(self.max_work_steps)
     }
 
     /// The file-size limit in MiB, for messages.
@@ -124,14 +179,124 @@ fn setting(name: &str, lookup: &impl Fn(&str) -> Option<String>) -> Result<Optio
     }
 }
 
-/// Input text quoted in a message, shortened to its first 60 characters when longer than 80,
-/// so a hostile megabyte-long key or cell does not flood the terminal.
-pub fn clip(text: &str) -> std::borrow::Cow<'_, str> {
-    if text.chars().count() <= 80 {
+/// The simulation work of one run, in control steps, shared by everything the run simulates.
+///
+/// Work is charged up front, before it is done, from step bounds (a route's time bound times its
+/// control rate, [`crate::rollout::step_bound`]): a run whose work would exceed the budget is
+/// refused before anything is simulated, with a message naming `--max-work-steps` and
+/// `SKIDROUTE_MAX_WORK_STEPS`. The counter is atomic, so parallel code (rayon) may charge it;
+/// a charge that does not fit leaves the counter unchanged.
+///
+/// ```
+/// use skidroute::limits::WorkBudget;
+/// let budget = WorkBudget::new(1000);
+/// budget.charge(600, || "drift of route 'a'".into()).unwrap();
+/// assert!(budget.charge(600, || "drift of route 'b'".into()).is_err());
+/// assert_eq!(budget.used(), 600);
+/// ```
+#[derive(Debug)]
+pub struct WorkBudget {
+    limit: u64,
+    used: std::sync::atomic::AtomicU64,
+}
+
+/// A run whose simulation work would exceed its [`WorkBudget`].
+#[derive(Debug, thiserror::Error)]
+#[error(
+    "{what} could take up to {needed} control steps, and the run has {left} of its work budget of {limit} left; \
+     reduce the routes or samples, or raise the budget with --max-work-steps or SKIDROUTE_MAX_WORK_STEPS"
+)]
+pub struct WorkBudgetError {
+    pub what: String,
+    pub needed: u64,
+    pub left: u64,
+    pub limit: u64,
+}
+
+impl WorkBudget {
+    /// A budget of `limit` control steps, none used yet.
+    pub fn new(limit: u64) -> WorkBudget {
+        WorkBudget { limit, used: std::sync::atomic::AtomicU64::new(0) }
+    }
+
+    /// A budget that never refuses (for library callers that bound their own work).
+    pub fn unlimited() -> WorkBudget {
+        WorkBudget::new(u64::MAX)
+    }
+
+    /// Reserves `steps` of work; `what` describes it for the message when it does not fit.
+    pub fn charge(&self, steps: u64, what: impl FnOnce() -> String) -> Result<(), WorkBudgetError> {
+        use std::sync::atomic::Ordering;
+        let fits = |used: u64| used.checked_add(steps).filter(|&total| total <= self.limit);
+        match self.used.fetch_update(Ordering::SeqCst, Ordering::SeqCst, fits) {
+            Ok(_) => Ok(()),
+            Err(used) => Err(WorkBudgetError {
+                what: what(),
+                needed: steps,
+                left: self.limit.saturating_sub(used),
+                limit: self.limit,
+            }),
+        }
+    }
+
+    /// [`WorkBudget::charge`] for a step bound given as a float (as `rollout::step_bound` returns
+    /// it) times a count of rollouts; a huge or non-finite product never fits.
+    pub fn charge_rollouts(
+        &self,
+        step_bound: f64,
+        rollouts: u64,
+        what: impl FnOnce() -> String,
+    ) -> Result<(), WorkBudgetError> {
+        let steps = step_bound * rollouts as f64;
+        let steps =
+            if steps.is_finite() && steps >= 0.0 && steps < u64::MAX as f64 { steps.ceil() as u64 } else { u64::MAX };
+        self.charge(steps, what)
+    }
+
+    /// Control steps reserved so far.
+    pub fn used(&self) -> u64 {
+        self.used.load(std::sync::atomic::Ordering::SeqCst)
+    }
+
+    /// The budget, in control steps.
+    pub fn limit(&self) -> u64 {
+        self.limit
+    }
+}
+
+/// Text from an input made safe to print: control characters (C0, DEL, C1: escape sequences,
+/// bell, carriage return, NUL, newlines, tabs) and the bidirectional overrides become visible
+/// escapes such as `\n` and `\u{1b}`, so a name cannot move the cursor, recolour the terminal,
+/// or split one message into two lines. Borrowed when nothing needs escaping.
+pub fn printable(text: &str) -> std::borrow::Cow<'_, str> {
+    fn unsafe_char(c: char) -> bool {
+        c.is_control() || matches!(c, '\u{202a}'..='\u{202e}' | '\u{2066}'..='\u{2069}')
+    }
+    if !text.chars().any(unsafe_char) {
         return std::borrow::Cow::Borrowed(text);
     }
+    let mut out = String::with_capacity(text.len() + 8);
+    for c in text.chars() {
+        match c {
+            '\n' => out.push_str("\\n"),
+            '\r' => out.push_str("\\r"),
+            '\t' => out.push_str("\\t"),
+            '\0' => out.push_str("\\0"),
+            c if unsafe_char(c) => out.push_str(&format!("\\u{{{:x}}}", c as u32)),
+            c => out.push(c),
+        }
+    }
+    std::borrow::Cow::Owned(out)
+}
+
+/// Input text quoted in a message: [`printable`], and shortened to its first 60 characters when
+/// longer than 80, so a hostile megabyte-long key or cell does not flood the terminal.
+pub fn clip(text: &str) -> std::borrow::Cow<'_, str> {
+    if text.chars().count() <= 80 {
+        return printable(text);
+    }
     let head: String = text.chars().take(60).collect();
-    std::borrow::Cow::Owned(format!("{head}... ({} bytes in all)", text.len()))
+    std::borrow::Cow::Owned(format!("{}... ({} bytes in all)", printable(&head), text.len()))
 }
 
 /// A number from the input for a message: plain when moderate, in exponent form when huge or
@@ -155,18 +320,27 @@ pub enum ReadLimitedError {
     TooLarge { limit_mib: f64 },
     #[error("is not UTF-8 text (first invalid byte at offset {offset})")]
     NotUtf8 { offset: usize },
+    #[error("is not a regular file (a FIFO, device or socket); save the input to a file and name that")]
+    NotRegular,
 }
 
 /// Reads a text file of at most `max_bytes`. The size is checked from the metadata before
-/// anything is read, and again while reading (a pipe or a growing file has no reliable size),
-/// so a huge or endless input never fills memory.
+/// anything is read, and again while reading (a growing file has no reliable size), so a huge
+/// or endless input never fills memory.
+///
+/// Only regular files are read: a FIFO, a device or a socket is refused before it is opened,
+/// since opening a FIFO that no program writes to would wait forever.
 pub fn read_text_limited(path: &Path, max_bytes: u64) -> Result<String, ReadLimitedError> {
     let limit_mib = max_bytes as f64 / (1024.0 * 1024.0);
-    let file = std::fs::File::open(path)?;
-    let meta = file.metadata()?;
-    if meta.is_dir() {
+    let kind = std::fs::metadata(path)?.file_type();
+    if kind.is_dir() {
         return Err(std::io::Error::other("is a directory").into());
     }
+    if !kind.is_file() {
+        return Err(ReadLimitedError::NotRegular);
+    }
+    let file = std::fs::File::open(path)?;
+    let meta = file.metadata()?;
     if meta.len() > max_bytes {
         return Err(ReadLimitedError::TooLarge { limit_mib });
     }
@@ -221,6 +395,38 @@ mod tests {
         assert_eq!(show_number(-1.5e8), "-1.5e8");
         assert_eq!(show_number(91.0), "91");
         assert_eq!(show_number(0.0), "0");
+    }
+
+    #[test]
+    fn printable_escapes_control_characters_only() {
+        assert!(matches!(printable("packed-snow"), std::borrow::Cow::Borrowed(_)));
+        assert_eq!(printable("a\u{1b}[31mred\u{7}\r\n\0b"), "a\\u{1b}[31mred\\u{7}\\r\\n\\0b");
+        assert_eq!(printable("\u{202e}txt.exe"), "\\u{202e}txt.exe");
+        assert_eq!(printable("Schnee \u{e9}"), "Schnee \u{e9}");
+        assert_eq!(clip("x\ny"), "x\\ny");
+    }
+
+    #[test]
+    fn work_budget_refuses_what_does_not_fit_and_keeps_the_count() {
+        let b = WorkBudget::new(100);
+        b.charge(60, || "a".into()).expect("fits");
+        let e = b.charge(41, || "route 'b'".into()).expect_err("over");
+        assert_eq!((e.needed, e.left, e.limit), (41, 40, 100));
+        assert!(e.to_string().contains("--max-work-steps or SKIDROUTE_MAX_WORK_STEPS"), "{e}");
+        b.charge(40, || "c".into()).expect("exactly fits");
+        assert_eq!(b.used(), 100);
+        assert!(b.charge_rollouts(f64::INFINITY, 1, || "d".into()).is_err());
+        assert!(WorkBudget::unlimited().charge_rollouts(1e12, 1000, || "e".into()).is_ok());
+    }
+
+    #[test]
+    fn speeds_and_corridors_have_plausible_bounds() {
+        assert_eq!(check_speed_mps(1.2), Ok(1.2));
+        assert!(check_speed_mps(1e-6).expect_err("slow").contains("slower than 0.05 m/s"));
+        assert!(check_speed_mps(1e308).expect_err("fast").starts_with("1e308 m/s is faster than 100 m/s"));
+        assert!(check_speed_mps(-1.5).expect_err("negative").starts_with("-1.5 must be > 0"));
+        assert!(check_corridor_m(2e4).is_err());
+        assert!(check_corridor_m(0.0).is_err());
     }
 
     #[test]

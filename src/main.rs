@@ -32,12 +32,10 @@ enum Command {
 }
 
 fn main() -> ExitCode {
+    cli::clean_up_on_interrupt();
     let cli = match Cli::try_parse() {
         Ok(c) => c,
-        Err(e) => {
-            let _ = e.print();
-            return if e.use_stderr() { ExitCode::from(2) } else { ExitCode::SUCCESS };
-        }
+        Err(e) => return cli::usage_error(e),
     };
     let result = match cli.command {
         Command::Check(a) => cli::check::run_check(a),
@@ -50,7 +48,7 @@ fn main() -> ExitCode {
     match result {
         Ok(code) => code,
         Err(e) => {
-            eprintln!("skidroute: error: {e}");
+            cli::print_error(&e.to_string());
             ExitCode::from(2)
         }
     }

@@ -194,7 +194,9 @@ fn any_shape() -> impl Strategy<Value = Vec<[f64; 2]>> {
 }
 
 fn speed() -> impl Strategy<Value = f64> {
-    prop_oneof![Just(1e-9), Just(1e-3), Just(0.05), 0.2f64..3.0, Just(50.0), Just(1e300),]
+    // Mostly within the 0.05 to 100 m/s a route may plan (so the simulation is exercised at its
+    // extremes), sometimes beyond (refused when read).
+    prop_oneof![1 => Just(1e-9), 2 => Just(0.05), 4 => 0.2f64..3.0, 2 => Just(50.0), 1 => Just(100.0), 1 => Just(1e300)]
 }
 
 fn terrain() -> impl Strategy<Value = &'static str> {
@@ -242,10 +244,13 @@ proptest! {
         prop_assume!(!legs.is_empty());
         let text = csv_text(&legs);
         if let Outcome::Error(message) = expect_clean("shape.csv", &text) {
-            // The only refusals possible here: a leg too slow or a loop too long to simulate
-            // within the step budget, or a U-turn so tight that its points coincide.
+            // The only refusals possible here: a speed outside 0.05 to 100 m/s, a loop too long
+            // to simulate within the step budget, or a U-turn so tight that its points coincide.
             prop_assert!(
-                message.contains("control steps") || message.contains("remove the duplicate"),
+                message.contains("control steps")
+                    || message.contains("remove the duplicate")
+                    || message.contains("m/s is slower than")
+                    || message.contains("m/s is faster than"),
                 "{message}"
             );
         }
@@ -412,8 +417,14 @@ fn legs_per_route_and_total_points_are_limited() {
 
 #[test]
 fn a_pathologically_slow_leg_is_refused_before_simulating() {
-    // 1e-6 m/s on 10 km: the rollout's time bound would be a week of simulated driving.
+    // 1e-6 m/s is refused when read (slower than the 0.05 m/s creep speed).
     let text = csv_text(&[(vec![[0.0, 0.0], [10_000.0, 0.0]], "gravel", 1e-6)]);
+    match run_pipeline("crawl.csv", &text, &Limits::default()) {
+        Outcome::Error(message) => assert!(message.contains("1e-6 m/s is slower than 0.05 m/s"), "{message}"),
+        Outcome::Checked(_) => panic!("accepted"),
+    }
+    // 0.05 m/s on 10 km: the rollout's time bound would be a week of simulated driving.
+    let text = csv_text(&[(vec![[0.0, 0.0], [10_000.0, 0.0]], "gravel", 0.05)]);
     match run_pipeline("slow.csv", &text, &Limits::default()) {
         Outcome::Error(message) => {
             assert!(message.contains("slow.csv: line 2: route 'slow': simulating it could take up to"), "{message}");

@@ -5,6 +5,7 @@ use std::path::Path;
 
 use anyhow::Result;
 use clap::ValueEnum;
+use skidroute::batch::BadFile;
 use skidroute::check::CheckRun;
 use skidroute::report::{self, ReportError};
 
@@ -17,6 +18,32 @@ pub enum Format {
     Json,
     /// JSON Lines: one compact JSON object per route per line, in input order.
     Jsonl,
+}
+
+/// The JSON Lines of a run checked with `--keep-going`: in input-file order, each good file's
+/// route lines, and for each bad file one line `{"format": "skidroute-check-error/1", "source":
+/// FILE, "error": MESSAGE}`.
+pub fn jsonl_with_bad_files(run: &CheckRun, files: &[std::path::PathBuf], bad: &[BadFile]) -> String {
+    let all = report::jsonl::check_jsonl(run);
+    let lines: Vec<(&std::path::Path, &str)> =
+        run.routes.iter().map(|r| r.route.source.as_path()).zip(all.lines()).collect();
+    let mut out = String::new();
+    for file in files {
+        if let Some(b) = bad.iter().find(|b| &b.file == file) {
+            let line = serde_json::json!({
+                "format": "skidroute-check-error/1",
+                "source": b.file.display().to_string(),
+                "error": b.error,
+            });
+            out.push_str(&line.to_string());
+            out.push('\n');
+        }
+        for (_, line) in lines.iter().filter(|(source, _)| source == file) {
+            out.push_str(line);
+            out.push('\n');
+        }
+    }
+    out
 }
 
 /// Writes the self-contained HTML report when a path is given.

@@ -64,6 +64,10 @@ pub struct CheckArgs {
     /// Odometry model for --drift; default: the profile's follower `inverse_model`.
     #[arg(long, value_enum, requires = "drift")]
     pub odometry: Option<super::drift::OdometryArg>,
+    /// Go on past route files that cannot be read: report each (stderr, and a JSON line with
+    /// --format jsonl), check the others, and exit 2 at the end.
+    #[arg(long)]
+    pub keep_going: bool,
     #[command(flatten)]
     pub limits: super::limits::LimitArgs,
 }
@@ -74,9 +78,19 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
     let files = skidroute::batch::expand_inputs(&a.routes)?;
     let inputs: Vec<PathBuf> = files.iter().chain(a.vehicle.iter()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, outputs.paths().chain(a.html.iter()))?;
-    let (profile, demo) = load_profile(&a.vehicle)?;
+    let stdout_taken = report::stdout_is_an_output(outputs.paths().chain(a.html.iter()));
     let limits = a.limits.resolve()?;
-    let routes = skidroute::batch::load_routes_parallel_with(&files, &profile, &limits)?;
+    let (profile, demo) = load_profile(&a.vehicle, &limits)?;
+    let (routes, bad_files) = if a.keep_going {
+        skidroute::batch::load_routes_keep_going(&files, &profile, &limits)
+    } else {
+        (skidroute::batch::load_routes_parallel_with(&files, &profile, &limits)?, Vec::new())
+    };
+    let budget = limits.work_budget();
+    skidroute::check::charge_work(&budget, &routes, &profile, 1, "checking")?;
+    if a.drift {
+        skidroute::check::charge_work(&budget, &routes, &profile, a.samples, "the drift estimate of")?;
+    }
     let mut run = skidroute::check::check_routes_with(routes, &profile, demo, &limits);
     if a.drift {
         let settings = DriftSettings {
@@ -90,12 +104,20 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
     }
     report::write_check_outputs(&run, &outputs)?;
     super::batch::write_html(&run, a.html.as_deref())?;
-    if a.format == super::batch::Format::Jsonl && !a.json {
-        emit(&report::jsonl::check_jsonl(&run))?;
+    for bad in &bad_files {
+        super::print_error(&bad.error);
+    }
+    if stdout_taken {
+        // An output named `-` has standard output to itself.
+    } else if a.format == super::batch::Format::Jsonl && !a.json {
+        emit(&super::batch::jsonl_with_bad_files(&run, &files, &bad_files))?;
     } else if a.json || a.format == super::batch::Format::Json {
         emit(&report::json::check_json(&run))?;
     } else if !a.quiet {
         emit(&report::table::check_table(&run, color_wanted()))?;
+    }
+    if !bad_files.is_empty() {
+        return Ok(ExitCode::from(2));
     }
     let failing = match run.verdict() {
         Verdict::Fail => true,

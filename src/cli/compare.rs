@@ -51,6 +51,8 @@ pub struct CompareArgs {
     /// Print nothing but errors.
     #[arg(long)]
     pub quiet: bool,
+    #[command(flatten)]
+    pub limits: super::limits::LimitArgs,
 }
 
 pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
@@ -64,10 +66,16 @@ pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
         By::Deviation => RankBy::Deviation,
         By::Drift => RankBy::Drift,
     };
-    let (profile, demo) = load_profile(&a.vehicle)?;
-    let limits = super::limits::LimitArgs::default().resolve()?; // SKIDROUTE_MAX_* from the environment
+    let limits = a.limits.resolve()?;
+    let (profile, demo) = load_profile(&a.vehicle, &limits)?;
     let routes = skidroute::batch::load_routes_parallel_with(&files, &profile, &limits)?;
-    let run = skidroute::check::check_routes(routes, &profile, demo);
+    let budget = limits.work_budget();
+    skidroute::check::charge_work(&budget, &routes, &profile, 1, "checking")?;
+    if let RankBy::Drift = by {
+        let samples = skidroute::compare::DRIFT_RANKING_SAMPLES as u64;
+        skidroute::check::charge_work(&budget, &routes, &profile, samples, "ranking by drift")?;
+    }
+    let run = skidroute::check::check_routes_with(routes, &profile, demo, &limits);
     let cmp = match by {
         RankBy::Drift => skidroute::compare::rank_by_drift(run, &profile, a.seed)?,
         _ => skidroute::compare::rank(run, by)?,
@@ -83,7 +91,9 @@ pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
         let svg = compare_report::compare_plot_svg(&cmp).map_err(fail)?;
         report::write_atomic(p, report::html::report_html(&cmp.run, &svg, Some(&cmp)).as_bytes())?;
     }
-    if a.json {
+    if report::stdout_is_an_output(&outputs) {
+        // An output named `-` has standard output to itself.
+    } else if a.json {
         emit(&compare_report::compare_json(&cmp))?;
     } else if !a.quiet {
         emit(&compare_report::compare_table(&cmp))?;

@@ -12,8 +12,8 @@ use skidroute::report::{self};
 use skidroute::route::Route;
 use skidroute::vehicle::{InverseChoice, Profile};
 
-use super::load_profile;
 use super::progress::Bar;
+use super::{emit, load_profile};
 
 /// The odometry model the vehicle dead-reckons with.
 #[derive(Clone, Copy, Debug, ValueEnum)]
@@ -61,6 +61,8 @@ pub struct DriftArgs {
     /// Print nothing but errors, and draw no progress bar.
     #[arg(long)]
     pub quiet: bool,
+    #[command(flatten)]
+    pub limits: super::limits::LimitArgs,
 }
 
 /// The one route of the file, or the one named by `--route`.
@@ -99,8 +101,8 @@ pub fn run_drift_command(a: DriftArgs) -> Result<ExitCode> {
     if let Some(p) = &outputs.plot {
         drift_report::check_plot_extension(p)?;
     }
-    let (profile, demo) = load_profile(&a.vehicle)?;
-    let limits = super::limits::LimitArgs::default().resolve()?; // SKIDROUTE_MAX_* from the environment
+    let limits = a.limits.resolve()?;
+    let (profile, demo) = load_profile(&a.vehicle, &limits)?;
     let routes = skidroute::check::load_routes_with(std::slice::from_ref(&a.route), &profile, &limits)?;
     let route = pick_route(routes, a.route_name.as_deref(), &a.route)?;
     if outputs.ellipses_geojson.is_some() && route.origin.is_none() {
@@ -117,13 +119,19 @@ pub fn run_drift_command(a: DriftArgs) -> Result<ExitCode> {
         odometry: odometry(a.odometry, &profile),
         paths_kept: if outputs.plot.is_some() { DEFAULT_PATHS_KEPT } else { 0 },
     };
+    let route_name = skidroute::limits::clip(&route.name).into_owned();
+    limits.work_budget().charge_rollouts(skidroute::rollout::step_bound(&route, &profile), a.samples, || {
+        format!("{}: {} drift samples of route '{route_name}'", a.route.display(), a.samples)
+    })?;
     let bar = Bar::new(a.quiet);
     let result = run_drift(&route, &profile, &settings, &bar)?;
     drift_report::write_drift_outputs(&route, &result, demo, &outputs)?;
-    if a.json {
-        print!("{}", drift_report::drift_json(&result, demo));
+    if report::stdout_is_an_output(outputs.paths()) {
+        // An output named `-` has standard output to itself.
+    } else if a.json {
+        emit(&drift_report::drift_json(&result, demo))?;
     } else if !a.quiet {
-        print!("{}", drift_report::drift_table(&result, demo));
+        emit(&drift_report::drift_table(&result, demo))?;
     }
     Ok(ExitCode::SUCCESS)
 }

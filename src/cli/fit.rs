@@ -9,8 +9,8 @@ use skidroute::fit::{fit_logs, FitSettings};
 use skidroute::recording::{is_recording, read_drive_log, RecordingError, RecordingMap};
 use skidroute::report::{self, FitOutputs};
 
-use super::load_profile;
 use super::progress::Bar;
+use super::{emit, load_profile};
 
 #[derive(Args)]
 pub struct FitArgs {
@@ -45,13 +45,14 @@ pub struct FitArgs {
     /// Print nothing but errors, and no progress bar.
     #[arg(long)]
     pub quiet: bool,
+    #[command(flatten)]
+    pub limits: super::limits::LimitArgs,
 }
 
 pub fn run_fit(a: FitArgs) -> Result<ExitCode> {
     let settings = FitSettings::new(a.horizon_s, &a.sweep)?;
     let outputs = FitOutputs { profile: a.out.clone(), plot: a.plot.clone() };
-    // Limits from the environment (SKIDROUTE_MAX_FILE_MIB, SKIDROUTE_MAX_TOTAL_POINTS).
-    let limits = super::limits::LimitArgs::default().resolve()?;
+    let limits = a.limits.resolve()?;
     let map = match &a.recording_map {
         Some(p) => Some(RecordingMap::read(p, &limits)?),
         None => {
@@ -65,7 +66,7 @@ pub fn run_fit(a: FitArgs) -> Result<ExitCode> {
     let inputs: Vec<PathBuf> =
         a.logs.iter().chain(&a.validate).chain(a.vehicle.iter()).chain(&map_files).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, [&outputs.profile].into_iter().chain(outputs.plot.iter()))?;
-    let (base, demo) = load_profile(&a.vehicle)?;
+    let (base, demo) = load_profile(&a.vehicle, &limits)?;
     let base_name = match &a.vehicle {
         Some(p) => p.display().to_string(),
         None => "built-in demo profile".to_string(),
@@ -80,11 +81,12 @@ pub fn run_fit(a: FitArgs) -> Result<ExitCode> {
     let bar = Bar::new(a.quiet || a.json);
     let run = fit_logs(&logs, &validation, &base, &base_name, demo, &settings, &bar)?;
     report::write_fit_outputs(&run, &outputs)?;
-    if a.json {
-        print!("{}", report::fit_json::fit_json(&run));
+    if a.out.as_os_str() == "-" || report::stdout_is_an_output(&a.plot) {
+        // An output named `-` has standard output to itself.
+    } else if a.json {
+        emit(&report::fit_json::fit_json(&run))?;
     } else if !a.quiet {
-        print!("{}", report::fit_table::fit_table(&run));
-        println!("profile written to {}", a.out.display());
+        emit(&format!("{}profile written to {}\n", report::fit_table::fit_table(&run), a.out.display()))?;
     }
     Ok(if run.failed() { ExitCode::from(1) } else { ExitCode::SUCCESS })
 }

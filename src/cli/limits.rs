@@ -22,6 +22,9 @@ pub struct LimitArgs {
     /// Most simulation steps per route [env: SKIDROUTE_MAX_STEPS; default 5000000].
     #[arg(long, value_name = "N", value_parser = clap::value_parser!(u64).range(1..))]
     pub max_steps: Option<u64>,
+    /// Most simulation steps over the whole run (routes x samples) [env: SKIDROUTE_MAX_WORK_STEPS; default 1000000000].
+    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u64).range(1..))]
+    pub max_work_steps: Option<u64>,
 }
 
 impl LimitArgs {
@@ -43,6 +46,9 @@ impl LimitArgs {
         }
         if let Some(n) = self.max_steps {
             l.max_rollout_steps = n;
+        }
+        if let Some(n) = self.max_work_steps {
+            l.max_work_steps = n;
         }
         Ok(l)
     }

@@ -5,7 +5,7 @@ use std::process::ExitCode;
 
 use anyhow::Result;
 use clap::Args;
-use skidroute::vehicle::{Profile, DEMO_PROFILE_TOML};
+use skidroute::vehicle::DEMO_PROFILE_TOML;
 
 #[derive(Args)]
 pub struct ProfileArgs {
@@ -14,15 +14,17 @@ pub struct ProfileArgs {
     pub demo: bool,
     /// A profile to validate.
     pub file: Option<PathBuf>,
+    #[command(flatten)]
+    pub limits: super::limits::LimitArgs,
 }
 
 pub fn run_profile(a: ProfileArgs) -> Result<ExitCode> {
     match (a.demo, a.file) {
         (_, Some(file)) => {
-            let p = Profile::read(&file)?;
+            let (p, _demo) = super::load_profile(&Some(file.clone()), &a.limits.resolve()?)?;
             super::emit(&format!(
                 "{}: valid profile for '{}' with terrains {}\n",
-                file.display(),
+                skidroute::limits::printable(&file.display().to_string()),
                 p.vehicle.name,
                 p.terrain_names().join(", ")
             ))?;

@@ -34,6 +34,8 @@ pub struct RelaxArgs {
     /// Print nothing but errors.
     #[arg(long)]
     pub quiet: bool,
+    #[command(flatten)]
+    pub limits: super::limits::LimitArgs,
 }
 
 fn family(p: &Path) -> Option<&'static str> {
@@ -98,11 +100,14 @@ pub fn run_relax(a: RelaxArgs) -> Result<ExitCode> {
     }
     let inputs: Vec<PathBuf> = std::iter::once(a.route.clone()).chain(a.vehicle.iter().cloned()).collect();
     report::refuse_overwriting_inputs(&inputs, [&a.out])?;
-    let (profile, demo) = load_profile(&a.vehicle)?;
+    let limits = a.limits.resolve()?;
+    let (profile, demo) = load_profile(&a.vehicle, &limits)?;
+    let routes = skidroute::check::load_routes_with(std::slice::from_ref(&a.route), &profile, &limits)?;
+    // Read for rewriting only after the reader accepted it (within the size limit, a regular file).
     let text = std::fs::read_to_string(&a.route)
         .map_err(|source| skidroute::route::RouteError::Io { file: a.route.clone(), source })?;
-    let limits = super::limits::LimitArgs::default().resolve()?; // SKIDROUTE_MAX_* from the environment
-    let routes = skidroute::check::load_routes_with(std::slice::from_ref(&a.route), &profile, &limits)?;
+    let budget = limits.work_budget();
+    skidroute::check::charge_work(&budget, &routes, &profile, 1, "checking")?;
     let settings = RelaxSettings::default();
     let relaxed = routes.iter().map(|r| relax_route(r, &profile, &settings)).collect::<Result<Vec<_>, _>>()?;
     let new_routes: Vec<_> = relaxed.iter().map(|r| r.route.clone()).collect();
@@ -112,8 +117,9 @@ pub fn run_relax(a: RelaxArgs) -> Result<ExitCode> {
     }
     .map_err(|what| report::ReportError::Output { file: a.route.clone(), what })?;
     report::write_atomic(&a.out, written.as_bytes())?;
-    let before = skidroute::check::check_routes(routes.clone(), &profile, demo);
-    let after = skidroute::check::check_routes(new_routes, &profile, demo);
+    skidroute::check::charge_work(&budget, &new_routes, &profile, 1, "checking the relaxed")?;
+    let before = skidroute::check::check_routes_with(routes.clone(), &profile, demo, &limits);
+    let after = skidroute::check::check_routes_with(new_routes, &profile, demo, &limits);
     let results: Vec<RouteResult> = relaxed
         .iter()
         .zip(before.routes.iter().zip(&after.routes))
@@ -127,7 +133,9 @@ pub fn run_relax(a: RelaxArgs) -> Result<ExitCode> {
         })
         .collect();
     let ok = results.iter().all(|r| r.unrepaired.is_empty() && r.verdict_after != Verdict::Fail);
-    if a.json {
+    if a.out.as_os_str() == "-" {
+        // The relaxed route has standard output to itself.
+    } else if a.json {
         let doc = RelaxDocument {
             format: "skidroute-relax/1",
             input: a.route.display().to_string(),

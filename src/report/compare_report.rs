@@ -105,7 +105,7 @@ pub fn compare_table(c: &Comparison) -> String {
             num(r.max_deviation_m, 2),
             Cell::new(legs_list(&r.failing_legs)),
             r.drift_cep95_m.map_or_else(|| Cell::new("-"), |d| num(d, 2)),
-            Cell::new(&r.source),
+            Cell::new(crate::limits::printable(&r.source)),
         ]);
     }
     let _ = writeln!(out, "{t}");

@@ -108,7 +108,7 @@ pub fn drift_table(report: &DriftReport, demo_profile: bool) -> String {
     let mut out = String::new();
     let profile = if demo_profile { " (built-in demo profile; pass --vehicle FILE for your own)" } else { "" };
     let _ = writeln!(out, "vehicle: {}{profile}", report.vehicle);
-    let _ = writeln!(out, "route '{}' from {}", report.route, report.source);
+    let _ = writeln!(out, "route '{}' from {}", report.route, crate::limits::printable(&report.source));
     let _ = writeln!(
         out,
         "localization lost at the start of leg {} ({:.0} m along the route); {} odometry; {} samples, seed {}",

@@ -19,9 +19,9 @@ pub mod relaxed;
 pub mod table;
 pub mod trace_csv;
 
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
-pub use atomic::{write_atomic, write_atomic_with};
+pub use atomic::{output_target, remove_partial_outputs, write_atomic, write_atomic_with, OutputTarget};
 
 /// An output could not be produced or written.
 #[derive(Debug, thiserror::Error)]
@@ -66,22 +66,51 @@ pub fn write_check_outputs(run: &crate::check::CheckRun, out: &CheckOutputs) -> 
     Ok(())
 }
 
-/// Refuses an output path that names one of the inputs (nothing the user gave is overwritten).
+/// Refuses an output path that names one of the inputs (nothing the user gave is overwritten),
+/// and two outputs that name the same file (after resolving symbolic links and `..`), which
+/// would leave only the last one written. `-` (standard output) counts as one path.
 pub fn refuse_overwriting_inputs<'a>(
     inputs: impl IntoIterator<Item = &'a PathBuf>,
     outputs: impl IntoIterator<Item = &'a PathBuf>,
 ) -> Result<(), ReportError> {
-    let canon = |p: &PathBuf| std::fs::canonicalize(p).unwrap_or_else(|_| p.clone());
-    let inputs: Vec<PathBuf> = inputs.into_iter().map(canon).collect();
+    let inputs: Vec<PathBuf> = inputs.into_iter().map(|p| resolved(p)).collect();
+    let mut seen: Vec<(PathBuf, &PathBuf)> = Vec::new();
     for out in outputs {
-        if inputs.contains(&canon(out)) {
+        let r = resolved(out);
+        if inputs.contains(&r) {
             return Err(ReportError::Output {
                 file: out.clone(),
                 what: "is one of the inputs; refusing to overwrite it".into(),
             });
         }
+        if let Some((_, first)) = seen.iter().find(|(p, _)| *p == r) {
+            let what = format!("names the same file as the output {}; give each output its own path", first.display());
+            return Err(ReportError::Output { file: out.clone(), what });
+        }
+        seen.push((r, out));
     }
     Ok(())
+}
+
+/// A path with symbolic links and `..` resolved as far as it exists (an output not written yet
+/// resolves through its folder); `-` stays `-`.
+fn resolved(p: &Path) -> PathBuf {
+    if p.as_os_str() == "-" {
+        return p.to_path_buf();
+    }
+    if let Ok(c) = std::fs::canonicalize(p) {
+        return c;
+    }
+    let parent = p.parent().filter(|d| !d.as_os_str().is_empty()).unwrap_or(Path::new("."));
+    match (std::fs::canonicalize(parent), p.file_name()) {
+        (Ok(dir), Some(name)) => dir.join(name),
+        _ => p.to_path_buf(),
+    }
+}
+
+/// True when one of `outputs` is `-`, standard output: the command then prints nothing else there.
+pub fn stdout_is_an_output<'a>(outputs: impl IntoIterator<Item = &'a PathBuf>) -> bool {
+    outputs.into_iter().any(|p| p.as_os_str() == "-")
 }
 
 /// Where the file outputs of a fit go.

@@ -111,7 +111,7 @@ pub fn check_table(run: &CheckRun, color: bool) -> String {
     let _ = writeln!(out, "vehicle: {}{profile}", run.vehicle_name);
     for cr in &run.routes {
         let r = &cr.report;
-        let _ = writeln!(out, "\nroute '{}' from {}", r.route, r.source);
+        let _ = writeln!(out, "\nroute '{}' from {}", r.route, crate::limits::printable(&r.source));
         let _ = writeln!(out, "{}", route_table(r, color));
         for l in r.legs.iter().filter(|l| !l.reasons.is_empty()) {
             for why in &l.reasons {

@@ -3,6 +3,7 @@
 //! Nothing after this module sees degrees.
 
 pub mod enu;
+mod geojson_doc;
 pub mod plan;
 mod read_csv;
 mod read_geojson;
@@ -164,9 +165,11 @@ pub fn check_terrains(route: &Route, known: &[&str]) -> Result<(), RouteError> {
     Ok(())
 }
 
-/// The name of the route formed by legs without a `route` property/column: the file stem.
+/// The name of the route formed by legs without a `route` property/column: the file stem, with
+/// control characters escaped ([`crate::limits::printable`]) like every name read from input.
 fn file_stem_name(path: &Path) -> String {
-    path.file_stem().map_or_else(|| "route".to_string(), |s| s.to_string_lossy().into_owned())
+    path.file_stem()
+        .map_or_else(|| "route".to_string(), |s| crate::limits::printable(&s.to_string_lossy()).into_owned())
 }
 
 /// The first pair of consecutive points (i, i + 1) closer than [`DUPLICATE_POINT_M`], as the

@@ -14,7 +14,9 @@ use super::{
     check_route_limits, file_stem_name, find_duplicate_point, group_in_order, too_many_points, too_many_total_points,
     Leg, Route, RouteError, SourcePosition, DUPLICATE_POINT_M,
 };
-use crate::limits::{clip, show_number, Limits, MAX_ABS_ALTITUDE_M, MAX_ABS_COORDINATE_M};
+use crate::limits::{
+    check_corridor_m, check_speed_mps, clip, printable, show_number, Limits, MAX_ABS_ALTITUDE_M, MAX_ABS_COORDINATE_M,
+};
 
 const KNOWN_COLUMNS: &str = "x_m, y_m, terrain and optionally z_m, speed_mps, corridor_m, leg, route";
 
@@ -58,6 +60,9 @@ pub(super) fn parse(path: &Path, text: &str, limits: &Limits) -> Result<Vec<Rout
     if text.trim().is_empty() {
         return Err(file_error("file is empty"));
     }
+    if let Some(line) = unterminated_quote_line(text) {
+        return Err(at(path, line, "a quoted field opens here and is never closed (unterminated \")".to_string()));
+    }
     let mut reader = ReaderBuilder::new().trim(Trim::All).from_reader(text.as_bytes());
     let header = reader.headers().map_err(|e| csv_error(path, &e, 1))?.clone();
     let columns = read_header(&header).map_err(|what| at(path, 1, what))?;
@@ -65,7 +70,7 @@ pub(super) fn parse(path: &Path, text: &str, limits: &Limits) -> Result<Vec<Rout
     for (k, record) in reader.records().enumerate() {
         let record = record.map_err(|e| csv_error(path, &e, k + 2))?;
         let line = record.position().and_then(|p| usize::try_from(p.line()).ok()).unwrap_or(k + 2);
-        let route = cell(&record, columns.route).filter(|r| !r.is_empty()).map(str::to_string);
+        let route = cell(&record, columns.route).filter(|r| !r.is_empty()).map(|r| printable(r).into_owned());
         let row = read_row(&columns, &record, line).map_err(|what| at(path, line, what))?;
         if rows.len() >= limits.max_total_points {
             return Err(at(path, line, too_many_total_points(rows.len() + 1, limits)));
@@ -86,6 +91,38 @@ pub(super) fn parse(path: &Path, text: &str, limits: &Limits) -> Result<Vec<Rout
         .collect::<Result<Vec<_>, RouteError>>()?;
     check_route_limits(path, &routes, limits)?;
     Ok(routes)
+}
+
+/// The line of a quote that opens a field and is never closed, if any. The CSV reader would
+/// otherwise take the rest of the file as one field. A quote opens a field only at its start
+/// (after optional blanks); inside a quoted field `""` is a literal quote.
+fn unterminated_quote_line(text: &str) -> Option<usize> {
+    let (mut line, mut opened_at, mut in_quotes, mut field_start) = (1, 0, false, true);
+    let mut bytes = text.bytes().peekable();
+    while let Some(b) = bytes.next() {
+        if in_quotes {
+            match b {
+                b'"' if bytes.peek() == Some(&b'"') => {
+                    bytes.next();
+                }
+                b'"' => in_quotes = false,
+                b'\n' => line += 1,
+                _ => {}
+            }
+            continue;
+        }
+        match b {
+            b'"' if field_start => (in_quotes, opened_at) = (true, line),
+            b',' => field_start = true,
+            b'\n' => (line, field_start) = (line + 1, true),
+            b' ' | b'\t' | b'\r' if field_start => {}
+            _ => field_start = false,
+        }
+        if b == b'"' {
+            field_start = false;
+        }
+    }
+    in_quotes.then_some(opened_at)
 }
 
 fn at(path: &Path, line: usize, what: String) -> RouteError {
@@ -149,7 +186,7 @@ fn read_row(columns: &Columns, record: &StringRecord, line: usize) -> Result<Row
         terrain,
         speed_mps: positive_cell(record, columns.speed_mps, "speed_mps")?,
         corridor_m: positive_cell(record, columns.corridor_m, "corridor_m")?,
-        leg: cell(record, columns.leg).filter(|l| !l.is_empty()).map(str::to_string),
+        leg: cell(record, columns.leg).filter(|l| !l.is_empty()).map(|l| printable(l).into_owned()),
     })
 }
 
@@ -183,10 +220,11 @@ fn bounded(text: &str, column: &str, max_abs: f64) -> Result<f64, String> {
 fn positive_cell(record: &StringRecord, index: Option<usize>, column: &str) -> Result<Option<f64>, String> {
     match cell(record, index) {
         None | Some("") => Ok(None),
-        Some(text) => match number(text, column)? {
-            value if value > 0.0 => Ok(Some(value)),
-            value => Err(format!("column {column}: {} must be > 0", show_number(value))),
-        },
+        Some(text) => {
+            let value = number(text, column)?;
+            let checked = if column == "corridor_m" { check_corridor_m(value) } else { check_speed_mps(value) };
+            checked.map(Some).map_err(|what| format!("column {column}: {what}"))
+        }
     }
 }
 
@@ -448,6 +486,24 @@ mod tests {
         assert!(
             error_of("x_m,y_m,terrain,corridor_m\n0,0,grass,0\n").contains("line 2: column corridor_m: 0 must be > 0")
         );
+    }
+
+    #[test]
+    fn rejects_an_unterminated_quote_with_its_line() {
+        let message = error_of("x_m,y_m,terrain\n0,0,grass\n1,0,\"grass\n2,0,grass\n");
+        assert_eq!(message, format!("{FILE}: line 3: a quoted field opens here and is never closed (unterminated \")"));
+        // Closed quotes, doubled quotes and a quote inside a field are fine.
+        assert_eq!(unterminated_quote_line("a,\"b\"\"c\",d\n\"e\nf\",5\"\n"), None);
+    }
+
+    #[test]
+    fn rejects_speeds_and_corridors_out_of_their_plausible_range() {
+        let message = error_of("x_m,y_m,terrain,speed_mps\n0,0,grass,1e-6\n1,0,grass,1e-6\n");
+        assert!(message.contains("line 2: column speed_mps: 1e-6 m/s is slower than 0.05 m/s"), "{message}");
+        let message = error_of("x_m,y_m,terrain,speed_mps\n0,0,grass,1e308\n1,0,grass,1\n");
+        assert!(message.contains("line 2: column speed_mps: 1e308 m/s is faster than 100 m/s"), "{message}");
+        let message = error_of("x_m,y_m,terrain,corridor_m\n0,0,grass,1e5\n1,0,grass,1\n");
+        assert!(message.contains("line 2: column corridor_m: 100000 m is wider than 10000 m"), "{message}");
     }
 
     #[test]

@@ -4,17 +4,23 @@
 //! Every LineString Feature is one leg, in file order; any other geometry is an error rather than
 //! silently skipped, because a screening tool must not pass a route it did not fully read.
 //! Property names are those of README, Inputs (`terrain`, `speed_mps`, `corridor_m`, `name`, `route`);
-//! other properties are left alone, since GIS tools attach their own (styles, ids).
+//! other properties are left alone, since GIS tools attach their own (styles, ids). The document
+//! is deserialised in one pass (`geojson_doc.rs`): members the reader ignores are skipped unread.
 
 use std::path::Path;
 
-use geojson::{Feature, GeoJson, GeometryValue, JsonObject, JsonValue, Position};
+use serde_json::{Map, Value as JsonValue};
+
+use super::geojson_doc::{parse_document, FeatureDoc, Position};
 
 use super::{
     check_route_limits, file_stem_name, find_duplicate_point, group_in_order, too_many_points, too_many_total_points,
     GeoOrigin, Leg, Route, RouteError, SourcePosition, DUPLICATE_POINT_M, JOIN_TOLERANCE_M,
 };
-use crate::limits::{show_number, Limits, MAX_ABS_ALTITUDE_M};
+use crate::limits::{check_corridor_m, check_speed_mps, clip, printable, show_number, Limits, MAX_ABS_ALTITUDE_M};
+
+/// The properties of one feature that the reader reads (see `geojson_doc::SCALAR_PROPERTIES`).
+type JsonObject = Map<String, JsonValue>;
 
 /// The properties of one leg, validated.
 struct LegProperties {
@@ -41,8 +47,8 @@ pub(super) fn parse(path: &Path, text: &str, limits: &Limits) -> Result<Vec<Rout
     let features = read_features(text).map_err(|what| RouteError::File { file: path.to_path_buf(), what })?;
     let mut total_points = 0usize;
     let mut geo_legs = Vec::new();
-    for (index, feature) in features.iter().enumerate() {
-        let geo_leg = read_feature(index, feature, limits).map_err(|what| at(path, index, what))?;
+    for (index, feature) in features.into_iter().enumerate() {
+        let geo_leg = read_feature(index, &feature, limits).map_err(|what| at(path, index, what))?;
         total_points = total_points.saturating_add(geo_leg.lon_lat_deg.len());
         if total_points > limits.max_total_points {
             let what = too_many_total_points(total_points, limits);
@@ -72,22 +78,28 @@ pub(super) fn parse(path: &Path, text: &str, limits: &Limits) -> Result<Vec<Rout
     Ok(routes)
 }
 
+/// GeoJSON geometry types, for the message about a top level that is one of them.
+const GEOMETRY_TYPES: [&str; 7] =
+    ["Point", "MultiPoint", "LineString", "MultiLineString", "Polygon", "MultiPolygon", "GeometryCollection"];
+
 /// The features of the top-level FeatureCollection.
-fn read_features(text: &str) -> Result<Vec<Feature>, String> {
+fn read_features(text: &str) -> Result<Vec<FeatureDoc>, String> {
     // Spreadsheet and Windows tools often prepend a UTF-8 byte-order mark.
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
     if text.trim().is_empty() {
         return Err("file is empty".to_string());
     }
-    match text.parse::<GeoJson>() {
-        Ok(GeoJson::FeatureCollection(collection)) => Ok(collection.features),
-        Ok(GeoJson::Feature(_)) => Err("top level is a Feature, expected a FeatureCollection".to_string()),
-        Ok(GeoJson::Geometry(geometry)) => {
-            Err(format!("top level is a {} geometry, expected a FeatureCollection", geometry.value.type_name()))
+    // serde_json's own message carries the line and column.
+    let doc = parse_document(text).map_err(|e| format!("not valid GeoJSON: {e}"))?;
+    match (doc.kind.as_deref(), doc.features) {
+        (Some("FeatureCollection"), Some(features)) => Ok(features),
+        (Some("FeatureCollection"), None) => Err("the FeatureCollection has no features array".to_string()),
+        (Some("Feature"), _) => Err("top level is a Feature, expected a FeatureCollection".to_string()),
+        (Some(kind), _) if GEOMETRY_TYPES.contains(&kind) => {
+            Err(format!("top level is a {kind} geometry, expected a FeatureCollection"))
         }
-        // serde_json's own message carries the line and column.
-        Err(geojson::Error::MalformedGeoJson(e)) => Err(format!("not valid GeoJSON: {e}")),
-        Err(e) => Err(format!("not valid GeoJSON: {e}")),
+        (Some(kind), _) => Err(format!("top level has type '{}', expected a FeatureCollection", clip(kind))),
+        (None, _) => Err("top level has no \"type\", expected a FeatureCollection".to_string()),
     }
 }
 
@@ -108,10 +120,18 @@ const ALL_OR_NONE: &str = "give every point of a leg an altitude, or none";
 type Coordinates = (Vec<[f64; 2]>, Option<Vec<f64>>);
 
 /// Validates one feature: a LineString with valid properties and coordinates.
-fn read_feature(index: usize, feature: &Feature, limits: &Limits) -> Result<GeoLeg, String> {
-    let positions = match feature.geometry.as_ref().map(|g| &g.value) {
-        Some(GeometryValue::LineString { coordinates }) => coordinates,
-        Some(other) => return Err(format!("geometry is {}, expected LineString", other.type_name())),
+fn read_feature(index: usize, feature: &FeatureDoc, limits: &Limits) -> Result<GeoLeg, String> {
+    match feature.kind.as_deref() {
+        Some("Feature") => {}
+        Some(kind) => return Err(format!("has type '{}', expected Feature", clip(kind))),
+        None => return Err("has no \"type\": \"Feature\"".to_string()),
+    }
+    let positions = match feature.geometry.as_ref() {
+        Some(g) if g.kind == "LineString" && g.coordinates.is_position_array => &g.coordinates.positions,
+        Some(g) if g.kind == "LineString" => {
+            return Err("LineString coordinates must be an array of [lon, lat] or [lon, lat, alt] positions".to_string())
+        }
+        Some(g) => return Err(format!("geometry is {}, expected LineString", clip(&g.kind))),
         None => return Err("geometry is null, expected LineString".to_string()),
     };
     if positions.len() > limits.max_points_per_leg {
@@ -127,12 +147,16 @@ fn read_properties(properties: Option<&JsonObject>) -> Result<LegProperties, Str
         Some(terrain) => terrain,
         None => return Err("lacks the required property terrain (a string)".to_string()),
     };
+    let in_range = |key: &str, value: Option<f64>, check: fn(f64) -> Result<f64, String>| {
+        value.map(check).transpose().map_err(|what| format!("property {key}: {what}"))
+    };
     Ok(LegProperties {
         terrain,
-        speed_mps: positive_property(properties, "speed_mps")?,
-        corridor_m: positive_property(properties, "corridor_m")?,
-        name: string_property(properties, "name")?,
-        route: string_property(properties, "route")?,
+        speed_mps: in_range("speed_mps", positive_property(properties, "speed_mps")?, check_speed_mps)?,
+        corridor_m: in_range("corridor_m", positive_property(properties, "corridor_m")?, check_corridor_m)?,
+        // Names are shown in tables, plots and messages: control characters escaped.
+        name: string_property(properties, "name")?.map(|n| printable(&n).into_owned()),
+        route: string_property(properties, "route")?.map(|r| printable(&r).into_owned()),
     })
 }
 
@@ -179,6 +203,9 @@ fn read_coordinates(positions: &[Position]) -> Result<Coordinates, String> {
     let mut altitude_m = Vec::with_capacity(positions.len());
     let mut first_has_altitude = None;
     for (j, position) in positions.iter().enumerate() {
+        if position.len > 3 {
+            return Err(format!("point {j} has {} coordinates, expected [lon, lat] or [lon, lat, alt]", position.len));
+        }
         let (lon_deg, lat_deg, alt_m) = match *position.as_slice() {
             [lon_deg, lat_deg] => (lon_deg, lat_deg, None),
             [lon_deg, lat_deg, alt_m] => (lon_deg, lat_deg, Some(alt_m)),

@@ -10,8 +10,8 @@ use std::path::{Path, PathBuf};
 
 use crate::kinematics::{Family, Model};
 
-pub use parse::parse_profile;
-pub(crate) use parse::{describe, suggestion, valid_terrain_name};
+pub use parse::{parse_profile, parse_profile_with_warnings, MAX_PROFILE_TOKENS};
+pub(crate) use parse::{suggestion, valid_terrain_name};
 pub use write::profile_to_toml;
 
 /// The built-in demo profile: an invented tracked carrier. Its coefficients are invented for the
@@ -121,12 +121,21 @@ impl Profile {
 
     /// Reads and validates a profile file no larger than `limits.max_file_bytes`.
     pub fn read_with(path: &Path, limits: &crate::limits::Limits) -> Result<Profile, VehicleError> {
+        Profile::read_with_warnings(path, limits).map(|(profile, _)| profile)
+    }
+
+    /// [`Profile::read_with`], also returning the warnings about implausible magnitudes (one
+    /// line each, naming the file, key and line) for the caller to show.
+    pub fn read_with_warnings(
+        path: &Path,
+        limits: &crate::limits::Limits,
+    ) -> Result<(Profile, Vec<String>), VehicleError> {
         use crate::limits::{read_text_limited, ReadLimitedError};
         let text = read_text_limited(path, limits.max_file_bytes).map_err(|e| match e {
             ReadLimitedError::Io(source) => VehicleError::Io { file: path.to_path_buf(), source },
             other => VehicleError::File { file: path.to_path_buf(), what: other.to_string() },
         })?;
-        parse_profile(path, &text)
+        parse_profile_with_warnings(path, &text)
     }
 
     /// Terrain names, sorted.
@@ -157,6 +166,13 @@ pub enum VehicleError {
     File { file: PathBuf, what: String },
     #[error("{file}: not valid TOML: {message}")]
     Syntax { file: PathBuf, message: String },
-    #[error("{file}: {key}: {what}")]
-    Key { file: PathBuf, key: String, what: String },
+    #[error("{file}: {key}: {what} (line {line})")]
+    Key { file: PathBuf, key: String, what: String, line: usize },
+    /// Several problems, in line order: the message has one line per problem.
+    #[error("{}", several(.errors))]
+    Several { errors: Vec<VehicleError> },
+}
+
+fn several(errors: &[VehicleError]) -> String {
+    errors.iter().map(ToString::to_string).collect::<Vec<_>>().join("\n")
 }
