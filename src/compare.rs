@@ -281,6 +281,9 @@ mod tests {
             corridor_m: Some(1.0),
             points,
             altitude_m: None,
+            speeds_mps: None,
+            corridors_m: None,
+            cross_slope: None,
             position: SourcePosition::Feature(0),
         }
     }
@@ -291,6 +294,7 @@ mod tests {
             source: PathBuf::from("alts.geojson"),
             origin: None,
             legs: vec![leg(points, "deep-snow")],
+            warnings: Vec::new(),
         }
     }
 

@@ -10,6 +10,7 @@ pub mod assess;
 pub mod batch;
 pub mod check;
 pub mod compare;
+pub mod csv_line;
 pub mod drift;
 pub mod effort;
 pub mod error;

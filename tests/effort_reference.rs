@@ -36,7 +36,7 @@ fn no_slip_profile() -> Profile {
 }
 
 fn route(legs: Vec<Leg>) -> Route {
-    Route { name: "t".into(), source: PathBuf::from("<test>"), origin: None, legs }
+    Route { name: "t".into(), source: PathBuf::from("<test>"), origin: None, legs, warnings: Vec::new() }
 }
 
 #[test]

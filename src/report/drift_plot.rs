@@ -203,6 +203,9 @@ mod tests {
             corridor_m: None,
             points,
             altitude_m: None,
+            speeds_mps: None,
+            corridors_m: None,
+            cross_slope: None,
             position: SourcePosition::Feature(0),
         };
         let route = Route {
@@ -210,6 +213,7 @@ mod tests {
             source: "r.csv".into(),
             origin: None,
             legs: vec![leg("gravel", vec![[0.0, 0.0], [12.0, 0.0]]), leg("asphalt", vec![[12.0, 0.0], [12.0, 8.0]])],
+            warnings: Vec::new(),
         };
         let settings =
             DriftSettings { samples: 12, seed: 1, lost_from_leg: 1, odometry: Odometry::Calibrated, paths_kept: 4 };

@@ -268,6 +268,9 @@ mod tests {
             corridor_m: None,
             points,
             altitude_m: None,
+            speeds_mps: None,
+            corridors_m: None,
+            cross_slope: None,
             position: SourcePosition::Feature(0),
         };
         let route = Route {
@@ -275,6 +278,7 @@ mod tests {
             source: "r.geojson".into(),
             origin,
             legs: vec![leg("gravel", vec![[0.0, 0.0], [15.0, 0.0]]), leg("grass", vec![[15.0, 0.0], [15.0, 10.0]])],
+            warnings: Vec::new(),
         };
         let settings =
             DriftSettings { samples: 30, seed: 3, lost_from_leg: 1, odometry: Odometry::Ideal, paths_kept: 5 };
