@@ -148,7 +148,7 @@ pub fn rank_by_drift(run: CheckRun, profile: &crate::vehicle::Profile, seed: u64
 /// ```
 /// use skidroute::compare::{rank, RankBy};
 /// use skidroute::check::CheckRun;
-/// let run = CheckRun { vehicle_name: "demo".into(), demo_profile: true, routes: vec![] };
+/// let run = CheckRun { vehicle_name: "demo".into(), demo_profile: true, routes: vec![], terrain_map: None };
 /// assert!(rank(run, RankBy::Time).is_err()); // nothing to compare
 /// ```
 pub fn rank(run: CheckRun, by: RankBy) -> Result<Comparison, CompareError> {

@@ -23,6 +23,7 @@ pub mod relax;
 pub mod report;
 pub mod rollout;
 pub mod route;
+pub mod site;
 pub mod vehicle;
 
 pub use error::Error;

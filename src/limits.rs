@@ -32,6 +32,10 @@ pub const DEFAULT_MAX_ROLLOUT_STEPS: u64 = 5_000_000;
 /// route's step bound.
 pub const MAX_SAMPLES: usize = crate::drift::MAX_SAMPLES;
 
+/// Largest decoded size of an elevation raster, bytes (1 GiB: a 16 000 x 16 000 float32 grid).
+/// A compressed file can decode to far more than its size on disk, so this bounds the decoder.
+pub const MAX_RASTER_DECODED_BYTES: usize = 1 << 30;
+
 /// Largest magnitude of a local-frame coordinate (CSV `x_m`, `y_m`), metres. A local map frame
 /// stays well within this (UTM northings are below 1e7 m); larger values are almost always a
 /// unit or column mix-up, and squaring them would overflow the geometry.

@@ -15,7 +15,8 @@ use super::{color_wanted, emit, load_profile};
 
 #[derive(Args)]
 pub struct CheckArgs {
-    /// Route files (.geojson, .json or .csv) or folders of them (taken sorted by name).
+    /// Route files (.geojson, .json or .csv) or folders of them (taken sorted by name); `-` reads
+    /// one route file from standard input (GeoJSON when it starts with `{`, CSV otherwise).
     #[arg(required = true)]
     pub routes: Vec<PathBuf>,
     /// Vehicle profile (TOML); the built-in demo profile when omitted.
@@ -65,6 +66,8 @@ pub struct CheckArgs {
     #[arg(long, value_enum, requires = "drift")]
     pub odometry: Option<super::drift::OdometryArg>,
     #[command(flatten)]
+    pub site: super::site::SiteArgs,
+    #[command(flatten)]
     pub limits: super::limits::LimitArgs,
 }
 
@@ -72,12 +75,14 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
     let outputs =
         CheckOutputs { report_json: a.report, trace_csv: a.trace, predicted_geojson: a.predicted, plot: a.plot };
     let files = skidroute::batch::expand_inputs(&a.routes)?;
-    let inputs: Vec<PathBuf> = files.iter().chain(a.vehicle.iter()).cloned().collect();
+    let inputs: Vec<PathBuf> = files.iter().chain(a.vehicle.iter()).chain(a.site.inputs()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, outputs.paths().chain(a.html.iter()))?;
     let (profile, demo) = load_profile(&a.vehicle)?;
     let limits = a.limits.resolve()?;
-    let routes = skidroute::batch::load_routes_parallel_with(&files, &profile, &limits)?;
+    let site = a.site.load(&limits)?;
+    let routes = skidroute::batch::load_routes_parallel_on_site(&files, &profile, &limits, &site)?;
     let mut run = skidroute::check::check_routes_with(routes, &profile, demo, &limits);
+    run.terrain_map = site.terrain_map.clone();
     if a.drift {
         let settings = DriftSettings {
             samples: a.samples as usize,

@@ -51,12 +51,14 @@ pub struct CompareArgs {
     /// Print nothing but errors.
     #[arg(long)]
     pub quiet: bool,
+    #[command(flatten)]
+    pub site: super::site::SiteArgs,
 }
 
 pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
     let outputs: Vec<PathBuf> = [&a.report, &a.plot, &a.html].into_iter().flatten().cloned().collect();
     let files = skidroute::batch::expand_inputs(&a.routes)?;
-    let inputs: Vec<PathBuf> = files.iter().chain(a.vehicle.iter()).cloned().collect();
+    let inputs: Vec<PathBuf> = files.iter().chain(a.vehicle.iter()).chain(a.site.inputs()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, &outputs)?;
     let by = match a.by {
         By::Time => RankBy::Time,
@@ -66,8 +68,11 @@ pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
     };
     let (profile, demo) = load_profile(&a.vehicle)?;
     let limits = super::limits::LimitArgs::default().resolve()?; // SKIDROUTE_MAX_* from the environment
-    let routes = skidroute::batch::load_routes_parallel_with(&files, &profile, &limits)?;
-    let run = skidroute::check::check_routes(routes, &profile, demo);
+    let site = a.site.load(&limits)?;
+    let routes = skidroute::batch::load_routes_parallel_on_site(&files, &profile, &limits, &site)?;
+    super::site::print_warnings(&routes, a.quiet);
+    let mut run = skidroute::check::check_routes(routes, &profile, demo);
+    run.terrain_map = site.terrain_map.clone();
     let cmp = match by {
         RankBy::Drift => skidroute::compare::rank_by_drift(run, &profile, a.seed)?,
         _ => skidroute::compare::rank(run, by)?,

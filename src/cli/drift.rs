@@ -61,6 +61,8 @@ pub struct DriftArgs {
     /// Print nothing but errors, and draw no progress bar.
     #[arg(long)]
     pub quiet: bool,
+    #[command(flatten)]
+    pub site: super::site::SiteArgs,
 }
 
 /// The one route of the file, or the one named by `--route`.
@@ -93,16 +95,21 @@ pub fn odometry(arg: Option<OdometryArg>, profile: &Profile) -> Odometry {
 }
 
 pub fn run_drift_command(a: DriftArgs) -> Result<ExitCode> {
-    let outputs = DriftOutputs { report_json: a.report, plot: a.plot, ellipses_geojson: a.ellipses };
-    let inputs: Vec<PathBuf> = std::iter::once(&a.route).chain(a.vehicle.iter()).cloned().collect();
+    let mut outputs =
+        DriftOutputs { report_json: a.report, plot: a.plot, ellipses_geojson: a.ellipses, terrain_map: None };
+    let inputs: Vec<PathBuf> =
+        std::iter::once(&a.route).chain(a.vehicle.iter()).chain(a.site.inputs()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, outputs.paths())?;
     if let Some(p) = &outputs.plot {
         drift_report::check_plot_extension(p)?;
     }
     let (profile, demo) = load_profile(&a.vehicle)?;
     let limits = super::limits::LimitArgs::default().resolve()?; // SKIDROUTE_MAX_* from the environment
-    let routes = skidroute::check::load_routes_with(std::slice::from_ref(&a.route), &profile, &limits)?;
+    let site = a.site.load(&limits)?;
+    let routes = skidroute::check::load_routes_on_site(std::slice::from_ref(&a.route), &profile, &limits, &site)?;
     let route = pick_route(routes, a.route_name.as_deref(), &a.route)?;
+    outputs.terrain_map = site.terrain_map.clone();
+    super::site::print_warnings(std::iter::once(&route), a.quiet);
     if outputs.ellipses_geojson.is_some() && route.origin.is_none() {
         bail!(
             "{}: --ellipses needs a GeoJSON route (a CSV route is in a local map frame without a geographic \

@@ -59,6 +59,7 @@ pub fn relaxed_geojson(text: &str, original: &[Route], relaxed: &[Route]) -> Res
                 let speeds: Option<Vec<f64>> = (0..leg.points.len()).map(|i| leg.speed_at_point(i)).collect();
                 if let (Some(speeds), Some(p)) = (speeds, feature.get_mut("properties").and_then(Value::as_object_mut))
                 {
+                    p.remove("speed_mps");
                     p.insert("speeds_mps".into(), json!(speeds));
                 }
             } else if leg.speed_mps != old_leg.speed_mps {

@@ -278,7 +278,7 @@ fn group_in_order<T>(items: impl IntoIterator<Item = (String, T)>) -> Vec<(Strin
 }
 
 /// Checks the leg count of every route and the number of points in a file against `limits`.
-fn check_route_limits(path: &Path, routes: &[Route], limits: &Limits) -> Result<(), RouteError> {
+pub(crate) fn check_route_limits(path: &Path, routes: &[Route], limits: &Limits) -> Result<(), RouteError> {
     let mut total = 0usize;
     for route in routes {
         if route.legs.len() > limits.max_legs_per_route {

@@ -138,7 +138,8 @@ impl Leg {
         let mut out = Vec::with_capacity(n);
         for i in 0..n.saturating_sub(1) {
             let (a, b) = self.segment(i);
-            let k = (super::plan::dist(a, b) / spacing_m).ceil().clamp(1.0, 1e7) as usize;
+            // A hair under a whole number of spacings is that number (rounding in the length).
+            let k = (super::plan::dist(a, b) / spacing_m - 1e-9).ceil().clamp(1.0, 1e7) as usize;
             out.extend((0..k).map(|j| Station { segment: i, t: j as f64 / k as f64 }));
         }
         out.push(Station::at_point(n, n.saturating_sub(1)));
