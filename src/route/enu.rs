@@ -1,9 +1,9 @@
 //! Exact WGS 84 projection between geodetic coordinates (degrees, metres above the ellipsoid) and
 //! a local east-north-up frame (metres) about an origin: geodetic -> ECEF -> ENU and back.
 //!
-//! GeoJSON routes are projected with this once, when they are read (DESIGN 3); predicted paths go
-//! back through [`GeoOrigin::to_geodetic`]. No flat-earth shortcut: an equirectangular
-//! approximation is metres off at 20 km, this is sub-millimetre.
+//! GeoJSON routes are projected with this once, when they are read (README, "Route, GeoJSON");
+//! predicted paths go back through [`GeoOrigin::to_geodetic`]. No flat-earth shortcut: an
+//! equirectangular approximation is metres off at 20 km, this is sub-millimetre.
 
 /// WGS 84 semi-major axis a, metres (NIMA TR8350.2, 3rd ed., Table 3.1).
 const WGS84_A_M: f64 = 6_378_137.0;

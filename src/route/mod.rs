@@ -38,7 +38,7 @@ impl std::fmt::Display for SourcePosition {
 ///
 /// Every per-point vector (`altitude_m`, `speeds_mps`, `corridors_m`, `cross_slope`) has the
 /// length of `points` when present; between two points a value is linear in arc length (see
-/// [`profile`] for the helpers that keep that true when points are inserted or a leg is cut).
+/// [`profile`] for the functions that keep that true when points are inserted or a leg is cut).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Leg {
     pub name: Option<String>,
@@ -107,7 +107,7 @@ pub struct Route {
     pub warnings: Vec<String>,
 }
 
-/// Largest gap allowed between the end of one leg and the start of the next (DESIGN 4).
+/// Largest gap allowed between the end of one leg and the start of the next (README, "Route, GeoJSON").
 pub const JOIN_TOLERANCE_M: f64 = 0.5;
 /// Two consecutive plan points closer than this are a duplicate point (an input error).
 pub const DUPLICATE_POINT_M: f64 = 1e-3;

@@ -4,7 +4,7 @@
 //! per-point value interpolated linearly in arc length.
 //!
 //! Nominal values: a leg's `speed_mps` is its speed profile's largest value and its
-//! `corridor_m` its corridor profile's smallest (README, "CSV routes"), so code that reads one
+//! `corridor_m` its corridor profile's smallest (README, "Route, CSV"), so code that reads one
 //! value per leg errs on the cautious side. Units: metres, m/s; local frame.
 
 use super::Leg;

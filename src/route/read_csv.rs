@@ -1,5 +1,5 @@
 //! Reads a CSV route file: planner output already in a local map frame (x east, y north, metres),
-//! kept as is so traces and plots line up with the planner's map (DESIGN 3, 4).
+//! kept as is so traces and plots line up with the planner's map (README, "Route, CSV").
 //!
 //! Header `x_m,y_m,terrain` with optional `z_m`, `speed_mps`, `corridor_m`, `leg`, `route`, in any
 //! order; an unknown column is an error, so a typo cannot silently drop a speed or corridor.

@@ -44,6 +44,24 @@ pub struct Unsampled {
     pub why: SampleError,
 }
 
+/// Why a route could not be put on the raster.
+#[derive(Debug, Clone, PartialEq)]
+pub enum ElevationError {
+    Unsampled(Unsampled),
+    /// Densified at `spacing_m`, leg `leg` would have `points` points, above the limit (checked
+    /// before anything is allocated).
+    TooManyPoints {
+        leg: usize,
+        points: f64,
+        spacing_m: f64,
+    },
+}
+
+/// Points a leg has once densified at `spacing_m` (as [`Leg::densify_stations`] makes them).
+fn densified_count(leg: &Leg, spacing_m: f64) -> f64 {
+    1.0 + leg.points.windows(2).map(|w| (dist(w[0], w[1]) / spacing_m - 1e-9).ceil().max(1.0)).sum::<f64>()
+}
+
 impl Raster {
     /// Model coordinates of a local point.
     fn model_xy(&self, frame: &RouteFrame, p: [f64; 2]) -> (f64, f64) {
@@ -81,11 +99,23 @@ impl Raster {
     }
 }
 
-/// Fills every leg's altitude and cross slope from the raster, densifying the legs first.
+/// Fills every leg's altitude and cross slope from the raster, densifying the legs first; a leg
+/// that would get more than `max_points_per_leg` points is refused before it is densified.
 /// Returns the warnings for legs whose own altitudes disagree with the raster's.
-pub fn apply_elevation(route: &mut Route, raster: &Raster, frame: &RouteFrame) -> Result<Vec<String>, Unsampled> {
+pub fn apply_elevation(
+    route: &mut Route,
+    raster: &Raster,
+    frame: &RouteFrame,
+    max_points_per_leg: usize,
+) -> Result<Vec<String>, ElevationError> {
     let start = route.legs.first().and_then(|l| l.points.first()).copied().unwrap_or([0.0, 0.0]);
     let spacing_m = raster.pixel_size_m(frame, start).max(MIN_SPACING_M);
+    for (leg, l) in route.legs.iter().enumerate() {
+        let points = densified_count(l, spacing_m);
+        if points > max_points_per_leg as f64 {
+            return Err(ElevationError::TooManyPoints { leg, points, spacing_m });
+        }
+    }
     let mut warnings = Vec::new();
     for index in 0..route.legs.len() {
         let leg = &route.legs[index];
@@ -93,7 +123,7 @@ pub fn apply_elevation(route: &mut Route, raster: &Raster, frame: &RouteFrame) -
             warnings.push(w);
         }
         let mut dense = leg.resampled(&leg.densify_stations(spacing_m));
-        let unsampled = |at: [f64; 2], why| Unsampled { leg: index, at, why };
+        let unsampled = |at: [f64; 2], why| ElevationError::Unsampled(Unsampled { leg: index, at, why });
         let altitude_m = dense
             .points
             .iter()
@@ -223,7 +253,7 @@ mod tests {
             let p0 = [400_150.0, 6_999_800.0];
             let p1 = [p0[0] + 40.0 * h.cos(), p0[1] + 40.0 * h.sin()];
             let mut r = route(vec![p0, p1]);
-            apply_elevation(&mut r, &raster, &RouteFrame::Projected).expect("covered");
+            apply_elevation(&mut r, &raster, &RouteFrame::Projected, usize::MAX).expect("covered");
             let leg = &r.legs[0];
             let (alt, cross) = (leg.altitude_m.as_ref().expect("alt"), leg.cross_slope.as_ref().expect("cross"));
             // Densified at the 2 m pixel size: 20 segments.
@@ -248,7 +278,10 @@ mod tests {
     fn a_point_off_the_raster_names_its_leg_and_place() {
         let raster = plane(0.0, 0.0);
         let mut r = route(vec![[400_100.0, 6_999_900.0], [400_100.0, 7_000_100.0]]);
-        let e = apply_elevation(&mut r, &raster, &RouteFrame::Projected).expect_err("uncovered");
+        let Err(ElevationError::Unsampled(e)) = apply_elevation(&mut r, &raster, &RouteFrame::Projected, usize::MAX)
+        else {
+            panic!("expected an uncovered point")
+        };
         assert_eq!((e.leg, e.why), (0, SampleError::Uncovered));
         // The raster's north edge is at N0 + 1 m (half a pixel); the first point beyond it on the 2 m spacing.
         assert!(e.at[1] > 7_000_001.0 && e.at[1] <= 7_000_003.0, "{:?}", e.at);
@@ -259,9 +292,12 @@ mod tests {
         let raster = plane(0.0, 0.0);
         let mut r = route(vec![[400_100.0, 6_999_900.0], [400_110.0, 6_999_900.0], [400_120.0, 6_999_900.0]]);
         r.legs[0].altitude_m = Some(vec![300.5, 301.0, 299.0]);
-        assert!(apply_elevation(&mut r.clone(), &raster, &RouteFrame::Projected).expect("ok").is_empty());
+        assert!(apply_elevation(&mut r.clone(), &raster, &RouteFrame::Projected, usize::MAX).expect("ok").is_empty());
+        // 20 m at the 2 m pixel size: 11 points; a limit of 10 refuses it before densifying.
+        let too_many = apply_elevation(&mut r.clone(), &raster, &RouteFrame::Projected, 10);
+        assert!(matches!(too_many, Err(ElevationError::TooManyPoints { leg: 0, points, .. }) if points == 11.0));
         r.legs[0].altitude_m = Some(vec![300.5, 330.0, 299.0]);
-        let w = apply_elevation(&mut r, &raster, &RouteFrame::Projected).expect("ok");
+        let w = apply_elevation(&mut r, &raster, &RouteFrame::Projected, usize::MAX).expect("ok");
         assert_eq!(w.len(), 1);
         assert!(w[0].starts_with("leg 1 (line 2): its altitudes differ from the elevation raster plane.tif by 1.0 m in median and by +30.0 m at most, at x 400110.00 m, y 6999900.00 m"), "{}", w[0]);
         // The raster's altitudes replace the route's.

@@ -80,7 +80,7 @@ pub fn apply_site(mut route: Route, site: &Site, limits: &Limits) -> Result<Rout
         cut_by_map(&mut route, map, site.precedence.unwrap_or(Precedence::Map))?;
     }
     if let Some(raster) = &site.elevation {
-        sample_raster(&mut route, raster, site.map_frame)?;
+        sample_raster(&mut route, raster, site.map_frame, limits)?;
     }
     if !site.is_empty() {
         check_route_limits(&route.source, std::slice::from_ref(&route), limits)
@@ -139,7 +139,7 @@ fn cut_by_map(route: &mut Route, map: &TerrainMap, precedence: Precedence) -> Re
     }
 }
 
-fn sample_raster(route: &mut Route, raster: &Raster, map_frame: MapFrame) -> Result<(), SiteError> {
+fn sample_raster(route: &mut Route, raster: &Raster, map_frame: MapFrame, limits: &Limits) -> Result<(), SiteError> {
     let route_error = |what: String| SiteError::Route { file: route.source.clone(), what };
     let frame_origin = route.origin;
     let frame = match (&frame_origin, raster.crs, map_frame) {
@@ -161,12 +161,24 @@ fn sample_raster(route: &mut Route, raster: &Raster, map_frame: MapFrame) -> Res
             )))
         }
     };
-    match elevation::apply_elevation(route, raster, &frame) {
+    match elevation::apply_elevation(route, raster, &frame, limits.max_points_per_leg) {
         Ok(warnings) => {
             route.warnings.extend(warnings);
             Ok(())
         }
-        Err(u) => Err(unsampled_error(route, raster, u)),
+        Err(elevation::ElevationError::Unsampled(u)) => Err(unsampled_error(route, raster, u)),
+        Err(elevation::ElevationError::TooManyPoints { leg, points, spacing_m }) => Err(SiteError::RouteAt {
+            file: route.source.clone(),
+            position: route.legs.get(leg).map_or(SourcePosition::Line(1), |l| l.position),
+            what: format!(
+                "leg {}: sampled every {spacing_m:.2} m along it for the elevation raster {} it would have {points:.0} \
+                 points, more than the limit of {} per leg (raise it with --max-points-per-leg or \
+                 SKIDROUTE_MAX_POINTS_PER_LEG, or use a coarser raster)",
+                leg + 1,
+                raster.source.display(),
+                limits.max_points_per_leg
+            ),
+        }),
     }
 }
 
