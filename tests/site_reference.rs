@@ -10,6 +10,7 @@ use approx::assert_relative_eq;
 use serde_json::Value;
 use skidroute::limits::Limits;
 use skidroute::route::{read_routes, Route};
+use skidroute::site::terrain_map::MapPolygon;
 use skidroute::site::utm::UtmZone;
 use skidroute::site::{apply_site, MapFrame, Raster, RasterCrs, SampleError, Site, TerrainMap};
 
@@ -25,9 +26,21 @@ fn f(v: &Value) -> f64 {
     v.as_f64().expect("number")
 }
 
-fn cut(map: &str, route: &str) -> Route {
+/// The route cut by the map; `indexed` adds a 300-gon far away first, which takes the map past
+/// the edge count where the cutting looks edges and polygons up through R-trees.
+fn cut(map: &str, route: &str, indexed: bool) -> Route {
     let limits = Limits::default();
-    let map = TerrainMap::read(&fixture(map), MapFrame::Local, &limits).expect("map");
+    let mut map = TerrainMap::read(&fixture(map), MapFrame::Local, &limits).expect("map");
+    if indexed {
+        let ring: geo::LineString<f64> = (0..=300)
+            .map(|k| {
+                let a = std::f64::consts::TAU * f64::from(k) / 300.0;
+                (5000.0 + 10.0 * a.cos(), 5000.0 + 10.0 * a.sin())
+            })
+            .collect();
+        let far = MapPolygon { feature: 0, terrain: "ice".into(), polygon: geo::Polygon::new(ring, vec![]) };
+        map.polygons.insert(0, far);
+    }
     let site = Site { terrain_map: Some(map.into()), map_frame: MapFrame::Local, ..Site::default() };
     let route = read_routes(&fixture(route)).expect("route").remove(0);
     apply_site(route, &site, &limits).expect("cut")
@@ -41,13 +54,13 @@ fn cuts_match_shapely() {
     let reference = json("splits_reference.json");
     let cases = reference["cases"].as_object().expect("cases");
     assert!(cases.len() >= 9);
-    for (name, case) in cases {
-        let route = cut(case["map"].as_str().expect("map"), case["route"].as_str().expect("route"));
+    for ((name, case), indexed) in cases.iter().flat_map(|c| [(c, false), (c, true)]) {
+        let route = cut(case["map"].as_str().expect("map"), case["route"].as_str().expect("route"), indexed);
         let expected = case["pieces"].as_array().expect("pieces");
         assert_eq!(
             route.legs.len(),
             expected.len(),
-            "{name}: {:?}",
+            "{name} (indexed: {indexed}): {:?}",
             route.legs.iter().map(|l| &l.terrain).collect::<Vec<_>>()
         );
         for (k, (leg, piece)) in route.legs.iter().zip(expected).enumerate() {

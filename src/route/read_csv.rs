@@ -273,9 +273,8 @@ impl LegBuilder {
         if repeated {
             return;
         }
-        let carry = |values: &[Option<f64>], given: Option<f64>| match values.last().copied().flatten() {
-            Some(last) => Some(given.unwrap_or(last)),
-            None => None,
+        let carry = |values: &[Option<f64>], given: Option<f64>| {
+            values.last().copied().flatten().map(|last| given.unwrap_or(last))
         };
         let (speed_mps, corridor_m) =
             (carry(&self.speeds_mps, row.speed_mps), carry(&self.corridors_m, row.corridor_m));

@@ -218,31 +218,40 @@ fn resolve(leg: &Leg, polygon: Option<usize>, map: &LocalMap, precedence: Preced
     }
 }
 
-/// Runs of one terrain merged, short pieces joined to a neighbour.
+/// Runs of one terrain merged, short pieces joined to a neighbour (the one before, or at the
+/// leg's start the one after), in one pass.
 fn merge_pieces(leg: &Leg, raw: Vec<Piece>, map: &LocalMap, precedence: Precedence) -> Vec<Piece> {
     let resolved = raw.into_iter().map(|p| Piece { terrain: resolve(leg, p.polygon, map, precedence), ..p });
-    let mut pieces = merge_runs(resolved);
-    let mut k = 0;
-    while pieces.len() > 1 && k < pieces.len() {
-        if pieces[k].end_m - pieces[k].start_m >= MIN_PIECE_M {
-            k += 1;
-            continue;
-        }
-        let short = pieces.remove(k);
-        match k.checked_sub(1) {
-            Some(prev) => {
-                pieces[prev].to = short.to;
-                pieces[prev].end_m = short.end_m;
+    let runs = merge_runs(resolved);
+    if runs.iter().all(|p| p.end_m - p.start_m < MIN_PIECE_M) {
+        // A leg too short for any piece to count: one piece, on its longest piece's terrain.
+        let longest = runs.iter().max_by(|a, b| (a.end_m - a.start_m).total_cmp(&(b.end_m - b.start_m))).cloned();
+        return match (runs.first(), runs.last(), longest) {
+            (Some(first), Some(last), Some(l)) => {
+                vec![Piece { from: first.from, start_m: first.start_m, to: last.to, end_m: last.end_m, ..l }]
             }
-            None => {
-                pieces[0].from = short.from;
-                pieces[0].start_m = short.start_m;
-            }
-        }
-        pieces = merge_runs(pieces.into_iter());
-        k = 0;
+            _ => runs,
+        };
     }
-    pieces
+    let mut out: Vec<Piece> = Vec::with_capacity(runs.len());
+    let mut pending: Option<(Station, f64)> = None;
+    for mut p in runs {
+        let short = p.end_m - p.start_m < MIN_PIECE_M;
+        match (short, out.last_mut()) {
+            (true, Some(prev)) => {
+                prev.to = p.to;
+                prev.end_m = p.end_m;
+            }
+            (true, None) => pending = pending.or(Some((p.from, p.start_m))),
+            (false, _) => {
+                if let Some((from, start_m)) = pending.take() {
+                    (p.from, p.start_m) = (from, start_m);
+                }
+                out.push(p);
+            }
+        }
+    }
+    merge_runs(out.into_iter())
 }
 
 fn merge_runs(pieces: impl Iterator<Item = Piece>) -> Vec<Piece> {
