@@ -306,3 +306,30 @@ fn relax_with_a_terrain_map_writes_the_legs_as_read() {
     assert_eq!(written[0].legs[0].terrain, "grass");
     assert!(!written[0].legs[1].has_terrain());
 }
+
+#[test]
+fn relax_keeps_a_per_row_speed_profile() {
+    // A sharp corner on deep snow (the demo carrier cannot turn it) with the speed changing per
+    // row; the relaxed file must read back with a speed on every row of the new path.
+    let dir = tempfile::tempdir().expect("tempdir");
+    let p = dir.path().join("corner.csv");
+    let mut text = String::from("x_m,y_m,terrain,speed_mps\r\n");
+    for i in 0..=30 {
+        text.push_str(&format!("{i},0,deep-snow,{:.2}\r\n", 0.6 + 0.01 * f64::from(i)));
+    }
+    for j in 1..=30 {
+        text.push_str(&format!("30,{j},deep-snow,{:.2}\r\n", 0.9 - 0.01 * f64::from(j)));
+    }
+    std::fs::write(&p, text).expect("write");
+    let out = dir.path().join("relaxed.csv");
+    let (code, _, err) = go(&["relax", s(&p), "--out", s(&out), "--quiet"]);
+    assert!(code == Some(0) || code == Some(1), "{err}");
+    let routes = skidroute::route::read_routes(&out).expect("reads back");
+    let leg = &routes[0].legs[0];
+    assert_eq!(routes[0].legs.len(), 1);
+    let profile = leg.speeds_mps.as_ref().expect("a profile");
+    assert_eq!(profile.len(), leg.points.len());
+    assert!(leg.points.len() > 61, "the corner was not replaced by an arc");
+    // Relax only lowers speeds: none above the input's largest, 0.9 m/s.
+    assert!(profile.iter().all(|&v| v > 0.0 && v <= 0.9 + 1e-9), "{profile:?}");
+}
