@@ -34,10 +34,13 @@ fn synthetic_route(length_m: f64) -> Route {
             corridor_m: None,
             points,
             altitude_m: None,
+            speeds_mps: None,
+            corridors_m: None,
+            cross_slope: None,
             position: SourcePosition::Feature(k),
         });
     }
-    Route { name: "bench".into(), source: PathBuf::from("<synthetic>"), origin: None, legs }
+    Route { name: "bench".into(), source: PathBuf::from("<synthetic>"), origin: None, legs, warnings: Vec::new() }
 }
 
 fn main() {

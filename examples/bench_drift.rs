@@ -35,10 +35,13 @@ fn synthetic_route() -> Route {
             corridor_m: None,
             points,
             altitude_m: None,
+            speeds_mps: None,
+            corridors_m: None,
+            cross_slope: None,
             position: SourcePosition::Feature(k),
         });
     }
-    Route { name: "synthetic 2 km".into(), source: "synthetic".into(), origin: None, legs }
+    Route { name: "synthetic 2 km".into(), source: "synthetic".into(), origin: None, legs, warnings: Vec::new() }
 }
 
 fn main() {

@@ -1,13 +1,15 @@
 //! Batch screening inputs: expands folders into the route files inside (`.geojson`, `.json`,
 //! `.csv`, sorted by name, not recursive) and reads many files in parallel (rayon), keeping
-//! the input order so outputs are stable.
+//! the input order so outputs are stable. Each route read gets the run's site inputs (terrain
+//! map, elevation raster; `crate::site`) before its terrains are checked against the profile.
 
 use std::path::{Path, PathBuf};
 
 use rayon::prelude::*;
 
 use crate::limits::Limits;
-use crate::route::{check_terrains, read_routes_with, Route, RouteError};
+use crate::route::{check_terrains, read_routes_with, Route, RouteError, STDIN_ARG};
+use crate::site::{apply_site, Site};
 use crate::vehicle::Profile;
 use crate::Error;
 
@@ -22,9 +24,16 @@ fn is_route_file(p: &Path) -> bool {
 }
 
 /// Files and folders to route files: a file stays as given, a folder gives its route files
-/// sorted by name. An empty folder is an error (a pipeline must not pass on nothing).
+/// sorted by name. An empty folder is an error (a pipeline must not pass on nothing), and so is
+/// standard input (`-`) named twice.
 pub fn expand_inputs(paths: &[PathBuf]) -> Result<Vec<PathBuf>, RouteError> {
     let mut out = Vec::new();
+    if paths.iter().filter(|p| p.as_path() == Path::new(STDIN_ARG)).count() > 1 {
+        return Err(RouteError::File {
+            file: PathBuf::from(crate::route::STDIN_NAME),
+            what: "standard input (-) is named more than once; it can be read only once".into(),
+        });
+    }
     for path in paths {
         if !path.is_dir() {
             out.push(path.clone());
@@ -60,17 +69,18 @@ pub fn load_routes_parallel(paths: &[PathBuf], profile: &Profile) -> Result<Vec<
 /// [`load_routes_parallel`] with explicit limits (per file while reading, then over the run as
 /// [`crate::check::check_run_limits`]).
 pub fn load_routes_parallel_with(paths: &[PathBuf], profile: &Profile, limits: &Limits) -> Result<Vec<Route>, Error> {
-    let known = profile.terrain_names();
-    let per_file: Vec<Result<Vec<Route>, RouteError>> = paths
-        .par_iter()
-        .map(|p| {
-            let routes = read_routes_with(p, limits)?;
-            for r in &routes {
-                check_terrains(r, &known)?;
-            }
-            Ok(routes)
-        })
-        .collect();
+    load_routes_parallel_on_site(paths, profile, limits, &Site::default())
+}
+
+/// [`load_routes_parallel_with`] with the site inputs applied to every route.
+pub fn load_routes_parallel_on_site(
+    paths: &[PathBuf],
+    profile: &Profile,
+    limits: &Limits,
+    site: &Site,
+) -> Result<Vec<Route>, Error> {
+    let per_file: Vec<Result<Vec<Route>, Error>> =
+        paths.par_iter().map(|p| load_file(p, profile, limits, site)).collect();
     let mut routes = Vec::new();
     for r in per_file {
         routes.extend(r?);
@@ -90,13 +100,22 @@ pub struct BadFile {
 /// names an unknown terrain, or breaks a per-route or run limit is returned as a [`BadFile`]
 /// (in input order) and its routes are left out; the other files' routes come back in order.
 pub fn load_routes_keep_going(paths: &[PathBuf], profile: &Profile, limits: &Limits) -> (Vec<Route>, Vec<BadFile>) {
-    let known = profile.terrain_names();
-    let per_file: Vec<Result<Vec<Route>, RouteError>> = paths
+    load_routes_keep_going_on_site(paths, profile, limits, &Site::default())
+}
+
+/// [`load_routes_keep_going`] with the site inputs applied to every route; a file whose routes
+/// the site inputs cannot be applied to (outside the map, off the raster) is a [`BadFile`] too.
+pub fn load_routes_keep_going_on_site(
+    paths: &[PathBuf],
+    profile: &Profile,
+    limits: &Limits,
+    site: &Site,
+) -> (Vec<Route>, Vec<BadFile>) {
+    let per_file: Vec<Result<Vec<Route>, Error>> = paths
         .par_iter()
         .map(|p| {
-            let routes = read_routes_with(p, limits)?;
+            let routes = load_file(p, profile, limits, site)?;
             for r in &routes {
-                check_terrains(r, &known)?;
                 crate::check::check_run_limits(std::slice::from_ref(r), profile, limits)?;
             }
             Ok(routes)
@@ -121,6 +140,19 @@ pub fn load_routes_keep_going(paths: &[PathBuf], profile: &Profile, limits: &Lim
         routes.extend(file_routes);
     }
     (routes, bad)
+}
+
+/// The routes of one file with the site inputs applied and their terrains checked.
+pub(crate) fn load_file(path: &Path, profile: &Profile, limits: &Limits, site: &Site) -> Result<Vec<Route>, Error> {
+    let known = profile.terrain_names();
+    let mut routes = read_routes_with(path, limits)?;
+    if !site.is_empty() {
+        routes = routes.into_iter().map(|r| apply_site(r, site, limits)).collect::<Result<_, _>>()?;
+    }
+    for r in &routes {
+        check_terrains(r, &known)?;
+    }
+    Ok(routes)
 }
 
 #[cfg(test)]

@@ -2,6 +2,7 @@
 //! it. Routes are simulated in parallel (rayon); results keep the input order.
 
 use std::path::PathBuf;
+use std::sync::Arc;
 
 use rayon::prelude::*;
 
@@ -10,7 +11,8 @@ use crate::drift::{run_drift, DriftSettings};
 use crate::limits::Limits;
 use crate::progress::Progress;
 use crate::rollout::{roll_out_within, step_bound, RouteDrive, Trace};
-use crate::route::{check_terrains, read_routes_with, Route, RouteError};
+use crate::route::{Route, RouteError};
+use crate::site::{Site, TerrainMap};
 use crate::vehicle::Profile;
 use crate::Error;
 
@@ -30,6 +32,8 @@ pub struct CheckRun {
     /// True when the built-in demo profile was used.
     pub demo_profile: bool,
     pub routes: Vec<CheckedRoute>,
+    /// The terrain map the routes were cut by, for the plots to shade.
+    pub terrain_map: Option<Arc<TerrainMap>>,
 }
 
 impl CheckRun {
@@ -50,13 +54,20 @@ pub fn load_routes(paths: &[PathBuf], profile: &Profile) -> Result<Vec<Route>, E
 /// route that could not be simulated within [`Limits::max_rollout_steps`] is refused before
 /// anything is simulated.
 pub fn load_routes_with(paths: &[PathBuf], profile: &Profile, limits: &Limits) -> Result<Vec<Route>, Error> {
-    let known = profile.terrain_names();
+    load_routes_on_site(paths, profile, limits, &Site::default())
+}
+
+/// [`load_routes_with`] with the site inputs (terrain map, elevation raster) applied to every
+/// route before its terrains are checked.
+pub fn load_routes_on_site(
+    paths: &[PathBuf],
+    profile: &Profile,
+    limits: &Limits,
+    site: &Site,
+) -> Result<Vec<Route>, Error> {
     let mut routes = Vec::new();
     for path in paths {
-        for route in read_routes_with(path, limits)? {
-            check_terrains(&route, &known)?;
-            routes.push(route);
-        }
+        routes.extend(crate::batch::load_file(path, profile, limits, site)?);
     }
     check_run_limits(&routes, profile, limits)?;
     Ok(routes)
@@ -145,7 +156,7 @@ pub fn check_routes(routes: Vec<Route>, profile: &Profile, demo_profile: bool) -
 /// [`check_routes`] within `limits.max_rollout_steps` control steps per route.
 pub fn check_routes_with(routes: Vec<Route>, profile: &Profile, demo_profile: bool, limits: &Limits) -> CheckRun {
     let routes = routes.into_par_iter().map(|r| check_route_with(r, profile, limits)).collect();
-    CheckRun { vehicle_name: profile.vehicle.name.clone(), demo_profile, routes }
+    CheckRun { vehicle_name: profile.vehicle.name.clone(), demo_profile, routes, terrain_map: None }
 }
 
 /// Adds the drift estimate (CEP95 at every leg end, docs/method.md, Drift) to each route of a check, so one

@@ -148,7 +148,7 @@ pub fn rank_by_drift(run: CheckRun, profile: &crate::vehicle::Profile, seed: u64
 /// ```
 /// use skidroute::compare::{rank, RankBy};
 /// use skidroute::check::CheckRun;
-/// let run = CheckRun { vehicle_name: "demo".into(), demo_profile: true, routes: vec![] };
+/// let run = CheckRun { vehicle_name: "demo".into(), demo_profile: true, routes: vec![], terrain_map: None };
 /// assert!(rank(run, RankBy::Time).is_err()); // nothing to compare
 /// ```
 pub fn rank(run: CheckRun, by: RankBy) -> Result<Comparison, CompareError> {
@@ -281,6 +281,9 @@ mod tests {
             corridor_m: Some(1.0),
             points,
             altitude_m: None,
+            speeds_mps: None,
+            corridors_m: None,
+            cross_slope: None,
             position: SourcePosition::Feature(0),
         }
     }
@@ -291,6 +294,7 @@ mod tests {
             source: PathBuf::from("alts.geojson"),
             origin: None,
             legs: vec![leg(points, "deep-snow")],
+            warnings: Vec::new(),
         }
     }
 

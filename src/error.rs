@@ -21,4 +21,6 @@ pub enum Error {
     Relax(#[from] crate::relax::RelaxError),
     #[error(transparent)]
     Drift(#[from] crate::drift::DriftError),
+    #[error(transparent)]
+    Site(#[from] crate::site::SiteError),
 }

@@ -11,6 +11,7 @@ pub mod assess;
 pub mod batch;
 pub mod check;
 pub mod compare;
+pub mod csv_line;
 pub mod drift;
 pub mod effort;
 pub mod error;
@@ -24,6 +25,7 @@ pub mod relax;
 pub mod report;
 pub mod rollout;
 pub mod route;
+pub mod site;
 pub mod vehicle;
 
 pub use error::Error;

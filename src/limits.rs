@@ -40,6 +40,10 @@ pub const DEFAULT_MAX_WORK_STEPS: u64 = 1_000_000_000;
 /// route's step bound.
 pub const MAX_SAMPLES: usize = 1_000_000;
 
+/// Largest decoded size of an elevation raster, bytes (1 GiB: a 16 000 x 16 000 float32 grid).
+/// A compressed file can decode to far more than its size on disk, so this bounds the decoder.
+pub const MAX_RASTER_DECODED_BYTES: usize = 1 << 30;
+
 /// Largest magnitude of a local-frame coordinate (CSV `x_m`, `y_m`), metres. A local map frame
 /// stays well within this (UTM northings are below 1e7 m); larger values are almost always a
 /// unit or column mix-up, and squaring them would overflow the geometry.
@@ -331,7 +335,11 @@ pub enum ReadLimitedError {
 /// Only regular files are read: a FIFO, a device or a socket is refused before it is opened,
 /// since opening a FIFO that no program writes to would wait forever.
 pub fn read_text_limited(path: &Path, max_bytes: u64) -> Result<String, ReadLimitedError> {
-    let limit_mib = max_bytes as f64 / (1024.0 * 1024.0);
+    utf8(read_bytes_limited(path, max_bytes)?)
+}
+
+/// [`read_text_limited`] for a file read as bytes (a raster); the same checks.
+pub fn read_bytes_limited(path: &Path, max_bytes: u64) -> Result<Vec<u8>, ReadLimitedError> {
     let kind = std::fs::metadata(path)?.file_type();
     if kind.is_dir() {
         return Err(std::io::Error::other("is a directory").into());
@@ -342,14 +350,29 @@ pub fn read_text_limited(path: &Path, max_bytes: u64) -> Result<String, ReadLimi
     let file = std::fs::File::open(path)?;
     let meta = file.metadata()?;
     if meta.len() > max_bytes {
-        return Err(ReadLimitedError::TooLarge { limit_mib });
+        return Err(ReadLimitedError::TooLarge { limit_mib: max_bytes as f64 / (1024.0 * 1024.0) });
     }
     // The metadata size only sizes the first buffer, and it is at most the limit.
-    let mut bytes = Vec::with_capacity(usize::try_from(meta.len()).unwrap_or(0).min(1 << 26));
-    file.take(max_bytes.saturating_add(1)).read_to_end(&mut bytes)?;
+    let capacity = usize::try_from(meta.len()).unwrap_or(0).min(1 << 26);
+    read_limited(file, max_bytes, capacity)
+}
+
+/// Reads a stream (standard input) of at most `max_bytes` as UTF-8 text; the limit is checked
+/// while reading.
+pub fn read_stream_text_limited(reader: impl Read, max_bytes: u64) -> Result<String, ReadLimitedError> {
+    utf8(read_limited(reader, max_bytes, 1 << 16)?)
+}
+
+fn read_limited(reader: impl Read, max_bytes: u64, capacity: usize) -> Result<Vec<u8>, ReadLimitedError> {
+    let mut bytes = Vec::with_capacity(capacity);
+    reader.take(max_bytes.saturating_add(1)).read_to_end(&mut bytes)?;
     if bytes.len() as u64 > max_bytes {
-        return Err(ReadLimitedError::TooLarge { limit_mib });
+        return Err(ReadLimitedError::TooLarge { limit_mib: max_bytes as f64 / (1024.0 * 1024.0) });
     }
+    Ok(bytes)
+}
+
+fn utf8(bytes: Vec<u8>) -> Result<String, ReadLimitedError> {
     String::from_utf8(bytes).map_err(|e| ReadLimitedError::NotUtf8 { offset: e.utf8_error().valid_up_to() })
 }
 
@@ -387,6 +410,9 @@ mod tests {
         std::fs::write(&p, b"ok\xff").expect("write");
         assert!(matches!(read_text_limited(&p, 100), Err(ReadLimitedError::NotUtf8 { offset: 2 })));
         assert!(matches!(read_text_limited(dir.path(), 100), Err(ReadLimitedError::Io(_))));
+        let stream = std::io::Cursor::new(vec![b'a'; 17]);
+        assert!(matches!(read_stream_text_limited(stream, 16), Err(ReadLimitedError::TooLarge { .. })));
+        assert_eq!(read_stream_text_limited(std::io::Cursor::new(b"ok".to_vec()), 16).expect("fits"), "ok");
     }
 
     #[test]

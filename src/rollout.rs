@@ -370,8 +370,12 @@ mod tests {
                 corridor_m: None,
                 points: vec![[0.0, 0.0], [6_000.0, 0.0], [10_000.0, 0.0]],
                 altitude_m: None,
+                speeds_mps: None,
+                corridors_m: None,
+                cross_slope: None,
                 position: crate::route::SourcePosition::Line(2),
             }],
+            warnings: Vec::new(),
         };
         let d = RouteDrive::new(&route, &profile);
         assert_relative_eq!(step_bound(&route, &profile), d.step_bound(), max_relative = 1e-9);

@@ -13,15 +13,7 @@ fn straight_leg(x0_m: f64, x1_m: f64, terrain: &str, altitude: Option<(f64, f64)
     let n = ((x1_m - x0_m) / 2.0) as usize;
     let points: Vec<[f64; 2]> = (0..=n).map(|i| [x0_m + (x1_m - x0_m) * i as f64 / n as f64, 0.0]).collect();
     let altitude_m = altitude.map(|(z0, z1)| (0..=n).map(|i| z0 + (z1 - z0) * i as f64 / n as f64).collect());
-    Leg {
-        name: None,
-        terrain: terrain.into(),
-        speed_mps: Some(1.0),
-        corridor_m: None,
-        points,
-        altitude_m,
-        position: SourcePosition::Feature(0),
-    }
+    Leg { speed_mps: Some(1.0), altitude_m, ..Leg::new(terrain, points, SourcePosition::Feature(0)) }
 }
 
 /// The demo profile with the ideal kinematic model on every terrain, so track travel equals
@@ -36,7 +28,7 @@ fn no_slip_profile() -> Profile {
 }
 
 fn route(legs: Vec<Leg>) -> Route {
-    Route { name: "t".into(), source: PathBuf::from("<test>"), origin: None, legs }
+    Route { name: "t".into(), source: PathBuf::from("<test>"), origin: None, legs, warnings: Vec::new() }
 }
 
 #[test]

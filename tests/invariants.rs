@@ -32,6 +32,9 @@ fn route(points: &[[f64; 2]]) -> Route {
         corridor_m: None,
         points: pts.to_vec(),
         altitude_m: None,
+        speeds_mps: None,
+        corridors_m: None,
+        cross_slope: None,
         position: SourcePosition::Feature(i),
     };
     Route {
@@ -39,6 +42,7 @@ fn route(points: &[[f64; 2]]) -> Route {
         source: PathBuf::from("<prop>"),
         origin: None,
         legs: vec![leg(&points[..=mid], "grass", 0), leg(&points[mid..], "packed-snow", 1)],
+        warnings: Vec::new(),
     }
 }
 

@@ -29,6 +29,12 @@ pub fn jsonl_with_bad_files(run: &CheckRun, files: &[std::path::PathBuf], bad: &
         run.routes.iter().map(|r| r.route.source.as_path()).zip(all.lines()).collect();
     let mut out = String::new();
     for file in files {
+        // Routes read from standard input (`-`) carry the name the reader gives it.
+        let source = if file.as_path() == std::path::Path::new(skidroute::route::STDIN_ARG) {
+            std::path::Path::new(skidroute::route::STDIN_NAME)
+        } else {
+            file.as_path()
+        };
         if let Some(b) = bad.iter().find(|b| &b.file == file) {
             let line = serde_json::json!({
                 "format": "skidroute-check-error/1",
@@ -38,7 +44,7 @@ pub fn jsonl_with_bad_files(run: &CheckRun, files: &[std::path::PathBuf], bad: &
             out.push_str(&line.to_string());
             out.push('\n');
         }
-        for (_, line) in lines.iter().filter(|(source, _)| source == file) {
+        for (_, line) in lines.iter().filter(|(from, _)| *from == source) {
             out.push_str(line);
             out.push('\n');
         }

@@ -15,7 +15,8 @@ use super::{color_wanted, emit, load_profile};
 
 #[derive(Args)]
 pub struct CheckArgs {
-    /// Route files (.geojson, .json or .csv) or folders of them (taken sorted by name).
+    /// Route files (.geojson, .json or .csv) or folders of them (taken sorted by name); `-` reads
+    /// one route file from standard input (GeoJSON when it starts with `{`, CSV otherwise).
     #[arg(required = true)]
     pub routes: Vec<PathBuf>,
     /// Vehicle profile (TOML); the built-in demo profile when omitted.
@@ -69,6 +70,8 @@ pub struct CheckArgs {
     #[arg(long)]
     pub keep_going: bool,
     #[command(flatten)]
+    pub site: super::site::SiteArgs,
+    #[command(flatten)]
     pub limits: super::limits::LimitArgs,
 }
 
@@ -76,15 +79,16 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
     let outputs =
         CheckOutputs { report_json: a.report, trace_csv: a.trace, predicted_geojson: a.predicted, plot: a.plot };
     let files = skidroute::batch::expand_inputs(&a.routes)?;
-    let inputs: Vec<PathBuf> = files.iter().chain(a.vehicle.iter()).cloned().collect();
+    let inputs: Vec<PathBuf> = files.iter().chain(a.vehicle.iter()).chain(a.site.inputs()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, outputs.paths().chain(a.html.iter()))?;
     let stdout_taken = report::stdout_is_an_output(outputs.paths().chain(a.html.iter()));
     let limits = a.limits.resolve()?;
     let (profile, demo) = load_profile(&a.vehicle, &limits)?;
+    let site = a.site.load(&limits)?;
     let (routes, bad_files) = if a.keep_going {
-        skidroute::batch::load_routes_keep_going(&files, &profile, &limits)
+        skidroute::batch::load_routes_keep_going_on_site(&files, &profile, &limits, &site)
     } else {
-        (skidroute::batch::load_routes_parallel_with(&files, &profile, &limits)?, Vec::new())
+        (skidroute::batch::load_routes_parallel_on_site(&files, &profile, &limits, &site)?, Vec::new())
     };
     let budget = limits.work_budget();
     skidroute::check::charge_work(&budget, &routes, &profile, 1, "checking")?;
@@ -92,6 +96,7 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
         skidroute::check::charge_work(&budget, &routes, &profile, a.samples, "the drift estimate of")?;
     }
     let mut run = skidroute::check::check_routes_with(routes, &profile, demo, &limits);
+    run.terrain_map = site.terrain_map.clone();
     if a.drift {
         let settings = DriftSettings {
             samples: a.samples as usize,

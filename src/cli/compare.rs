@@ -52,13 +52,15 @@ pub struct CompareArgs {
     #[arg(long)]
     pub quiet: bool,
     #[command(flatten)]
+    pub site: super::site::SiteArgs,
+    #[command(flatten)]
     pub limits: super::limits::LimitArgs,
 }
 
 pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
     let outputs: Vec<PathBuf> = [&a.report, &a.plot, &a.html].into_iter().flatten().cloned().collect();
     let files = skidroute::batch::expand_inputs(&a.routes)?;
-    let inputs: Vec<PathBuf> = files.iter().chain(a.vehicle.iter()).cloned().collect();
+    let inputs: Vec<PathBuf> = files.iter().chain(a.vehicle.iter()).chain(a.site.inputs()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, &outputs)?;
     let by = match a.by {
         By::Time => RankBy::Time,
@@ -68,14 +70,17 @@ pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
     };
     let limits = a.limits.resolve()?;
     let (profile, demo) = load_profile(&a.vehicle, &limits)?;
-    let routes = skidroute::batch::load_routes_parallel_with(&files, &profile, &limits)?;
+    let site = a.site.load(&limits)?;
+    let routes = skidroute::batch::load_routes_parallel_on_site(&files, &profile, &limits, &site)?;
+    super::site::print_warnings(&routes, a.quiet);
     let budget = limits.work_budget();
     skidroute::check::charge_work(&budget, &routes, &profile, 1, "checking")?;
     if let RankBy::Drift = by {
         let samples = skidroute::compare::DRIFT_RANKING_SAMPLES as u64;
         skidroute::check::charge_work(&budget, &routes, &profile, samples, "ranking by drift")?;
     }
-    let run = skidroute::check::check_routes_with(routes, &profile, demo, &limits);
+    let mut run = skidroute::check::check_routes_with(routes, &profile, demo, &limits);
+    run.terrain_map = site.terrain_map.clone();
     let cmp = match by {
         RankBy::Drift => skidroute::compare::rank_by_drift(run, &profile, a.seed)?,
         _ => skidroute::compare::rank(run, by)?,

@@ -62,6 +62,8 @@ pub struct DriftArgs {
     #[arg(long)]
     pub quiet: bool,
     #[command(flatten)]
+    pub site: super::site::SiteArgs,
+    #[command(flatten)]
     pub limits: super::limits::LimitArgs,
 }
 
@@ -95,16 +97,21 @@ pub fn odometry(arg: Option<OdometryArg>, profile: &Profile) -> Odometry {
 }
 
 pub fn run_drift_command(a: DriftArgs) -> Result<ExitCode> {
-    let outputs = DriftOutputs { report_json: a.report, plot: a.plot, ellipses_geojson: a.ellipses };
-    let inputs: Vec<PathBuf> = std::iter::once(&a.route).chain(a.vehicle.iter()).cloned().collect();
+    let mut outputs =
+        DriftOutputs { report_json: a.report, plot: a.plot, ellipses_geojson: a.ellipses, terrain_map: None };
+    let inputs: Vec<PathBuf> =
+        std::iter::once(&a.route).chain(a.vehicle.iter()).chain(a.site.inputs()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, outputs.paths())?;
     if let Some(p) = &outputs.plot {
         drift_report::check_plot_extension(p)?;
     }
     let limits = a.limits.resolve()?;
     let (profile, demo) = load_profile(&a.vehicle, &limits)?;
-    let routes = skidroute::check::load_routes_with(std::slice::from_ref(&a.route), &profile, &limits)?;
+    let site = a.site.load(&limits)?;
+    let routes = skidroute::check::load_routes_on_site(std::slice::from_ref(&a.route), &profile, &limits, &site)?;
     let route = pick_route(routes, a.route_name.as_deref(), &a.route)?;
+    outputs.terrain_map = site.terrain_map.clone();
+    super::site::print_warnings(std::iter::once(&route), a.quiet);
     if outputs.ellipses_geojson.is_some() && route.origin.is_none() {
         bail!(
             "{}: --ellipses needs a GeoJSON route (a CSV route is in a local map frame without a geographic \

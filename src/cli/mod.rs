@@ -11,6 +11,7 @@ pub mod limits;
 pub mod profile;
 pub mod progress;
 pub mod relax;
+pub mod site;
 
 use std::io::{IsTerminal, Write};
 use std::path::PathBuf;

@@ -10,6 +10,8 @@ use serde::Serialize;
 use skidroute::assess::Verdict;
 use skidroute::relax::{relax_route, Change, RelaxSettings, Relaxed, Unrepaired};
 use skidroute::report;
+use skidroute::site::split::rejoin_pieces;
+use skidroute::site::{apply_site, Site};
 use skidroute::CAUTION;
 
 use super::{emit, load_profile};
@@ -34,6 +36,8 @@ pub struct RelaxArgs {
     /// Print nothing but errors.
     #[arg(long)]
     pub quiet: bool,
+    #[command(flatten)]
+    pub site: super::site::SiteArgs,
     #[command(flatten)]
     pub limits: super::limits::LimitArgs,
 }
@@ -98,11 +102,14 @@ pub fn run_relax(a: RelaxArgs) -> Result<ExitCode> {
     if fin != fout {
         bail!("{}: the output must be {fin} like the input {}", a.out.display(), a.route.display());
     }
-    let inputs: Vec<PathBuf> = std::iter::once(a.route.clone()).chain(a.vehicle.iter().cloned()).collect();
+    let inputs: Vec<PathBuf> =
+        std::iter::once(a.route.clone()).chain(a.vehicle.iter().cloned()).chain(a.site.inputs().cloned()).collect();
     report::refuse_overwriting_inputs(&inputs, [&a.out])?;
     let limits = a.limits.resolve()?;
     let (profile, demo) = load_profile(&a.vehicle, &limits)?;
-    let routes = skidroute::check::load_routes_with(std::slice::from_ref(&a.route), &profile, &limits)?;
+    let site = a.site.load(&limits)?;
+    let routes = skidroute::check::load_routes_on_site(std::slice::from_ref(&a.route), &profile, &limits, &site)?;
+    super::site::print_warnings(&routes, a.quiet);
     // Read for rewriting only after the reader accepted it (within the size limit, a regular file).
     let text = std::fs::read_to_string(&a.route)
         .map_err(|source| skidroute::route::RouteError::Io { file: a.route.clone(), source })?;
@@ -110,10 +117,25 @@ pub fn run_relax(a: RelaxArgs) -> Result<ExitCode> {
     skidroute::check::charge_work(&budget, &routes, &profile, 1, "checking")?;
     let settings = RelaxSettings::default();
     let relaxed = routes.iter().map(|r| relax_route(r, &profile, &settings)).collect::<Result<Vec<_>, _>>()?;
-    let new_routes: Vec<_> = relaxed.iter().map(|r| r.route.clone()).collect();
+    let mut new_routes: Vec<_> = relaxed.iter().map(|r| r.route.clone()).collect();
+    // The file is written leg for leg as read: pieces cut by a terrain map are joined again.
+    let (as_read, to_write) = if site.is_empty() {
+        (routes.clone(), new_routes.clone())
+    } else {
+        let as_read = skidroute::route::read_routes_with(&a.route, &limits)?;
+        let joined = new_routes.iter().zip(&as_read).map(|(n, r)| rejoin_pieces(n, r)).collect();
+        (as_read, joined)
+    };
+    if site.elevation.is_some() {
+        // The new corners' altitude and cross slope come from the raster, not from the old plan.
+        let raster_only = Site { terrain_map: None, ..site.clone() };
+        for r in &mut new_routes {
+            *r = apply_site(r.clone(), &raster_only, &limits)?;
+        }
+    }
     let written = match fin {
-        "geojson" => report::relaxed::relaxed_geojson(&text, &routes, &new_routes),
-        _ => report::relaxed::relaxed_csv(&text, &routes, &new_routes),
+        "geojson" => report::relaxed::relaxed_geojson(&text, &as_read, &to_write),
+        _ => report::relaxed::relaxed_csv(&text, &as_read, &to_write),
     }
     .map_err(|what| report::ReportError::Output { file: a.route.clone(), what })?;
     report::write_atomic(&a.out, written.as_bytes())?;

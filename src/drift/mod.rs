@@ -169,9 +169,12 @@ pub struct DriftReport {
 ///     corridor_m: None,
 ///     points: vec![[0.0, 0.0], [20.0, 0.0]],
 ///     altitude_m: None,
+///     speeds_mps: None,
+///     corridors_m: None,
+///     cross_slope: None,
 ///     position: SourcePosition::Feature(0),
 /// };
-/// let route = Route { name: "r".into(), source: "r.geojson".into(), origin: None, legs: vec![leg] };
+/// let route = Route { name: "r".into(), source: "r.geojson".into(), origin: None, legs: vec![leg], warnings: vec![] };
 /// let settings = DriftSettings { samples: 20, ..DriftSettings::default() };
 /// let report = run_drift(&route, &Profile::demo(), &settings, &NoProgress).unwrap();
 /// assert!(report.legs[0].cep95_m().unwrap() > 0.0);

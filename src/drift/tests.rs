@@ -16,12 +16,15 @@ fn leg(terrain: &str, points: Vec<[f64; 2]>) -> Leg {
         corridor_m: None,
         points,
         altitude_m: None,
+        speeds_mps: None,
+        corridors_m: None,
+        cross_slope: None,
         position: SourcePosition::Feature(0),
     }
 }
 
 fn route(legs: Vec<Leg>) -> Route {
-    Route { name: "test".into(), source: "test.geojson".into(), origin: None, legs }
+    Route { name: "test".into(), source: "test.geojson".into(), origin: None, legs, warnings: Vec::new() }
 }
 
 fn terrain(model: Model, covariance: Option<Vec<Vec<f64>>>, noise: [f64; 3]) -> TerrainSpec {

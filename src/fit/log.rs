@@ -95,7 +95,8 @@ pub fn parse_log_with(path: &Path, text: &str, limits: &Limits) -> Result<DriveL
         return Err(file_error("file is empty"));
     }
     let mut reader = ReaderBuilder::new().trim(Trim::All).from_reader(text.as_bytes());
-    let header = reader.headers().map_err(|e| csv_error(path, &e, 1))?.clone();
+    let mut lines = crate::csv_line::LineCounter::new(text);
+    let header = reader.headers().map_err(|e| csv_error(path, &e, &mut lines, 1))?.clone();
     let columns = read_header(&header).map_err(|what| FitError::Line { file: path.to_path_buf(), line: 1, what })?;
     let mut terrains: Vec<String> = Vec::new();
     // Terrain indices by name: a log may name a new terrain on every row.
@@ -103,8 +104,8 @@ pub fn parse_log_with(path: &Path, text: &str, limits: &Limits) -> Result<DriveL
     let mut samples: Vec<LogSample> = Vec::new();
     let mut origin: Option<GeoOrigin> = None;
     for (k, record) in reader.records().enumerate() {
-        let record = record.map_err(|e| csv_error(path, &e, k + 2))?;
-        let line = record.position().and_then(|p| usize::try_from(p.line()).ok()).unwrap_or(k + 2);
+        let record = record.map_err(|e| csv_error(path, &e, &mut lines, k + 2))?;
+        let line = lines.line_of(record.position(), k + 2);
         let at = |column: &str, what: String| FitError::Cell {
             file: path.to_path_buf(),
             line,
@@ -187,8 +188,13 @@ pub fn parse_log_with(path: &Path, text: &str, limits: &Limits) -> Result<DriveL
     Ok(DriveLog { source: path.to_path_buf(), terrains, samples, origin, period_s })
 }
 
-fn csv_error(path: &Path, error: &csv::Error, fallback_line: usize) -> FitError {
-    let line = error.position().and_then(|p| usize::try_from(p.line()).ok()).unwrap_or(fallback_line);
+fn csv_error(
+    path: &Path,
+    error: &csv::Error,
+    lines: &mut crate::csv_line::LineCounter,
+    fallback_line: usize,
+) -> FitError {
+    let line = lines.line_of(error.position(), fallback_line);
     let what = match error.kind() {
         csv::ErrorKind::UnequalLengths { expected_len, len, .. } => {
             format!("has {len} fields, the header has {expected_len}")
@@ -287,6 +293,9 @@ mod tests {
     fn bad_cell_names_file_line_and_column() {
         let e = err(&format!("{HEADER}0,1,1,0,0,0,grass\n0.1,fast,1,0,0,0,grass\n"));
         assert_eq!(e, "drive.csv: line 3, column left_mps: 'fast' is not a number");
+        // The same line with CRLF line endings.
+        let crlf = format!("{HEADER}0,1,1,0,0,0,grass\n0.1,fast,1,0,0,0,grass\n").replace('\n', "\r\n");
+        assert_eq!(err(&crlf), "drive.csv: line 3, column left_mps: 'fast' is not a number");
     }
 
     #[test]

@@ -154,10 +154,9 @@ enum Plan {
 /// use skidroute::relax::{relax_route, RelaxSettings};
 /// use skidroute::route::{Leg, Route, SourcePosition};
 /// use skidroute::vehicle::Profile;
-/// let leg = Leg { name: None, terrain: "deep-snow".into(), speed_mps: Some(1.2), corridor_m: None,
-///     points: vec![[0.0, 0.0], [30.0, 0.0], [30.0, 30.0]], altitude_m: None,
-///     position: SourcePosition::Line(2) };
-/// let route = Route { name: "r".into(), source: "r.csv".into(), origin: None, legs: vec![leg] };
+/// let points = vec![[0.0, 0.0], [30.0, 0.0], [30.0, 30.0]];
+/// let leg = Leg { speed_mps: Some(1.2), ..Leg::new("deep-snow", points, SourcePosition::Line(2)) };
+/// let route = Route { name: "r".into(), source: "r.csv".into(), origin: None, legs: vec![leg], warnings: vec![] };
 /// let relaxed = relax_route(&route, &Profile::demo(), &RelaxSettings::default()).unwrap();
 /// assert_eq!(relaxed.changes.len(), 1);
 /// assert!(relaxed.changes[0].new_radius_m > relaxed.changes[0].old_radius_m);
@@ -521,7 +520,8 @@ fn stretch_displacement_m(pts: &[[f64; 2]], s_m: &[f64], new: &[NewPoint], from_
 }
 
 /// Cuts the new plan into the route's legs at the original leg boundaries (by original arc
-/// length); the boundary point is shared. Altitude is carried over by arc length.
+/// length); the boundary point is shared. Altitude and every per-point profile (speed,
+/// corridor, cross slope) are carried over by arc length; a lowered speed caps the profile.
 fn split_into_legs(
     route: &Route,
     drive: &RouteDrive,
@@ -545,11 +545,16 @@ fn split_into_legs(
             return Err(RelaxError::LegSwallowed { route: route.name.clone(), leg: i + 1 });
         }
         let slice = &new[a..=b];
-        let mut out = leg.clone();
+        let (arc_m, leg_start_m) = (leg.arc_lengths_m(), s_m.get(first[i]).copied().unwrap_or(0.0));
+        let stations: Vec<_> = slice.iter().map(|q| leg.station_at_arc_m(&arc_m, q.s_m - leg_start_m)).collect();
+        let mut out = leg.resampled(&stations);
         out.points = slice.iter().map(|q| q.p).collect();
         out.altitude_m = has_alt.then(|| slice.iter().map(|q| drive.plan.altitude_at(q.s_m).unwrap_or(0.0)).collect());
         if let Some(v) = speeds.get(i).copied().flatten() {
-            out.speed_mps = Some(v);
+            match out.speeds_mps.take() {
+                Some(profile) => out.set_speed_profile(profile.into_iter().map(|p| p.min(v)).collect()),
+                None => out.speed_mps = Some(v),
+            }
         }
         legs.push(out);
     }

@@ -15,12 +15,15 @@ fn leg(points: Vec<[f64; 2]>, terrain: &str, speed_mps: f64) -> Leg {
         corridor_m: Some(1.0),
         points,
         altitude_m: None,
+        speeds_mps: None,
+        corridors_m: None,
+        cross_slope: None,
         position: SourcePosition::Line(2),
     }
 }
 
 fn route(legs: Vec<Leg>) -> Route {
-    Route { name: "r".into(), source: PathBuf::from("r.csv"), origin: None, legs }
+    Route { name: "r".into(), source: PathBuf::from("r.csv"), origin: None, legs, warnings: Vec::new() }
 }
 
 /// Largest distance from any point of `a` (sampled every 2 cm) to the polyline `b`.

@@ -199,6 +199,10 @@ where
         "in the map frame"
     };
     let mut chart = super::plot::map_chart(&map, all, frame)?;
+    // Alternatives share the first route's frame (see FramedRoute), so the map is placed in it.
+    let origin = c.run.routes.first().and_then(|r| r.route.origin);
+    let polygons = super::plot::map_polygons(c.run.terrain_map.as_deref(), origin.as_ref());
+    super::plot::draw_terrain_map(&mut chart, &polygons)?;
     let pts = |v: &[[f64; 2]]| v.iter().map(|p| (p[0], p[1])).collect::<Vec<_>>();
     for r in &c.ranking {
         let (Some(f), Some(cr)) = (framed.get(r.run_index), c.run.routes.get(r.run_index)) else { continue };

@@ -12,6 +12,7 @@ use super::plot::terrain_color;
 use super::ReportError;
 use crate::drift::DriftReport;
 use crate::route::{PlanPath, Route};
+use crate::site::terrain_map::MapPolygon;
 
 const SIZE_PX: (u32, u32) = (1400, 1250);
 const LEGEND_WIDTH_PX: u32 = 330;
@@ -26,6 +27,8 @@ struct DriftFigure<'a> {
     plan: PlanPath,
     report: &'a DriftReport,
     demo: bool,
+    /// Terrain-map polygons in the route's frame, shaded under the plan.
+    polygons: &'a [MapPolygon],
 }
 
 impl super::plot::Figure for DriftFigure<'_> {
@@ -36,24 +39,27 @@ impl super::plot::Figure for DriftFigure<'_> {
     where
         DB::ErrorType: 'static,
     {
-        draw(root, &self.plan, self.report, self.demo)
+        draw(root, self)
     }
 }
 
-/// Writes the plot of a drift run; the format follows the extension (`.svg` or `.png`).
-pub fn write_drift_plot(route: &Route, report: &DriftReport, demo: bool, path: &Path) -> Result<(), ReportError> {
-    super::plot::write_figure(&DriftFigure { plan: PlanPath::new(route), report, demo }, path)
+/// Writes the plot of a drift run, terrain-map `polygons` (in the route's frame) shaded under
+/// the plan; the format follows the extension (`.svg` or `.png`).
+pub fn write_drift_plot(
+    route: &Route,
+    report: &DriftReport,
+    demo: bool,
+    polygons: &[MapPolygon],
+    path: &Path,
+) -> Result<(), ReportError> {
+    super::plot::write_figure(&DriftFigure { plan: PlanPath::new(route), report, demo, polygons }, path)
 }
 
-fn draw<DB: DrawingBackend>(
-    root: &DrawingArea<DB, Shift>,
-    plan: &PlanPath,
-    r: &DriftReport,
-    demo: bool,
-) -> DrawResult<()>
+fn draw<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, fig: &DriftFigure) -> DrawResult<()>
 where
     DB::ErrorType: 'static,
 {
+    let (plan, r, demo) = (&fig.plan, fig.report, fig.demo);
     root.fill(&WHITE)?;
     let vehicle = if demo { "built-in demo profile" } else { r.vehicle.as_str() };
     let title = format!(
@@ -67,8 +73,8 @@ where
     let (w, h) = body.dim_in_pixel();
     let (top, bottom) = body.split_vertically((h as f64 * 0.72) as u32);
     let (map, legend) = top.split_horizontally(w.saturating_sub(LEGEND_WIDTH_PX));
-    draw_map(&map, plan, r)?;
-    draw_legend(&legend, r)?;
+    draw_map(&map, plan, r, fig.polygons)?;
+    draw_legend(&legend, r, fig.polygons)?;
     draw_cep(&bottom, r)?;
     Ok(())
 }
@@ -98,7 +104,12 @@ fn circle(c: [f64; 2], radius_m: f64) -> Vec<(f64, f64)> {
         .collect()
 }
 
-fn draw_map<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, plan: &PlanPath, r: &DriftReport) -> DrawResult<()>
+fn draw_map<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    plan: &PlanPath,
+    r: &DriftReport,
+    polygons: &[MapPolygon],
+) -> DrawResult<()>
 where
     DB::ErrorType: 'static,
 {
@@ -111,6 +122,7 @@ where
         .chain(ellipses.iter().flat_map(|e| e.1.iter().copied()))
         .chain(ellipses.iter().flat_map(|e| circle(e.2, e.3).into_iter().map(|(x, y)| [x, y])));
     let mut chart = super::plot::map_chart(area, extent, "")?;
+    super::plot::draw_terrain_map(&mut chart, polygons)?;
     for path in &r.sample_paths {
         chart.draw_series(LineSeries::new(path.iter().map(|p| (p[0], p[1])), RGBColor(90, 90, 90).mix(0.35)))?;
     }
@@ -140,7 +152,11 @@ where
     Ok(())
 }
 
-fn draw_legend<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, r: &DriftReport) -> DrawResult<()>
+fn draw_legend<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    r: &DriftReport,
+    polygons: &[MapPolygon],
+) -> DrawResult<()>
 where
     DB::ErrorType: 'static,
 {
@@ -152,6 +168,7 @@ where
         (Glyph::Line(CEP_BLUE, 2), "CEP95 circle about leg end".to_string()),
         (Glyph::Triangle(LOSS_ORANGE), "localization lost here".to_string()),
     ]);
+    entries.extend(super::plot::map_entries(polygons));
     super::plot::draw_legend(area, &entries)
 }
 
@@ -203,6 +220,9 @@ mod tests {
             corridor_m: None,
             points,
             altitude_m: None,
+            speeds_mps: None,
+            corridors_m: None,
+            cross_slope: None,
             position: SourcePosition::Feature(0),
         };
         let route = Route {
@@ -210,18 +230,19 @@ mod tests {
             source: "r.csv".into(),
             origin: None,
             legs: vec![leg("gravel", vec![[0.0, 0.0], [12.0, 0.0]]), leg("asphalt", vec![[12.0, 0.0], [12.0, 8.0]])],
+            warnings: Vec::new(),
         };
         let settings =
             DriftSettings { samples: 12, seed: 1, lost_from_leg: 1, odometry: Odometry::Calibrated, paths_kept: 4 };
         let report = run_drift(&route, &Profile::demo(), &settings, &NoProgress).expect("run");
         let dir = tempfile::tempdir().expect("tempdir");
         let svg = dir.path().join("d.svg");
-        write_drift_plot(&route, &report, true, &svg).expect("svg");
+        write_drift_plot(&route, &report, true, &[], &svg).expect("svg");
         let text = std::fs::read_to_string(&svg).expect("read");
         assert!(text.contains("CEP95") && text.contains("end of leg 2"));
         let png = dir.path().join("d.png");
-        write_drift_plot(&route, &report, true, &png).expect("png");
+        write_drift_plot(&route, &report, true, &[], &png).expect("png");
         assert!(std::fs::metadata(&png).expect("png").len() > 10_000);
-        assert!(write_drift_plot(&route, &report, true, &dir.path().join("d.pdf")).is_err());
+        assert!(write_drift_plot(&route, &report, true, &[], &dir.path().join("d.pdf")).is_err());
     }
 }

@@ -31,6 +31,8 @@ pub struct DriftOutputs {
     pub report_json: Option<PathBuf>,
     pub plot: Option<PathBuf>,
     pub ellipses_geojson: Option<PathBuf>,
+    /// A terrain map to shade under the plan on the plot.
+    pub terrain_map: Option<std::sync::Arc<crate::site::TerrainMap>>,
 }
 
 impl DriftOutputs {
@@ -55,7 +57,8 @@ pub fn write_drift_outputs(
         write_atomic(p, drift_json(report, demo_profile).as_bytes())?;
     }
     if let Some(p) = &out.plot {
-        super::drift_plot::write_drift_plot(route, report, demo_profile, p)?;
+        let polygons = super::plot::map_polygons(out.terrain_map.as_deref(), route.origin.as_ref());
+        super::drift_plot::write_drift_plot(route, report, demo_profile, &polygons, p)?;
     }
     Ok(())
 }
@@ -268,6 +271,9 @@ mod tests {
             corridor_m: None,
             points,
             altitude_m: None,
+            speeds_mps: None,
+            corridors_m: None,
+            cross_slope: None,
             position: SourcePosition::Feature(0),
         };
         let route = Route {
@@ -275,6 +281,7 @@ mod tests {
             source: "r.geojson".into(),
             origin,
             legs: vec![leg("gravel", vec![[0.0, 0.0], [15.0, 0.0]]), leg("grass", vec![[15.0, 0.0], [15.0, 10.0]])],
+            warnings: Vec::new(),
         };
         let settings =
             DriftSettings { samples: 30, seed: 3, lost_from_leg: 1, odometry: Odometry::Ideal, paths_kept: 5 };

@@ -41,7 +41,7 @@ fn opt(x: Option<f64>, decimals: usize, none: &str) -> String {
     x.map_or_else(|| none.to_string(), |v| format!("{v:.decimals$}"))
 }
 
-fn route_section(out: &mut String, r: &RouteReport) {
+fn route_section(out: &mut String, r: &RouteReport, warnings: &[String]) {
     let _ =
         writeln!(out, "<h2>route '{}' from {}: {}</h2>", escape(&r.route), escape(&r.source), verdict_span(r.verdict));
     let _ = writeln!(
@@ -109,6 +109,8 @@ fn route_section(out: &mut String, r: &RouteReport) {
             l.reasons.iter().map(move |why| format!("leg {} ({}): {}", l.index, l.verdict.name(), escape(why)))
         }))
         .collect();
+    let reasons = reasons.into_iter().chain(warnings.iter().map(|w| format!("warning: {}", escape(w))));
+    let reasons: Vec<String> = reasons.collect();
     if !reasons.is_empty() {
         out.push_str("<ul>\n");
         for why in reasons {
@@ -180,7 +182,7 @@ pub fn report_html(run: &CheckRun, plot_svg: &str, comparison: Option<&Compariso
     };
     let _ = writeln!(out, "<h2>plot</h2>\n<figure>{svg}</figure>");
     for cr in &run.routes {
-        route_section(&mut out, &cr.report);
+        route_section(&mut out, &cr.report, &cr.route.warnings);
     }
     let _ = writeln!(out, "<p>Caution: {}</p>\n</body></html>", escape(CAUTION));
     out
@@ -193,7 +195,7 @@ mod tests {
     #[test]
     fn escapes_markup_and_builds_a_document_without_external_resources() {
         assert_eq!(escape("<a href=\"x\">&'"), "&lt;a href=&quot;x&quot;&gt;&amp;&#39;");
-        let run = CheckRun { vehicle_name: "v<1>".into(), demo_profile: true, routes: vec![] };
+        let run = CheckRun { vehicle_name: "v<1>".into(), demo_profile: true, routes: vec![], terrain_map: None };
         let html = report_html(&run, "<?xml version=\"1.0\"?>\n<svg></svg>", None);
         assert!(html.starts_with("<!DOCTYPE html>"));
         assert!(html.contains("<figure><svg></svg></figure>"));

@@ -4,7 +4,7 @@
 
 use serde::Serialize;
 
-use crate::assess::RouteReport;
+use super::json::RouteEntry;
 use crate::check::CheckRun;
 
 /// Format tag of one line.
@@ -16,7 +16,7 @@ struct RouteLine<'a> {
     vehicle: &'a str,
     demo_profile: bool,
     #[serde(flatten)]
-    report: &'a RouteReport,
+    report: RouteEntry<'a>,
 }
 
 /// One line (ending in a newline) per route, in the run's order.
@@ -27,7 +27,7 @@ pub fn check_jsonl(run: &CheckRun) -> String {
             format: ROUTE_LINE_FORMAT,
             vehicle: &run.vehicle_name,
             demo_profile: run.demo_profile,
-            report: &cr.report,
+            report: RouteEntry::of(cr),
         };
         match serde_json::to_string(&line) {
             Ok(s) => out.push_str(&s),

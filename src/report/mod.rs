@@ -73,7 +73,8 @@ pub fn refuse_overwriting_inputs<'a>(
     inputs: impl IntoIterator<Item = &'a PathBuf>,
     outputs: impl IntoIterator<Item = &'a PathBuf>,
 ) -> Result<(), ReportError> {
-    let inputs: Vec<PathBuf> = inputs.into_iter().map(|p| resolved(p)).collect();
+    // An input `-` is standard input, which no output can overwrite (an output `-` is stdout).
+    let inputs: Vec<PathBuf> = inputs.into_iter().filter(|p| p.as_os_str() != "-").map(|p| resolved(p)).collect();
     let mut seen: Vec<(PathBuf, &PathBuf)> = Vec::new();
     for out in outputs {
         let r = resolved(out);

@@ -1,6 +1,7 @@
 //! The check plot (SVG or PNG by extension): per route, a top view with the plan coloured by
-//! terrain, the predicted path, failing legs marked, equal axis scales in metres; below it the
-//! deviation against distance along the route with each leg's corridor.
+//! terrain over the terrain map's polygons (light fills, when a map was given), the predicted
+//! path, failing legs marked, equal axis scales in metres; below it the deviation against
+//! distance along the route with each leg's corridor.
 //!
 //! Text is drawn with a bundled DejaVu Sans (Bitstream Vera licence, see fonts/LICENSE-DejaVu)
 //! through plotters' pure-Rust font path, so no system font library is needed.
@@ -61,6 +62,68 @@ pub fn terrain_color(terrain: &str) -> RGBColor {
             PALETTE[(h % PALETTE.len() as u32) as usize]
         }
     }
+}
+
+/// The light fill of a terrain on the map: its colour two thirds of the way to white, opaque,
+/// so overlapping polygons show the later one (as the cutting does) and the plan stays legible.
+pub fn terrain_fill(terrain: &str) -> RGBColor {
+    let RGBColor(r, g, b) = terrain_color(terrain);
+    let light = |c: u8| (f64::from(c) + (255.0 - f64::from(c)) * 0.68).round() as u8;
+    RGBColor(light(r), light(g), light(b))
+}
+
+/// Shades terrain-map polygons (already in the chart's local frame) under everything else,
+/// in file order, each clipped to the chart's view. A polygon without holes is one filled
+/// shape; one with holes is filled triangle by triangle (ear clipping, geo's
+/// `TriangulateEarcut`), each triangle outlined in its fill so no seam shows.
+pub(crate) fn draw_terrain_map<DB: DrawingBackend>(
+    chart: &mut LinearChart<'_, DB>,
+    polygons: &[crate::site::terrain_map::MapPolygon],
+) -> DrawResult<()>
+where
+    DB::ErrorType: 'static,
+{
+    use geo::{BooleanOps, TriangulateEarcut};
+    let (xr, yr) = (chart.x_range(), chart.y_range());
+    let view =
+        geo::Rect::new(geo::coord! { x: xr.start, y: yr.start }, geo::coord! { x: xr.end, y: yr.end }).to_polygon();
+    let ring = |ls: &geo::LineString<f64>| ls.0.iter().map(|c| (c.x, c.y)).collect::<Vec<_>>();
+    for mp in polygons {
+        let fill = terrain_fill(&mp.terrain);
+        for part in mp.polygon.intersection(&view) {
+            if part.interiors().is_empty() {
+                chart.draw_series(std::iter::once(Polygon::new(ring(part.exterior()), fill.filled())))?;
+                continue;
+            }
+            for t in part.earcut_triangles() {
+                let pts: Vec<(f64, f64)> = [t.v1(), t.v2(), t.v3()].iter().map(|c| (c.x, c.y)).collect();
+                chart.draw_series(std::iter::once(Polygon::new(pts.clone(), fill.filled())))?;
+                let mut closed = pts;
+                closed.push(closed[0]);
+                chart.draw_series(std::iter::once(PathElement::new(closed, fill.stroke_width(1))))?;
+            }
+        }
+    }
+    Ok(())
+}
+
+/// The terrain map's polygons in a route's frame, when the run has a map that fits it.
+pub(crate) fn map_polygons(
+    map: Option<&crate::site::TerrainMap>,
+    origin: Option<&crate::route::GeoOrigin>,
+) -> Vec<crate::site::terrain_map::MapPolygon> {
+    map.and_then(|m| m.local_polygons(origin).ok()).unwrap_or_default()
+}
+
+/// Legend lines for the map terrains shaded on a plot, in first-appearance order.
+pub(crate) fn map_entries(polygons: &[crate::site::terrain_map::MapPolygon]) -> Vec<(Glyph, String)> {
+    let mut seen: Vec<&str> = Vec::new();
+    for p in polygons {
+        if !seen.contains(&p.terrain.as_str()) {
+            seen.push(&p.terrain);
+        }
+    }
+    seen.into_iter().map(|t| (Glyph::Fill(terrain_fill(t)), format!("map: {t}"))).collect()
 }
 
 const FAIL_RED: RGBColor = RGBColor(220, 30, 30);
@@ -232,8 +295,11 @@ where
     let (w, h) = body.dim_in_pixel();
     let (top, bottom) = body.split_vertically((h as f64 * 0.6) as u32);
     let (map, legend) = top.split_horizontally(w.saturating_sub(LEGEND_WIDTH_PX));
-    draw_top_view(&map, cr)?;
-    draw_legend(&legend, &legend_entries(cr))?;
+    let polygons = map_polygons(run.terrain_map.as_deref(), cr.route.origin.as_ref());
+    draw_top_view(&map, cr, &polygons)?;
+    let mut entries = legend_entries(cr);
+    entries.extend(map_entries(&polygons));
+    draw_legend(&legend, &entries)?;
     let (_, bh) = bottom.dim_in_pixel();
     let (deviation, effort) = bottom.split_vertically(bh / 2);
     draw_deviation(&deviation, cr)?;
@@ -262,7 +328,11 @@ pub(crate) fn equal_ranges(points: impl Iterator<Item = [f64; 2]>, w_px: f64, h_
     ((cx - hw, cx + hw), (cy - hh, cy + hh))
 }
 
-fn draw_top_view<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, cr: &CheckedRoute) -> DrawResult<()>
+fn draw_top_view<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    cr: &CheckedRoute,
+    polygons: &[crate::site::terrain_map::MapPolygon],
+) -> DrawResult<()>
 where
     DB::ErrorType: 'static,
 {
@@ -270,6 +340,7 @@ where
     let trace_pts = cr.trace.steps.iter().map(|s| [s.pose.x_m, s.pose.y_m]);
     let frame = if cr.route.origin.is_some() { "of the route start" } else { "in the map frame" };
     let mut chart = map_chart(area, plan_pts.chain(trace_pts), frame)?;
+    draw_terrain_map(&mut chart, polygons)?;
     draw_plan_legs(&mut chart, cr)?;
     let pred = cr.trace.steps.iter().map(|s| (s.pose.x_m, s.pose.y_m));
     chart.draw_series(LineSeries::new(pred, BLACK.stroke_width(2)))?;
@@ -353,6 +424,8 @@ where
 /// A legend line: what its glyph looks like and its text.
 pub(crate) enum Glyph {
     Line(RGBColor, u32),
+    /// A filled square (a shaded map area).
+    Fill(RGBColor),
     Halo(RGBColor),
     Cross(RGBColor),
     Dot(RGBColor),
@@ -407,6 +480,7 @@ where
             Glyph::Cross(c) => area.draw(&Cross::new((x0 + 17, y), 8, c.stroke_width(4)))?,
             Glyph::Dot(c) => area.draw(&Circle::new((x0 + 17, y), 7, c.filled()))?,
             Glyph::Square => area.draw(&Rectangle::new([(x0 + 11, y - 6), (x0 + 23, y + 6)], BLACK.filled()))?,
+            Glyph::Fill(c) => area.draw(&Rectangle::new([(x0 + 3, y - 9), (x0 + 31, y + 9)], c.filled()))?,
             Glyph::Triangle(c) => {
                 area.draw(&(EmptyElement::at((x0 + 17, y)) + TriangleMarker::new((0, 0), 9, c.filled())))?
             }

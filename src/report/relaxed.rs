@@ -1,8 +1,10 @@
 //! Writing a relaxed route back in its input's format, with everything else kept: GeoJSON
 //! features keep all their properties and the collection its other members (only a leg's
-//! coordinates change, and `speed_mps` where relax lowered it); lon/lat go through the exact
-//! inverse projection. CSV keeps its columns and each leg's other cells; `speed_mps` is added as
-//! a column when a speed was lowered and the file had none.
+//! coordinates change, `speed_mps` where relax lowered it, and `speeds_mps` rewritten for the new
+//! points where the feature had one); lon/lat go through the exact inverse projection. CSV keeps
+//! its columns and each leg's other cells, with per-row speeds and corridors written where the
+//! leg has a profile; `speed_mps` is added as a column when a speed was lowered and the file had
+//! none.
 
 use std::collections::HashMap;
 
@@ -18,13 +20,7 @@ fn round_deg(x: f64) -> f64 {
 /// Local metres to lon/lat whose ellipsoidal height is `height_m` (the altitude the reader
 /// projected with), so unchanged points come back to their input coordinates.
 fn geodetic_at_height(origin: &GeoOrigin, east_m: f64, north_m: f64, height_m: f64) -> (f64, f64) {
-    let mut up_m = height_m - origin.alt_m;
-    let (mut lon, mut lat, mut alt) = origin.to_geodetic(east_m, north_m, up_m);
-    for _ in 0..3 {
-        up_m += height_m - alt;
-        (lon, lat, alt) = origin.to_geodetic(east_m, north_m, up_m);
-    }
-    (lon, lat)
+    origin.to_lon_lat_at_height(east_m, north_m, height_m)
 }
 
 fn leg_coordinates(origin: &GeoOrigin, leg: &Leg) -> Vec<Value> {
@@ -58,7 +54,15 @@ pub fn relaxed_geojson(text: &str, original: &[Route], relaxed: &[Route]) -> Res
             if let Some(geometry) = feature.get_mut("geometry").and_then(Value::as_object_mut) {
                 geometry.insert("coordinates".into(), Value::Array(leg_coordinates(&origin, leg)));
             }
-            if leg.speed_mps != old_leg.speed_mps {
+            let had_profile = feature.pointer("/properties/speeds_mps").is_some_and(|v| !v.is_null());
+            if had_profile || leg.speeds_mps.is_some() {
+                let speeds: Option<Vec<f64>> = (0..leg.points.len()).map(|i| leg.speed_at_point(i)).collect();
+                if let (Some(speeds), Some(p)) = (speeds, feature.get_mut("properties").and_then(Value::as_object_mut))
+                {
+                    p.remove("speed_mps");
+                    p.insert("speeds_mps".into(), json!(speeds));
+                }
+            } else if leg.speed_mps != old_leg.speed_mps {
                 if let (Some(v), Some(props)) = (leg.speed_mps, feature.get_mut("properties")) {
                     if props.is_null() {
                         *props = json!({});
@@ -87,9 +91,11 @@ pub fn relaxed_csv(text: &str, original: &[Route], relaxed: &[Route]) -> Result<
     let mut reader = csv::ReaderBuilder::new().trim(csv::Trim::All).from_reader(text.as_bytes());
     let mut header: Vec<String> = reader.headers().map_err(|e| e.to_string())?.iter().map(str::to_string).collect();
     let mut rows: HashMap<usize, Vec<String>> = HashMap::new();
+    // The same line numbers as the route reader's (right for CRLF files too).
+    let mut lines = crate::csv_line::LineCounter::new(text);
     for (k, rec) in reader.records().enumerate() {
         let rec = rec.map_err(|e| e.to_string())?;
-        let line = rec.position().and_then(|p| usize::try_from(p.line()).ok()).unwrap_or(k + 2);
+        let line = lines.line_of(rec.position(), k + 2);
         rows.insert(line, rec.iter().map(str::to_string).collect());
     }
     let col = |h: &[String], name: &str| h.iter().position(|c| c == name);
@@ -99,6 +105,7 @@ pub fn relaxed_csv(text: &str, original: &[Route], relaxed: &[Route]) -> Result<
         header.push("speed_mps".into());
     }
     let (cx, cy, cz, cs) = (col(&header, "x_m"), col(&header, "y_m"), col(&header, "z_m"), col(&header, "speed_mps"));
+    let cc = col(&header, "corridor_m");
     let mut w = csv::Writer::from_writer(Vec::new());
     w.write_record(&header).map_err(|e| e.to_string())?;
     for (orig, new) in original.iter().zip(relaxed) {
@@ -121,8 +128,11 @@ pub fn relaxed_csv(text: &str, original: &[Route], relaxed: &[Route]) -> Result<
                 if let Some(z) = leg.altitude_m.as_ref().and_then(|a| a.get(i)) {
                     set(cz, metres(*z));
                 }
-                if leg.speed_mps != old_leg.speed_mps {
-                    set(cs, leg.speed_mps.map(|v| format!("{v}")).unwrap_or_default());
+                if leg.speeds_mps.is_some() || leg.speed_mps != old_leg.speed_mps {
+                    set(cs, leg.speed_at_point(i).map(|v| format!("{v}")).unwrap_or_default());
+                }
+                if leg.corridors_m.is_some() {
+                    set(cc, leg.corridor_at_point(i).map(|v| format!("{v}")).unwrap_or_default());
                 }
                 w.write_record(&row).map_err(|e| e.to_string())?;
             }

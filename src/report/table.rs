@@ -121,6 +121,9 @@ pub fn check_table(run: &CheckRun, color: bool) -> String {
         for why in &r.reasons {
             let _ = writeln!(out, "  route: {why}");
         }
+        for warning in &cr.route.warnings {
+            let _ = writeln!(out, "  warning: {warning}");
+        }
         if let Some(d) = &r.drift {
             let _ = writeln!(
                 out,

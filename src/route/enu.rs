@@ -71,6 +71,21 @@ impl GeoOrigin {
         (lon_rad.to_degrees(), lat_rad.to_degrees(), alt_m)
     }
 
+    /// Local east, north metres to (longitude, latitude) degrees of the point whose
+    /// ellipsoidal height is `height_m`: the inverse of projecting (lon, lat, `height_m`) with
+    /// [`to_local`](Self::to_local) and dropping the up component. Routes and maps without
+    /// altitude are projected at the origin's height, so `height_m = self.alt_m` brings their
+    /// points back exactly.
+    pub fn to_lon_lat_at_height(&self, east_m: f64, north_m: f64, height_m: f64) -> (f64, f64) {
+        let mut up_m = height_m - self.alt_m;
+        let (mut lon, mut lat, mut alt) = self.to_geodetic(east_m, north_m, up_m);
+        for _ in 0..3 {
+            up_m += height_m - alt;
+            (lon, lat, alt) = self.to_geodetic(east_m, north_m, up_m);
+        }
+        (lon, lat)
+    }
+
     fn ecef_m(&self) -> [f64; 3] {
         geodetic_to_ecef(self.lat_deg.to_radians(), self.lon_deg.to_radians(), self.alt_m)
     }

@@ -15,8 +15,9 @@ use serde_json::{Map, Value};
 /// skipped unread. An array or object given for one of these keeps only its kind (for the
 /// "must be a string, found an array" message), never its content.
 pub(super) const SCALAR_PROPERTIES: &[&str] = &["terrain", "speed_mps", "corridor_m", "name", "route"];
-/// Properties the reader reads whose value is an array of scalars (kept whole).
-pub(super) const ARRAY_PROPERTIES: &[&str] = &[];
+/// Properties the reader reads whose value is an array of scalars: the array's elements are
+/// kept when they are scalars; a nested array or object keeps only its kind, as above.
+pub(super) const ARRAY_PROPERTIES: &[&str] = &["speeds_mps"];
 
 /// The top-level object.
 #[derive(Deserialize)]
@@ -98,7 +99,7 @@ fn known_properties<'de, D: Deserializer<'de>>(d: D) -> Result<Option<Map<String
                 if SCALAR_PROPERTIES.contains(&key.as_str()) {
                     out.insert(key, map.next_value::<Shallow>()?.0);
                 } else if ARRAY_PROPERTIES.contains(&key.as_str()) {
-                    out.insert(key, map.next_value::<Value>()?);
+                    out.insert(key, map.next_value::<ShallowList>()?.0);
                 } else {
                     map.next_value::<IgnoredAny>()?;
                 }
@@ -113,42 +114,65 @@ fn known_properties<'de, D: Deserializer<'de>>(d: D) -> Result<Option<Map<String
 /// its kind (its content skipped), which is all a "found an array" message needs.
 struct Shallow(Value);
 
+/// A property value like [`Shallow`], except that an array keeps its elements, each one as a
+/// [`Shallow`] (an array property such as `speeds_mps`).
+struct ShallowList(Value);
+
+impl<'de> Deserialize<'de> for ShallowList {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        d.deserialize_any(ShallowVisitor { keep_elements: true }).map(|Shallow(v)| ShallowList(v))
+    }
+}
+
 impl<'de> Deserialize<'de> for Shallow {
     fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
-        struct V;
-        impl<'de> Visitor<'de> for V {
-            type Value = Shallow;
-            fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
-                f.write_str("a JSON value")
+        d.deserialize_any(ShallowVisitor { keep_elements: false })
+    }
+}
+
+/// The visitor of [`Shallow`] and [`ShallowList`].
+struct ShallowVisitor {
+    /// Keep an array's elements (each shallow) rather than skipping them.
+    keep_elements: bool,
+}
+
+impl<'de> Visitor<'de> for ShallowVisitor {
+    type Value = Shallow;
+    fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
+        f.write_str("a JSON value")
+    }
+    fn visit_bool<E: de::Error>(self, v: bool) -> Result<Shallow, E> {
+        Ok(Shallow(Value::Bool(v)))
+    }
+    fn visit_i64<E: de::Error>(self, v: i64) -> Result<Shallow, E> {
+        Ok(Shallow(Value::from(v)))
+    }
+    fn visit_u64<E: de::Error>(self, v: u64) -> Result<Shallow, E> {
+        Ok(Shallow(Value::from(v)))
+    }
+    fn visit_f64<E: de::Error>(self, v: f64) -> Result<Shallow, E> {
+        Ok(Shallow(Value::from(v)))
+    }
+    fn visit_str<E: de::Error>(self, v: &str) -> Result<Shallow, E> {
+        Ok(Shallow(Value::String(v.to_string())))
+    }
+    fn visit_unit<E: de::Error>(self) -> Result<Shallow, E> {
+        Ok(Shallow(Value::Null))
+    }
+    fn visit_seq<A: SeqAccess<'de>>(self, mut seq: A) -> Result<Shallow, A::Error> {
+        let mut elements = Vec::new();
+        if self.keep_elements {
+            while let Some(Shallow(v)) = seq.next_element::<Shallow>()? {
+                elements.push(v);
             }
-            fn visit_bool<E: de::Error>(self, v: bool) -> Result<Shallow, E> {
-                Ok(Shallow(Value::Bool(v)))
-            }
-            fn visit_i64<E: de::Error>(self, v: i64) -> Result<Shallow, E> {
-                Ok(Shallow(Value::from(v)))
-            }
-            fn visit_u64<E: de::Error>(self, v: u64) -> Result<Shallow, E> {
-                Ok(Shallow(Value::from(v)))
-            }
-            fn visit_f64<E: de::Error>(self, v: f64) -> Result<Shallow, E> {
-                Ok(Shallow(Value::from(v)))
-            }
-            fn visit_str<E: de::Error>(self, v: &str) -> Result<Shallow, E> {
-                Ok(Shallow(Value::String(v.to_string())))
-            }
-            fn visit_unit<E: de::Error>(self) -> Result<Shallow, E> {
-                Ok(Shallow(Value::Null))
-            }
-            fn visit_seq<A: SeqAccess<'de>>(self, mut seq: A) -> Result<Shallow, A::Error> {
-                while seq.next_element::<IgnoredAny>()?.is_some() {}
-                Ok(Shallow(Value::Array(Vec::new())))
-            }
-            fn visit_map<A: MapAccess<'de>>(self, mut map: A) -> Result<Shallow, A::Error> {
-                while map.next_entry::<IgnoredAny, IgnoredAny>()?.is_some() {}
-                Ok(Shallow(Value::Object(Map::new())))
-            }
+        } else {
+            while seq.next_element::<IgnoredAny>()?.is_some() {}
         }
-        d.deserialize_any(V)
+        Ok(Shallow(Value::Array(elements)))
+    }
+    fn visit_map<A: MapAccess<'de>>(self, mut map: A) -> Result<Shallow, A::Error> {
+        while map.next_entry::<IgnoredAny, IgnoredAny>()?.is_some() {}
+        Ok(Shallow(Value::Object(Map::new())))
     }
 }
 
@@ -316,6 +340,11 @@ mod tests {
         let p = features[0].properties.as_ref().expect("properties");
         assert_eq!(p.len(), 2, "only terrain and name are kept: {p:?}");
         assert_eq!(p["name"], Value::Array(Vec::new()));
+        let speeds = r#"{"features": [{"properties": {"speeds_mps": [1, [2, 3], {"a": 4}, "x"], "speed_mps": [5]}}]}"#;
+        let doc = parse_document(speeds).expect("parses");
+        let p = doc.features.as_ref().and_then(|f| f[0].properties.as_ref()).expect("properties");
+        let kept = serde_json::json!([1, [], {}, "x"]);
+        assert_eq!((&p["speeds_mps"], &p["speed_mps"]), (&kept, &Value::Array(Vec::new())));
         let g = features[0].geometry.as_ref().expect("geometry");
         assert!(g.coordinates.is_position_array);
         assert_eq!(g.coordinates.positions[1].as_slice(), [3.0, 4.0, 5.0]);

@@ -5,12 +5,13 @@
 pub mod enu;
 mod geojson_doc;
 pub mod plan;
+pub mod profile;
 mod read_csv;
 mod read_geojson;
 
 use std::path::{Path, PathBuf};
 
-use crate::limits::{clip, read_text_limited, Limits, ReadLimitedError};
+use crate::limits::{clip, read_stream_text_limited, read_text_limited, Limits, ReadLimitedError};
 
 pub use enu::GeoOrigin;
 pub use plan::{Cursor, PlanPath};
@@ -33,21 +34,63 @@ impl std::fmt::Display for SourcePosition {
     }
 }
 
-/// One leg of a planned route: a polyline on one terrain with one target speed and corridor.
+/// One leg of a planned route: a polyline on one terrain, with its target speed and corridor
+/// (one value for the leg, or a profile along it).
+///
+/// Every per-point vector (`altitude_m`, `speeds_mps`, `corridors_m`, `cross_slope`) has the
+/// length of `points` when present; between two points a value is linear in arc length (see
+/// [`profile`] for the functions that keep that true when points are inserted or a leg is cut).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Leg {
     pub name: Option<String>,
-    /// Key of the profile's `[terrain.*]` table.
+    /// Key of the profile's `[terrain.*]` table. Empty while a leg read without a terrain waits
+    /// for a terrain map ([`Leg::has_terrain`]); [`check_terrains`] refuses it after that.
     pub terrain: String,
-    /// Target speed; `None` means the profile's cruise speed.
+    /// Target speed; `None` means the profile's cruise speed. With a profile (`speeds_mps`) it
+    /// is the profile's largest value: the leg's nominal speed.
     pub speed_mps: Option<f64>,
-    /// Allowed lateral deviation either side; `None` means the profile's default.
+    /// Allowed lateral deviation either side; `None` means the profile's default. With a
+    /// profile (`corridors_m`) it is the profile's smallest value.
     pub corridor_m: Option<f64>,
     /// Plan points in the local frame, metres (x east, y north). At least 2, no two consecutive equal.
     pub points: Vec<[f64; 2]>,
-    /// Altitude of each point (same length as `points`) when the input carried one.
+    /// Altitude of each point (same length as `points`) when the input or an elevation raster
+    /// gave one.
     pub altitude_m: Option<Vec<f64>>,
+    /// Target speed at each point, m/s, when it changes along the leg (a planner's speed
+    /// profile); `None` when one speed holds for the whole leg (`speed_mps`).
+    pub speeds_mps: Option<Vec<f64>>,
+    /// Corridor half-width at each point, metres, when it changes along the leg.
+    pub corridors_m: Option<Vec<f64>>,
+    /// Cross slope of the ground at each point from an elevation raster: the tangent of the
+    /// slope angle across the direction of travel, positive when the ground is higher on the
+    /// left (README, "Elevation raster").
+    pub cross_slope: Option<Vec<f64>>,
     pub position: SourcePosition,
+}
+
+impl Leg {
+    /// A leg on `terrain` through `points` with no speed, corridor, altitude or profile given
+    /// (the profile's defaults apply), at `position`.
+    pub fn new(terrain: impl Into<String>, points: Vec<[f64; 2]>, position: SourcePosition) -> Leg {
+        Leg {
+            name: None,
+            terrain: terrain.into(),
+            speed_mps: None,
+            corridor_m: None,
+            points,
+            altitude_m: None,
+            speeds_mps: None,
+            corridors_m: None,
+            cross_slope: None,
+            position,
+        }
+    }
+
+    /// False while the leg waits for a terrain map to give it a terrain.
+    pub fn has_terrain(&self) -> bool {
+        !self.terrain.is_empty()
+    }
 }
 
 /// A route: legs in driving order, each joining the next.
@@ -60,6 +103,9 @@ pub struct Route {
     /// whose coordinates are already in the planner's local map frame.
     pub origin: Option<GeoOrigin>,
     pub legs: Vec<Leg>,
+    /// Things worth a look that do not stop the check (a route terrain the map disagrees with,
+    /// route altitudes far from the elevation raster's), one sentence each.
+    pub warnings: Vec<String>,
 }
 
 /// Largest gap allowed between the end of one leg and the start of the next (README, Inputs).
@@ -87,7 +133,24 @@ pub enum RouteFormat {
     Csv,
 }
 
+/// The route argument that means standard input.
+pub const STDIN_ARG: &str = "-";
+/// How messages and reports name a route read from standard input.
+pub const STDIN_NAME: &str = "<stdin>";
+
 impl RouteFormat {
+    /// The format of route text by its content: GeoJSON when the first character after any
+    /// byte-order mark and white space is `{`, CSV otherwise (for standard input, which has no
+    /// extension).
+    pub fn sniff(text: &str) -> RouteFormat {
+        let body = text.strip_prefix('\u{feff}').unwrap_or(text).trim_start();
+        if body.starts_with('{') {
+            RouteFormat::GeoJson
+        } else {
+            RouteFormat::Csv
+        }
+    }
+
     /// The format named by the file's extension: `.geojson`/`.json` or `.csv` (any case).
     pub fn from_path(path: &Path) -> Result<RouteFormat, RouteError> {
         let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
@@ -103,7 +166,8 @@ impl RouteFormat {
 }
 
 /// Reads every route in a file with the default [`Limits`]. The format is chosen by extension:
-/// `.geojson`/`.json` or `.csv`.
+/// `.geojson`/`.json` or `.csv`. The path `-` ([`STDIN_ARG`]) reads standard input instead, its
+/// format told by [`RouteFormat::sniff`] and its name in messages `<stdin>`.
 ///
 /// A GeoJSON file is projected about its first point (exact WGS 84 geodetic -> ECEF -> ENU).
 /// Legs are grouped by their `route` property (in order of first appearance); without it the
@@ -116,6 +180,14 @@ pub fn read_routes(path: &Path) -> Result<Vec<Route>, RouteError> {
 /// [`read_routes`] with explicit limits: the file size is checked before reading, and points
 /// per leg, legs per route and points per file while parsing.
 pub fn read_routes_with(path: &Path, limits: &Limits) -> Result<Vec<Route>, RouteError> {
+    if path == Path::new(STDIN_ARG) {
+        let name = Path::new(STDIN_NAME);
+        let text = read_stream_text_limited(std::io::stdin().lock(), limits.max_file_bytes).map_err(|e| match e {
+            ReadLimitedError::Io(source) => RouteError::Io { file: name.to_path_buf(), source },
+            other => RouteError::File { file: name.to_path_buf(), what: other.to_string() },
+        })?;
+        return parse_route_text(name, &text, RouteFormat::sniff(&text), limits);
+    }
     let format = RouteFormat::from_path(path)?;
     let text = read_text_limited(path, limits.max_file_bytes).map_err(|e| match e {
         ReadLimitedError::Io(source) => RouteError::Io { file: path.to_path_buf(), source },
@@ -150,10 +222,19 @@ pub fn parse_route_text(
     }
 }
 
-/// Checks that every leg's terrain is one the profile knows; the error names the leg's position
-/// and lists the known terrains.
+/// Checks that every leg has a terrain and that the profile knows it; the error names the leg's
+/// position and lists the known terrains.
 pub fn check_terrains(route: &Route, known: &[&str]) -> Result<(), RouteError> {
     for leg in &route.legs {
+        if !leg.has_terrain() {
+            return Err(RouteError::At {
+                file: route.source.clone(),
+                position: leg.position,
+                what: "has no terrain: give it one (the terrain property or column), or pass --terrain-map with a map \
+                       that covers it"
+                    .to_string(),
+            });
+        }
         if !known.contains(&leg.terrain.as_str()) {
             return Err(RouteError::At {
                 file: route.source.clone(),
@@ -200,7 +281,7 @@ fn group_in_order<T>(items: impl IntoIterator<Item = (String, T)>) -> Vec<(Strin
 }
 
 /// Checks the leg count of every route and the number of points in a file against `limits`.
-fn check_route_limits(path: &Path, routes: &[Route], limits: &Limits) -> Result<(), RouteError> {
+pub(crate) fn check_route_limits(path: &Path, routes: &[Route], limits: &Limits) -> Result<(), RouteError> {
     let mut total = 0usize;
     for route in routes {
         if route.legs.len() > limits.max_legs_per_route {

@@ -4,7 +4,10 @@
 //! Header `x_m,y_m,terrain` with optional `z_m`, `speed_mps`, `corridor_m`, `leg`, `route`, in any
 //! order; an unknown column is an error, so a typo cannot silently drop a speed or corridor.
 //! Rows are grouped by `route`; within a route a new leg starts where `leg` changes or, without a
-//! `leg` column, where terrain, speed or corridor changes. The boundary point belongs to both legs.
+//! `leg` column, where the terrain changes. The boundary point belongs to both legs. A speed or
+//! corridor that changes from row to row is a profile along the leg, not a new leg: within a leg
+//! every row gives one or none. An empty terrain cell leaves the rows for a terrain map to tag.
+//! Line numbers are right for LF and CRLF files (see `csv_line`).
 
 use std::path::Path;
 
@@ -14,6 +17,7 @@ use super::{
     check_route_limits, file_stem_name, find_duplicate_point, group_in_order, too_many_points, too_many_total_points,
     Leg, Route, RouteError, SourcePosition, DUPLICATE_POINT_M,
 };
+use crate::csv_line::LineCounter;
 use crate::limits::{
     check_corridor_m, check_speed_mps, clip, printable, show_number, Limits, MAX_ABS_ALTITUDE_M, MAX_ABS_COORDINATE_M,
 };
@@ -34,6 +38,7 @@ struct Columns {
 }
 
 /// One data row, validated.
+#[derive(Clone)]
 struct Row {
     line: usize,
     point: [f64; 2],
@@ -44,10 +49,12 @@ struct Row {
     leg: Option<String>,
 }
 
-/// A leg being assembled from rows, with the line of each point for messages.
+/// A leg being assembled from rows, with the line, speed and corridor of each point.
 struct LegBuilder {
     leg: Leg,
     lines: Vec<usize>,
+    speeds_mps: Vec<Option<f64>>,
+    corridors_m: Vec<Option<f64>>,
 }
 
 /// Parses a CSV route file; `path` is only used in messages and `Route::source`. Rows beyond
@@ -64,12 +71,13 @@ pub(super) fn parse(path: &Path, text: &str, limits: &Limits) -> Result<Vec<Rout
         return Err(at(path, line, "a quoted field opens here and is never closed (unterminated \")".to_string()));
     }
     let mut reader = ReaderBuilder::new().trim(Trim::All).from_reader(text.as_bytes());
-    let header = reader.headers().map_err(|e| csv_error(path, &e, 1))?.clone();
+    let mut lines = LineCounter::new(text);
+    let header = reader.headers().map_err(|e| csv_error(path, &e, &mut lines, 1))?.clone();
     let columns = read_header(&header).map_err(|what| at(path, 1, what))?;
     let mut rows = Vec::new();
     for (k, record) in reader.records().enumerate() {
-        let record = record.map_err(|e| csv_error(path, &e, k + 2))?;
-        let line = record.position().and_then(|p| usize::try_from(p.line()).ok()).unwrap_or(k + 2);
+        let record = record.map_err(|e| csv_error(path, &e, &mut lines, k + 2))?;
+        let line = lines.line_of(record.position(), k + 2);
         let route = cell(&record, columns.route).filter(|r| !r.is_empty()).map(|r| printable(r).into_owned());
         let row = read_row(&columns, &record, line).map_err(|what| at(path, line, what))?;
         if rows.len() >= limits.max_total_points {
@@ -86,7 +94,7 @@ pub(super) fn parse(path: &Path, text: &str, limits: &Limits) -> Result<Vec<Rout
         .into_iter()
         .map(|(name, rows)| {
             let legs = split_legs(path, &rows, columns.leg.is_some(), limits)?;
-            Ok(Route { name, source: path.to_path_buf(), origin: None, legs })
+            Ok(Route { name, source: path.to_path_buf(), origin: None, legs, warnings: Vec::new() })
         })
         .collect::<Result<Vec<_>, RouteError>>()?;
     check_route_limits(path, &routes, limits)?;
@@ -129,8 +137,8 @@ fn at(path: &Path, line: usize, what: String) -> RouteError {
     RouteError::At { file: path.to_path_buf(), position: SourcePosition::Line(line), what }
 }
 
-fn csv_error(path: &Path, error: &csv::Error, fallback_line: usize) -> RouteError {
-    let line = error.position().and_then(|p| usize::try_from(p.line()).ok()).unwrap_or(fallback_line);
+fn csv_error(path: &Path, error: &csv::Error, lines: &mut LineCounter, fallback_line: usize) -> RouteError {
+    let line = lines.line_of(error.position(), fallback_line);
     let what = match error.kind() {
         csv::ErrorKind::UnequalLengths { expected_len, len, .. } => {
             format!("has {len} fields, the header has {expected_len}")
@@ -171,7 +179,8 @@ fn cell(record: &StringRecord, index: Option<usize>) -> Option<&str> {
 }
 
 fn read_row(columns: &Columns, record: &StringRecord, line: usize) -> Result<Row, String> {
-    let terrain = required_cell(record, columns.terrain, "terrain")?.to_string();
+    // An empty terrain waits for a terrain map (`route::check_terrains` refuses it otherwise).
+    let terrain = cell(record, columns.terrain).unwrap_or("").to_string();
     let z_m = match columns.z_m {
         Some(_) => Some(bounded(required_cell(record, columns.z_m, "z_m")?, "z_m", MAX_ABS_ALTITUDE_M)?),
         None => None,
@@ -251,37 +260,31 @@ fn split_legs(path: &Path, rows: &[Row], has_leg_column: bool, limits: &Limits) 
     finished.into_iter().map(|builder| builder.finish(path, limits)).collect()
 }
 
-/// Whether `row` begins a new leg. With a `leg` column, only a change of `leg` does, and a change
-/// of terrain, speed or corridor inside one leg is an error (which would apply is ambiguous).
+/// Whether `row` begins a new leg: a change of `leg` or, without a `leg` column, of terrain.
+/// A terrain change inside one named leg is an error (which terrain would apply is ambiguous).
 fn starts_new_leg(leg: &Leg, row: &Row, has_leg_column: bool) -> Result<bool, String> {
-    let same_attributes =
-        leg.terrain == row.terrain && leg.speed_mps == row.speed_mps && leg.corridor_m == row.corridor_m;
     if !has_leg_column {
-        return Ok(!same_attributes);
+        return Ok(leg.terrain != row.terrain);
     }
     if leg.name != row.leg {
         return Ok(true);
     }
-    if same_attributes {
+    if leg.terrain == row.terrain {
         return Ok(false);
     }
     let name = leg.name.as_deref().unwrap_or("");
     let name = clip(name);
-    Err(format!("terrain, speed_mps or corridor_m changes within leg '{name}': give the new part its own leg value"))
+    Err(format!("terrain changes within leg '{name}': give the new part its own leg value"))
 }
 
 impl LegBuilder {
     fn start(row: &Row) -> Self {
         let leg = Leg {
             name: row.leg.clone(),
-            terrain: row.terrain.clone(),
-            speed_mps: row.speed_mps,
-            corridor_m: row.corridor_m,
-            points: vec![row.point],
             altitude_m: row.z_m.map(|z_m| vec![z_m]),
-            position: SourcePosition::Line(row.line),
+            ..Leg::new(row.terrain.clone(), vec![row.point], SourcePosition::Line(row.line))
         };
-        LegBuilder { leg, lines: vec![row.line] }
+        LegBuilder { leg, lines: vec![row.line], speeds_mps: vec![row.speed_mps], corridors_m: vec![row.corridor_m] }
     }
 
     fn push(&mut self, row: &Row) {
@@ -290,24 +293,34 @@ impl LegBuilder {
             altitude_m.push(z_m);
         }
         self.lines.push(row.line);
+        self.speeds_mps.push(row.speed_mps);
+        self.corridors_m.push(row.corridor_m);
     }
 
     /// Appends the next leg's first row as this leg's last point, so the legs join exactly. When a
     /// planner already repeated the boundary point (last row of this leg == first row of the next,
-    /// within DUPLICATE_POINT_M), it is not added twice: the legs still join.
+    /// within DUPLICATE_POINT_M), it is not added twice: the legs still join. The boundary point
+    /// takes the row's speed and corridor where the row gives them and this leg has them, else
+    /// it repeats this leg's last ones (a leg without values stays without).
     fn close_with(&mut self, row: &Row) {
         let repeated = self
             .leg
             .points
             .last()
             .is_some_and(|last| (row.point[0] - last[0]).hypot(row.point[1] - last[1]) < DUPLICATE_POINT_M);
-        if !repeated {
-            self.push(row);
+        if repeated {
+            return;
         }
+        let carry = |values: &[Option<f64>], given: Option<f64>| {
+            values.last().copied().flatten().map(|last| given.unwrap_or(last))
+        };
+        let (speed_mps, corridor_m) =
+            (carry(&self.speeds_mps, row.speed_mps), carry(&self.corridors_m, row.corridor_m));
+        self.push(&Row { speed_mps, corridor_m, ..row.clone() });
     }
 
     fn finish(self, path: &Path, limits: &Limits) -> Result<Leg, RouteError> {
-        let LegBuilder { leg, lines } = self;
+        let LegBuilder { mut leg, lines, speeds_mps, corridors_m } = self;
         let first_line = lines.first().copied().unwrap_or(1);
         let label = leg.name.as_ref().map_or_else(|| "leg".to_string(), |name| format!("leg '{}'", clip(name)));
         let n = leg.points.len();
@@ -326,7 +339,38 @@ impl LegBuilder {
             );
             return Err(at(path, line_a, what));
         }
+        let profile = |values: Vec<Option<f64>>, column: &str| -> Result<Option<Vec<f64>>, RouteError> {
+            match all_or_none(&values) {
+                Ok(profile) => Ok(profile),
+                Err((given, empty)) => {
+                    let (given, empty) = (lines.get(given).copied(), lines.get(empty).copied());
+                    let (given, empty) = (given.unwrap_or(first_line), empty.unwrap_or(first_line));
+                    let what = format!(
+                        "column {column} is empty but line {given} of the same {label} gives one: fill it on every row \
+                         of the leg, or on none (an empty leg takes the profile's default)"
+                    );
+                    Err(at(path, empty, what))
+                }
+            }
+        };
+        if let Some(v) = profile(speeds_mps, "speed_mps")? {
+            leg.set_speed_profile(v);
+        }
+        if let Some(v) = profile(corridors_m, "corridor_m")? {
+            leg.set_corridor_profile(v);
+        }
         Ok(leg)
+    }
+}
+
+/// Every value, or `None` when none is given; a mix is `Err((index given, index empty))`.
+fn all_or_none(values: &[Option<f64>]) -> Result<Option<Vec<f64>>, (usize, usize)> {
+    let given = values.iter().position(Option::is_some);
+    let empty = values.iter().position(Option::is_none);
+    match (given, empty) {
+        (None, _) => Ok(None),
+        (Some(_), None) => Ok(Some(values.iter().flatten().copied().collect())),
+        (Some(g), Some(e)) => Err((g, e)),
     }
 }
 
@@ -371,26 +415,75 @@ mod tests {
     }
 
     #[test]
-    fn splits_legs_where_terrain_speed_or_corridor_change_sharing_the_boundary_point() {
+    fn splits_legs_where_the_terrain_changes_sharing_the_boundary_point() {
         let text = "terrain, y_m, x_m, speed_mps, corridor_m\n\
-                    grass, 0, 0, 1.0, \n\
-                    grass, 0, 10, 1.0, \n\
-                    snow, 0, 20, 1.0, \n\
-                    snow, 0, 30, 0.5, \n\
+                    grass, 0, 0, 1.0, 0.5\n\
+                    grass, 0, 10, 1.0, 0.5\n\
+                    snow, 0, 20, 1.0, 0.4\n\
+                    snow, 0, 30, 0.5, 0.4\n\
                     snow, 0, 40, 0.5, 0.3\n\
                     snow, 0, 50, 0.5, 0.3\n";
         let routes = read(text).expect("valid file");
         let legs = &routes[0].legs;
-        assert_eq!(legs.len(), 4);
+        assert_eq!(legs.len(), 2);
         assert_eq!(xs(&legs[0]), [0.0, 10.0, 20.0]);
-        assert_eq!(xs(&legs[1]), [20.0, 30.0]);
-        assert_eq!(xs(&legs[2]), [30.0, 40.0]);
-        assert_eq!(xs(&legs[3]), [40.0, 50.0]);
+        assert_eq!(xs(&legs[1]), [20.0, 30.0, 40.0, 50.0]);
         let positions: Vec<_> = legs.iter().map(|l| l.position).collect();
-        assert_eq!(positions, [2, 4, 5, 6].map(SourcePosition::Line));
+        assert_eq!(positions, [2, 4].map(SourcePosition::Line));
         assert_eq!((legs[0].terrain.as_str(), legs[1].terrain.as_str()), ("grass", "snow"));
-        assert_eq!((legs[1].speed_mps, legs[2].speed_mps), (Some(1.0), Some(0.5)));
-        assert_eq!((legs[2].corridor_m, legs[3].corridor_m), (None, Some(0.3)));
+        // The boundary point takes the next row's values: a profile on the first leg.
+        assert_eq!((legs[0].speed_mps, legs[0].speeds_mps.as_ref()), (Some(1.0), None));
+        assert_eq!((legs[0].corridor_m, legs[0].corridors_m.as_deref()), (Some(0.4), Some(&[0.5, 0.5, 0.4][..])));
+        // Speed and corridor change inside the snow leg: profiles, nominal = max speed, min corridor.
+        assert_eq!(legs[1].speeds_mps.as_deref(), Some(&[1.0, 0.5, 0.5, 0.5][..]));
+        assert_eq!(legs[1].corridors_m.as_deref(), Some(&[0.4, 0.4, 0.3, 0.3][..]));
+        assert_eq!((legs[1].speed_mps, legs[1].corridor_m), (Some(1.0), Some(0.3)));
+    }
+
+    #[test]
+    fn a_speed_changing_on_every_row_is_a_profile_of_one_leg() {
+        // A planner's ramp: 300 rows, speed rising 0.01 m/s per row (once refused as 1-point legs).
+        let mut text = String::from("x_m,y_m,terrain,speed_mps\n");
+        for i in 0..300 {
+            text.push_str(&format!("{},0,grass,{}\n", i, 0.2 + 0.01 * i as f64));
+        }
+        let routes = read(&text).expect("valid file");
+        let legs = &routes[0].legs;
+        assert_eq!(legs.len(), 1);
+        let profile = legs[0].speeds_mps.as_ref().expect("profile");
+        assert_eq!(profile.len(), 300);
+        approx::assert_relative_eq!(profile[150], 1.7, epsilon = 1e-12);
+        approx::assert_relative_eq!(legs[0].speed_mps.unwrap_or(0.0), 3.19, epsilon = 1e-12);
+    }
+
+    #[test]
+    fn rejects_a_speed_given_on_some_rows_of_a_leg_only() {
+        let message = error_of("x_m,y_m,terrain,speed_mps\n0,0,grass,1\n1,0,grass,\n2,0,grass,1\n");
+        assert_eq!(
+            message,
+            format!(
+                "{FILE}: line 3: column speed_mps is empty but line 2 of the same leg gives one: fill it on every row \
+                 of the leg, or on none (an empty leg takes the profile's default)"
+            )
+        );
+        // Each leg decides for itself: values on one, none on the next.
+        let routes = read("x_m,y_m,terrain,corridor_m\n0,0,grass,0.5\n1,0,grass,0.5\n2,0,snow,\n3,0,snow,\n");
+        let legs = &routes.expect("valid")[0].legs;
+        assert_eq!((legs[0].corridor_m, legs[1].corridor_m), (Some(0.5), None));
+    }
+
+    #[test]
+    fn reports_the_right_line_in_a_crlf_file() {
+        // The error is on line 5 (header on line 1), whatever the line ending.
+        let lf = "x_m,y_m,terrain\n0,0,grass\n1,0,grass\n2,0,grass\n3,abc,grass\n";
+        let expected = format!("{FILE}: line 5: column y_m: 'abc' is not a number");
+        assert_eq!(error_of(lf), expected);
+        assert_eq!(error_of(&lf.replace('\n', "\r\n")), expected);
+        let short = "x_m,y_m,terrain\r\n0,0,grass\r\n1,0,grass\r\n2,0\r\n";
+        assert!(error_of(short).contains("line 4: has 2 fields, the header has 3"));
+        let legs =
+            &read("x_m,y_m,terrain\r\n0,0,grass\r\n1,0,grass\r\n2,0,snow\r\n3,0,snow\r\n").expect("valid")[0].legs;
+        assert_eq!((legs[0].position, legs[1].position), (SourcePosition::Line(2), SourcePosition::Line(4)));
     }
 
     #[test]
@@ -458,9 +551,12 @@ mod tests {
     }
 
     #[test]
-    fn rejects_a_missing_terrain_value() {
-        let message = error_of("x_m,y_m,terrain\n0,0,grass\n1,0,\n");
-        assert_eq!(message, format!("{FILE}: line 3: column terrain is empty"));
+    fn an_empty_terrain_cell_leaves_a_leg_for_the_terrain_map() {
+        let routes = read("x_m,y_m,terrain\n0,0,grass\n1,0,\n2,0,\n").expect("valid file");
+        let legs = &routes[0].legs;
+        assert_eq!(legs.len(), 2);
+        assert!(legs[0].has_terrain() && !legs[1].has_terrain());
+        assert_eq!(legs[1].position, SourcePosition::Line(3));
     }
 
     #[test]
@@ -533,8 +629,11 @@ mod tests {
     }
 
     #[test]
-    fn rejects_an_attribute_change_within_a_named_leg() {
+    fn rejects_a_terrain_change_within_a_named_leg() {
         let message = error_of("x_m,y_m,terrain,leg\n0,0,grass,a\n1,0,snow,a\n2,0,snow,a\n");
-        assert!(message.contains("line 3: terrain, speed_mps or corridor_m changes within leg 'a'"), "{message}");
+        assert!(message.contains("line 3: terrain changes within leg 'a'"), "{message}");
+        // Speed may change within a named leg: a profile.
+        let routes = read("x_m,y_m,terrain,leg,speed_mps\n0,0,grass,a,1\n1,0,grass,a,2\n2,0,grass,a,1\n");
+        assert_eq!(routes.expect("valid")[0].legs[0].speeds_mps.as_deref(), Some(&[1.0, 2.0, 1.0][..]));
     }
 }

@@ -3,9 +3,11 @@
 //!
 //! Every LineString Feature is one leg, in file order; any other geometry is an error rather than
 //! silently skipped, because a screening tool must not pass a route it did not fully read.
-//! Property names are those of README, Inputs (`terrain`, `speed_mps`, `corridor_m`, `name`, `route`);
-//! other properties are left alone, since GIS tools attach their own (styles, ids). The document
-//! is deserialised in one pass (`geojson_doc.rs`): members the reader ignores are skipped unread.
+//! Properties (README, Inputs): `terrain`, `speed_mps`, `corridor_m`, `name`, `route`, and
+//! `speeds_mps` (a speed per vertex, the planner's speed profile); other properties are left
+//! alone, since GIS tools attach their own (styles, ids). A leg without `terrain` waits for a
+//! terrain map (`route::check_terrains` refuses it when none gives one). The document is
+//! deserialised in one pass (`geojson_doc.rs`): members the reader ignores are skipped unread.
 
 use std::path::Path;
 
@@ -24,8 +26,11 @@ type JsonObject = Map<String, JsonValue>;
 
 /// The properties of one leg, validated.
 struct LegProperties {
+    /// Empty when the feature has none.
     terrain: String,
     speed_mps: Option<f64>,
+    /// One speed per vertex, checked against the coordinates' count.
+    speeds_mps: Option<Vec<f64>>,
     corridor_m: Option<f64>,
     name: Option<String>,
     route: Option<String>,
@@ -69,7 +74,13 @@ pub(super) fn parse(path: &Path, text: &str, limits: &Limits) -> Result<Vec<Rout
         .collect::<Result<Vec<_>, _>>()?;
     let routes = group_in_order(legs)
         .into_iter()
-        .map(|(name, legs)| Route { name, source: path.to_path_buf(), origin: Some(origin), legs })
+        .map(|(name, legs)| Route {
+            name,
+            source: path.to_path_buf(),
+            origin: Some(origin),
+            legs,
+            warnings: Vec::new(),
+        })
         .collect::<Vec<_>>();
     check_route_limits(path, &routes, limits)?;
     for route in &routes {
@@ -139,20 +150,28 @@ fn read_feature(index: usize, feature: &FeatureDoc, limits: &Limits) -> Result<G
     }
     let properties = read_properties(feature.properties.as_ref())?;
     let (lon_lat_deg, altitude_m) = read_coordinates(positions)?;
+    if let Some(n) = properties.speeds_mps.as_ref().map(Vec::len).filter(|&n| n != positions.len()) {
+        return Err(format!(
+            "property speeds_mps has {n} values but the line has {} points: give one speed per point",
+            positions.len()
+        ));
+    }
     Ok(GeoLeg { feature: index, properties, lon_lat_deg, altitude_m })
 }
 
 fn read_properties(properties: Option<&JsonObject>) -> Result<LegProperties, String> {
-    let terrain = match string_property(properties, "terrain")? {
-        Some(terrain) => terrain,
-        None => return Err("lacks the required property terrain (a string)".to_string()),
-    };
     let in_range = |key: &str, value: Option<f64>, check: fn(f64) -> Result<f64, String>| {
         value.map(check).transpose().map_err(|what| format!("property {key}: {what}"))
     };
+    let speed_mps = in_range("speed_mps", positive_property(properties, "speed_mps")?, check_speed_mps)?;
+    let speeds_mps = positive_array_property(properties, "speeds_mps", check_speed_mps)?;
+    if speed_mps.is_some() && speeds_mps.is_some() {
+        return Err("gives both speed_mps and speeds_mps: give one speed for the leg or one per point".to_string());
+    }
     Ok(LegProperties {
-        terrain,
-        speed_mps: in_range("speed_mps", positive_property(properties, "speed_mps")?, check_speed_mps)?,
+        terrain: string_property(properties, "terrain")?.unwrap_or_default(),
+        speed_mps,
+        speeds_mps,
         corridor_m: in_range("corridor_m", positive_property(properties, "corridor_m")?, check_corridor_m)?,
         // Names are shown in tables, plots and messages: control characters escaped.
         name: string_property(properties, "name")?.map(|n| printable(&n).into_owned()),
@@ -180,6 +199,30 @@ fn positive_property(properties: Option<&JsonObject>, key: &str) -> Result<Optio
         },
         Some(other) => Err(format!("property {key} must be a number, found {}", json_type(other))),
     }
+}
+
+/// An array of finite numbers > 0, each one within the range `check` allows (the same as the
+/// property's single value); absent or null means "not given".
+fn positive_array_property(
+    properties: Option<&JsonObject>,
+    key: &str,
+    check: fn(f64) -> Result<f64, String>,
+) -> Result<Option<Vec<f64>>, String> {
+    let values = match properties.and_then(|p| p.get(key)) {
+        None | Some(JsonValue::Null) => return Ok(None),
+        Some(JsonValue::Array(values)) => values,
+        Some(other) => return Err(format!("property {key} must be an array of numbers, found {}", json_type(other))),
+    };
+    let number = |(j, value): (usize, &JsonValue)| match value {
+        JsonValue::Number(n) => match n.as_f64() {
+            Some(v) if v.is_finite() && v > 0.0 => {
+                check(v).map_err(|what| format!("property {key}: value {j}: {what}"))
+            }
+            _ => Err(format!("property {key}: value {j} must be a finite number > 0, found {n}")),
+        },
+        other => Err(format!("property {key}: value {j} must be a number, found {}", json_type(other))),
+    };
+    values.iter().enumerate().map(number).collect::<Result<Vec<_>, _>>().map(Some)
 }
 
 fn json_type(value: &JsonValue) -> &'static str {
@@ -275,8 +318,13 @@ fn project_leg(path: &Path, origin: &GeoOrigin, geo_leg: GeoLeg) -> Result<Leg, 
         );
         return Err(at(path, feature, what));
     }
-    let LegProperties { terrain, speed_mps, corridor_m, name, route: _ } = properties;
-    Ok(Leg { name, terrain, speed_mps, corridor_m, points, altitude_m, position: SourcePosition::Feature(feature) })
+    let LegProperties { terrain, speed_mps, speeds_mps, corridor_m, name, route: _ } = properties;
+    let mut leg =
+        Leg { name, speed_mps, corridor_m, altitude_m, ..Leg::new(terrain, points, SourcePosition::Feature(feature)) };
+    if let Some(speeds_mps) = speeds_mps {
+        leg.set_speed_profile(speeds_mps);
+    }
+    Ok(leg)
 }
 
 /// Consecutive legs of a route must join within [`JOIN_TOLERANCE_M`].
@@ -459,17 +507,62 @@ mod tests {
     }
 
     #[test]
-    fn rejects_a_missing_or_mistyped_terrain() {
+    fn a_missing_terrain_waits_for_a_map_and_a_mistyped_one_is_refused() {
         let text = collection(&[
             feature(r#""terrain": "grass""#, &format!("[{P0}, {P1}]")),
             feature(r#""speed_mps": 1.0"#, &format!("[{P1}, {P2}]")),
         ]);
-        assert!(error_of(&text).contains("feature 1: lacks the required property terrain"));
+        let legs = &read(&text).expect("valid")[0].legs;
+        assert!(legs[0].has_terrain() && !legs[1].has_terrain());
         let text = collection(&[feature(r#""terrain": 3"#, &format!("[{P0}, {P1}]"))]);
         assert!(error_of(&text).contains("feature 0: property terrain must be a string, found a number"));
-        let no_properties = r#"{"type": "Feature", "properties": null,
-                                "geometry": {"type": "LineString", "coordinates": [[0, 0], [0, 1]]}}"#;
-        assert!(error_of(&collection(&[no_properties.to_string()])).contains("feature 0: lacks the required"));
+    }
+
+    #[test]
+    fn reads_a_speed_per_vertex() {
+        let text = collection(&[feature(
+            r#""terrain": "grass", "speeds_mps": [0.5, 1.5, 1.0]"#,
+            &format!("[{P0}, {P1}, {P2}]"),
+        )]);
+        let leg = &read(&text).expect("valid")[0].legs[0];
+        assert_eq!(leg.speeds_mps.as_deref(), Some(&[0.5, 1.5, 1.0][..]));
+        assert_eq!(leg.speed_mps, Some(1.5));
+        let wrong_length =
+            collection(&[feature(r#""terrain": "grass", "speeds_mps": [0.5, 1.5]"#, &format!("[{P0}, {P1}, {P2}]"))]);
+        assert_eq!(
+            error_of(&wrong_length),
+            format!("{FILE}: feature 0: property speeds_mps has 2 values but the line has 3 points: give one speed per point")
+        );
+        let zero = collection(&[feature(r#""terrain": "grass", "speeds_mps": [0.5, 0]"#, &format!("[{P0}, {P1}]"))]);
+        assert!(
+            error_of(&zero).contains("feature 0: property speeds_mps: value 1 must be a finite number > 0, found 0")
+        );
+        let text = collection(&[feature(r#""terrain": "grass", "speeds_mps": [0.5, "x"]"#, &format!("[{P0}, {P1}]"))]);
+        assert!(error_of(&text).contains("feature 0: property speeds_mps: value 1 must be a number, found a string"));
+        let both = collection(&[feature(
+            r#""terrain": "grass", "speed_mps": 1, "speeds_mps": [1, 1]"#,
+            &format!("[{P0}, {P1}]"),
+        )]);
+        assert!(error_of(&both).contains("feature 0: gives both speed_mps and speeds_mps"));
+        // Each value keeps the bounds of a leg's speed_mps (0.05 to 100 m/s).
+        let slow = collection(&[feature(r#""terrain": "grass", "speeds_mps": [0.5, 1e-6]"#, &format!("[{P0}, {P1}]"))]);
+        let message = error_of(&slow);
+        assert!(
+            message.contains("feature 0: property speeds_mps: value 1: 1e-6 m/s is slower than 0.05 m/s"),
+            "{message}"
+        );
+        let fast = collection(&[feature(r#""terrain": "grass", "speeds_mps": [250, 1]"#, &format!("[{P0}, {P1}]"))]);
+        let message = error_of(&fast);
+        assert!(
+            message.contains("feature 0: property speeds_mps: value 0: 250 m/s is faster than 100 m/s"),
+            "{message}"
+        );
+        // A speeds_mps with other members around it is read, not skipped.
+        let styled = collection(&[feature(
+            r#""stroke": [1, 2], "terrain": "grass", "speeds_mps": [0.5, 2], "fill": {"a": [3]}"#,
+            &format!("[{P0}, {P1}]"),
+        )]);
+        assert_eq!(read(&styled).expect("valid")[0].legs[0].speeds_mps.as_deref(), Some(&[0.5, 2.0][..]));
     }
 
     #[test]
