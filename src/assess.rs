@@ -12,7 +12,7 @@ use crate::kinematics::{Model, MotionModel};
 use crate::rollout::{Outcome, RouteDrive, Trace};
 use crate::route::Route;
 
-/// Resampling step for the plan's curvature (docs/method.md, Plan curvature).
+/// Step at which `relax` samples the plan's curvature around a corner (docs/method.md, Plan curvature).
 pub const CURVATURE_STEP_M: f64 = 0.1;
 /// Share of the achievable curvature above which a turn earns a caution.
 pub const CAUTION_CURVATURE_SHARE: f64 = 0.8;
@@ -280,7 +280,7 @@ fn assess_leg(route: &Route, drive: &RouteDrive, trace: &Trace, i: usize) -> Leg
     let grade_rad = max_uphill_grade_rad(drive, i);
     let (start_m, end_m) = drive.plan.leg_bounds_m(i);
     let scale_m = drive.curvature_scale_m;
-    let (required, at_m) = drive.plan.required_curvature(i, scale_m, CURVATURE_STEP_M);
+    let (required, at_m) = drive.plan.required_curvature(i, scale_m);
     let achievable = Achievable {
         kinematic_per_m: kinematic_curvature_limit(&drive.limits, &ld.controller, &ld.actual, ld.speed_mps),
         traction_per_m,

@@ -7,6 +7,10 @@
 
 use super::Route;
 
+mod curvature;
+
+pub use curvature::{VertexCurvature, ARC_SAMPLE_MAX_SPACING_M, ARC_SAMPLE_MAX_TURN};
+
 /// Most samples taken along one leg by the sampled queries (curvature, grade): 1e7, which is
 /// 1000 km at the 0.1 m curvature spacing.
 pub const MAX_SAMPLES_PER_LEG: f64 = 1e7;
@@ -25,6 +29,11 @@ pub struct PlanPath {
     leg_bounds_m: Vec<(f64, f64)>,
     /// Altitude at each point when every leg carries it.
     altitude_m: Option<Vec<f64>>,
+    /// Index of each leg's first point.
+    leg_first_point: Vec<usize>,
+    /// Signed curvature each segment bends with when the plan's curvature is read
+    /// (docs/method.md, Plan curvature).
+    bend_per_m: Vec<f64>,
 }
 
 /// A remembered segment index that makes repeated queries near the same place cheap: the
@@ -99,7 +108,9 @@ impl PlanPath {
         let segment_leg = (0..points.len().saturating_sub(1))
             .map(|i| leg_first_index.partition_point(|&first| first <= i).saturating_sub(1) as u32)
             .collect();
-        PlanPath { points, s_m, dir, segment_leg, leg_bounds_m, altitude_m }
+        let bend_per_m = curvature::segment_bends(&points);
+        let leg_first_point = leg_first_index.to_vec();
+        PlanPath { points, s_m, dir, segment_leg, leg_bounds_m, altitude_m, leg_first_point, bend_per_m }
     }
 
     pub fn length_m(&self) -> f64 {
@@ -308,35 +319,6 @@ impl PlanPath {
         }
         self.point_at((from_m + lookahead_m).min(total))
     }
-
-    /// Signed Menger curvature of the plan at arc length `s_m`, from the points `scale_m`
-    /// before and after (docs/method.md, Plan curvature): kappa = 2 cross(p2 - p1, p3 - p2) / (|p1p2| |p2p3| |p1p3|).
-    /// Zero where the points before or after fall off the ends of the plan.
-    pub fn curvature_at(&self, s_m: f64, scale_m: f64) -> f64 {
-        if s_m - scale_m < 0.0 || s_m + scale_m > self.length_m() {
-            return 0.0;
-        }
-        menger_curvature(self.point_at(s_m - scale_m), self.point_at(s_m), self.point_at(s_m + scale_m))
-    }
-
-    /// Largest |curvature| over leg `leg`, sampled every `step_m` (0.1 m, docs/method.md, Plan curvature), with
-    /// the neighbouring legs' points used near the boundaries; returns (|kappa|, arc length).
-    /// A leg longer than `step_m` x [`MAX_SAMPLES_PER_LEG`] is sampled more coarsely, so the cost
-    /// stays bounded whatever the input.
-    pub fn required_curvature(&self, leg: usize, scale_m: f64, step_m: f64) -> (f64, f64) {
-        let (start, end) = self.leg_bounds_m[leg];
-        let step_m = step_m.max((end - start) / MAX_SAMPLES_PER_LEG);
-        let n = ((end - start) / step_m).ceil().clamp(1.0, MAX_SAMPLES_PER_LEG) as usize;
-        let mut best = (0.0, start);
-        for k in 0..=n {
-            let s = (start + k as f64 * step_m).min(end);
-            let kappa = self.curvature_at(s, scale_m).abs();
-            if kappa > best.0 {
-                best = (kappa, s);
-            }
-        }
-        best
-    }
 }
 
 /// Signed Menger curvature of three points: 2 cross(p2 - p1, p3 - p2) / (|p1p2| |p2p3| |p1p3|);
@@ -387,23 +369,10 @@ mod tests {
     }
 
     #[test]
-    fn sharp_corner_reads_two_sin_half_angle_over_scale() {
-        // docs/method.md, Plan curvature (plane geometry): an isosceles triangle with legs s and turning angle theta
-        // has circumradius s / (2 sin(theta/2)).
-        let theta = 1.2_f64;
-        let pts = vec![[-10.0, 0.0], [0.0, 0.0], [10.0 * theta.cos(), 10.0 * theta.sin()]];
-        let plan = PlanPath::from_parts(pts, &[0], None);
-        let s = 0.5;
-        let (k, at) = plan.required_curvature(0, s, 0.1);
-        assert_relative_eq!(k, 2.0 * (theta / 2.0).sin() / s, max_relative = 1e-9);
-        assert_relative_eq!(at, 10.0, epsilon = 1e-9);
-    }
-
-    #[test]
     fn circle_curvature_is_inverse_radius() {
         let plan = PlanPath::from_parts(circle_points(5.0, 2000, 0.75), &[0], None);
-        let (k, _) = plan.required_curvature(0, 0.5, 0.1);
-        assert_relative_eq!(k, 0.2, max_relative = 1e-3);
+        let (k, _) = plan.required_curvature(0, 0.5);
+        assert_relative_eq!(k, 0.2, max_relative = 1e-9);
     }
 
     #[test]
