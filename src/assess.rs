@@ -6,11 +6,10 @@
 
 use serde::Serialize;
 
-use crate::effort::{effort_step, side_thrust_limit_n, traction_curvature_limit};
-use crate::follow::{saturate_sides, FollowerLimits};
-use crate::kinematics::{Model, MotionModel};
+use crate::effort::{effort_step, side_thrust_limit_n, Slope};
 use crate::rollout::{Outcome, RouteDrive, Trace};
 use crate::route::Route;
+use crate::turn_limit::traction_curvature_limit;
 
 /// Step at which `relax` samples the plan's curvature around a corner (docs/method.md, Plan curvature).
 pub const CURVATURE_STEP_M: f64 = 0.1;
@@ -38,54 +37,7 @@ impl Verdict {
     }
 }
 
-/// What limits the curvature the vehicle can drive on a leg.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "kebab-case")]
-pub enum CurvatureLimit {
-    /// The yaw-rate clamp, side-speed saturation and the terrain's slip (kinematic model).
-    Kinematic,
-    /// Thrust on the outer track against traction, the thrust rating or the power rating.
-    Traction,
-}
-
-/// Achievable curvature of a leg and what binds it (docs/method.md, Achievable curvature).
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Achievable {
-    pub kinematic_per_m: f64,
-    /// Traction/thrust/power limit, when the effort model has computed one.
-    pub traction_per_m: Option<f64>,
-}
-
-impl Achievable {
-    pub fn curvature_per_m(&self) -> f64 {
-        self.traction_per_m.map_or(self.kinematic_per_m, |t| t.min(self.kinematic_per_m))
-    }
-    pub fn binding(&self) -> CurvatureLimit {
-        match self.traction_per_m {
-            Some(t) if t < self.kinematic_per_m => CurvatureLimit::Traction,
-            _ => CurvatureLimit::Kinematic,
-        }
-    }
-}
-
-/// Kinematic curvature limit at `speed_mps`: the actual curvature (omega / vx of the terrain
-/// model) when the controller commands its largest yaw rate, after the inverse model and
-/// side-speed saturation; the smaller of the left and right turn. Infinite where the terrain
-/// turns on the spot (vx <= 0) at that command.
-pub fn kinematic_curvature_limit(limits: &FollowerLimits, controller: &Model, actual: &Model, speed_mps: f64) -> f64 {
-    let v = speed_mps.min(limits.max_side_speed_mps);
-    let mut worst = f64::INFINITY;
-    for sign in [1.0, -1.0] {
-        let omega = sign * limits.max_yaw_rate_radps;
-        let half = 0.5 * omega * limits.track_width_m;
-        let (l, r) = controller.inverse(v, omega).unwrap_or((v - half, v + half));
-        let (l, r) = saturate_sides(l, r, limits.max_side_speed_mps);
-        let t = actual.twist(l, r);
-        let k = if t.vx_mps > 1e-9 { (t.omega_radps / t.vx_mps).abs() } else { f64::INFINITY };
-        worst = worst.min(k);
-    }
-    worst
-}
+pub use crate::turn_limit::{kinematic_curvature_limit, Achievable, CurvatureLimit};
 
 /// The assessment of one leg.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -252,7 +204,7 @@ fn leg_effort(drive: &RouteDrive, trace: &Trace, leg: usize) -> LegEffort {
             s.left_mps,
             s.right_mps,
             0.0,
-            f.grade_rad,
+            Slope::grade(f.grade_rad),
         );
         if steady.outer_thrust_n > e.peak_steady_thrust_n {
             e.peak_steady_thrust_n = steady.outer_thrust_n;
@@ -275,12 +227,13 @@ fn max_uphill_grade_rad(drive: &RouteDrive, leg: usize) -> f64 {
 
 fn assess_leg(route: &Route, drive: &RouteDrive, trace: &Trace, i: usize) -> LegReport {
     let ld = &drive.legs[i];
-    let traction_per_m = Some(traction_curvature_limit(&drive.vehicle, &ld.ground, ld.speed_mps));
     let effort = leg_effort(drive, trace, i);
     let grade_rad = max_uphill_grade_rad(drive, i);
     let (start_m, end_m) = drive.plan.leg_bounds_m(i);
     let scale_m = drive.curvature_scale_m;
     let (required, at_m) = drive.plan.required_curvature(i, scale_m);
+    let turn_slope = Slope::grade(drive.plan.grade_at(at_m));
+    let traction_per_m = Some(traction_curvature_limit(&drive.vehicle, &ld.ground, ld.speed_mps, turn_slope));
     let achievable = Achievable {
         kinematic_per_m: kinematic_curvature_limit(&drive.limits, &ld.controller, &ld.actual, ld.speed_mps),
         traction_per_m,

@@ -1,7 +1,7 @@
 //! skidroute: screen planned routes for skid-steered ground vehicles on mixed terrain.
 //!
 //! Data flow (see README.md): `route` (read + project + plan geometry) -> `vehicle` (profile)
-//! -> `kinematics` (model families, SE(2)) -> `follow` (controller) -> `rollout` (simulation)
+//! -> `kinematics` (model families, SE(2)) -> `follow` (controller) -> `effort` and `turn_limit` (thrust, power, how tight it can turn) -> `rollout` (simulation)
 //! -> `assess` (per-leg verdicts) -> `report` (table, JSON, CSV, GeoJSON, plots); beside them
 //! `drift` (Monte Carlo of the position error when localization is lost).
 //! Everything inside is SI, local frame x east, y north, yaw anticlockwise from x.
@@ -22,6 +22,7 @@ pub mod relax;
 pub mod report;
 pub mod rollout;
 pub mod route;
+pub mod turn_limit;
 pub mod vehicle;
 
 pub use error::Error;

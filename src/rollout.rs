@@ -7,7 +7,7 @@
 //! Units: seconds, metres, radians, local frame. The step loop allocates nothing (the trace is
 //! reserved up front from the time bound).
 
-use crate::effort::{effort_step, EffortStep, EffortVehicle, Ground};
+use crate::effort::{effort_step, EffortStep, EffortVehicle, Ground, Slope};
 use crate::follow::{Follower, FollowerLimits};
 use crate::kinematics::{Model, MotionModel, Pose, Twist};
 use crate::route::{PlanPath, Route};
@@ -237,7 +237,7 @@ pub fn roll_out_within(drive: &RouteDrive, max_steps: u64) -> Trace {
             cmd.left_mps,
             cmd.right_mps,
             step.accel_mps2,
-            grade,
+            Slope::grade(grade),
         );
         steps.push(step);
         pose = pose.step(twist, dt);
