@@ -398,6 +398,20 @@ fn judge(leg: &mut LegReport, achievable: &Achievable, drive: &RouteDrive, trace
             );
         }
     }
+    if let Outcome::Stalled { progress_m, grade_rad } = trace.outcome {
+        let (start_m, end_m) = drive.plan.leg_bounds_m(i);
+        if progress_m < end_m && progress_m >= start_m {
+            add(
+                Verdict::Fail,
+                format!(
+                    "cannot climb: the vehicle stalls {progress_m:.0} m along the route on the {:.0} % grade; the prediction ends there",
+                    100.0 * grade_rad.tan()
+                ),
+            );
+        } else if progress_m < start_m {
+            add(Verdict::Fail, "the vehicle never reached this leg (it stalled on a climb earlier)".to_string());
+        }
+    }
     if let Outcome::TimedOut { limit_s, progress_m } = trace.outcome {
         let (start_m, end_m) = drive.plan.leg_bounds_m(i);
         if progress_m < end_m && progress_m >= start_m {

@@ -21,6 +21,10 @@ pub struct FollowerLimits {
     pub track_width_m: f64,
 }
 
+/// How far ahead, in lookaheads, a lost vehicle's progress point may move to the plan point
+/// nearest to it (see [`Follower::update_progress`]).
+pub const LOST_SEARCH_LOOKAHEADS: f64 = 3.0;
+
 /// Speed the controller creeps at on the final approach so it always reaches the end point.
 const CREEP_SPEED_MPS: f64 = 0.05;
 
@@ -118,19 +122,28 @@ impl<'a> Follower<'a> {
 
     /// Moves the progress point forward to the nearest plan point within one lookahead ahead;
     /// it never moves back, so loops and self-crossings are followed in order. While the
-    /// vehicle is farther than a lookahead from the plan it is lost and the progress point
-    /// holds (otherwise the window would drag it along the plan), so the goal stays where the
-    /// vehicle left the plan and the controller steers back to it.
+    /// vehicle is farther than a lookahead from the plan it is lost: the progress point then
+    /// moves only to a plan point within [`LOST_SEARCH_LOOKAHEADS`] lookaheads ahead that is
+    /// nearer than where it stands and is a true nearest point (not the end of the searched
+    /// stretch, which would drag it along the plan). So a vehicle that overshoots a corner it
+    /// cannot turn rejoins the next side where it is nearest, instead of circling back to a goal
+    /// inside its turning circle; one far off a straight steers back to the point abeam.
     #[inline]
     pub fn update_progress(&mut self, pose: Pose) {
-        let near = self.plan.nearest_within_at(
-            [pose.x_m, pose.y_m],
-            self.progress_m,
-            self.progress_m + self.limits.lookahead_m,
-            &mut self.cursor,
-        );
-        if near.s_m > self.progress_m && near.distance_m <= self.limits.lookahead_m {
+        let (p, l) = (self.progress_m, self.limits.lookahead_m);
+        let xy = [pose.x_m, pose.y_m];
+        let near = self.plan.nearest_within_at(xy, p, p + l, &mut self.cursor);
+        if near.s_m > p && near.distance_m <= l {
             self.progress_m = near.s_m;
+        } else if near.distance_m > l {
+            let to_m = (p + LOST_SEARCH_LOOKAHEADS * l).min(self.plan.length_m());
+            let mut cursor = self.cursor;
+            let far = self.plan.nearest_within_at(xy, p, to_m, &mut cursor);
+            let interior = far.s_m < to_m - 1e-9 || to_m >= self.plan.length_m();
+            let here = self.plan.nearest_within_at(xy, p, p, &mut cursor);
+            if far.s_m > p && interior && far.distance_m < here.distance_m - 1e-9 {
+                self.progress_m = far.s_m;
+            }
         }
         self.leg = self.plan.leg_at_cursor(self.progress_m, &mut self.cursor);
     }

@@ -1,8 +1,11 @@
 //! Closed-loop simulation of a route: the follower commands side speeds from the pose, the
-//! terrain model of the leg under the vehicle's progress point turns them into the actual body
-//! twist, and the exact SE(2) step moves the vehicle (docs/method.md, Integration and Following). The trace keeps what
-//! the assessment and the effort estimate need: pose, leg, progress, deviation, side speeds and
-//! the actual twist at every control step.
+//! terrain model of the leg under the vehicle's progress point turns them into a body twist,
+//! traction bounds that motion (docs/method.md, Following: a turn tighter than the tracks can
+//! push is widened, a climb the ground cannot hold stalls the vehicle, a descent it cannot hold
+//! makes it slide), and the exact SE(2) step moves the vehicle (docs/method.md, Integration).
+//! The trace keeps what the assessment and the effort estimate need: pose, leg, progress,
+//! deviation, side speeds, the actual twist, the effort and whether traction bound the step, at
+//! every control step.
 //!
 //! Units: seconds, metres, radians, local frame. The step loop allocates nothing (the trace is
 //! reserved up front from the time bound).
@@ -11,6 +14,7 @@ use crate::effort::{effort_step, EffortStep, EffortVehicle, Ground, Slope};
 use crate::follow::{Follower, FollowerLimits};
 use crate::kinematics::{Model, MotionModel, Pose, Twist};
 use crate::route::{PlanPath, Route};
+use crate::turn_limit::{limit_step, StepLimit};
 use crate::vehicle::Profile;
 
 /// How one leg is driven: the terrain's actual model, the model the controller inverts, and
@@ -145,6 +149,16 @@ pub struct Step {
     pub accel_mps2: f64,
     /// Thrust, power and grade over the step that starts here.
     pub effort: EffortStep,
+    /// How traction, the thrust rating or the power rating bound the motion of this step.
+    pub limit: StepLimit,
+}
+
+impl Step {
+    /// True when traction, the thrust rating or the power rating changed the motion of this step
+    /// (the trace's `traction_limited` column).
+    pub fn traction_limited(&self) -> bool {
+        self.limit.is_limited()
+    }
 }
 
 /// How a rollout ended.
@@ -160,6 +174,12 @@ pub enum Outcome {
     StepBudget {
         max_steps: u64,
         progress_m: f64,
+    },
+    /// Uphill, even holding still needed more thrust than traction (or the rating) gives: the
+    /// vehicle stalled here and the simulation ends (docs/method.md, Following).
+    Stalled {
+        progress_m: f64,
+        grade_rad: f64,
     },
 }
 
@@ -222,22 +242,30 @@ pub fn roll_out_within(drive: &RouteDrive, max_steps: u64) -> Trace {
         }
         let legd = &drive.legs[leg];
         let cmd = follower.command(pose, &legd.controller);
-        let twist = legd.actual.twist(cmd.left_mps, cmd.right_mps);
-        step.left_mps = cmd.left_mps;
-        step.right_mps = cmd.right_mps;
+        let mut twist = legd.actual.twist(cmd.left_mps, cmd.right_mps);
+        let (mut left, mut right) = (cmd.left_mps, cmd.right_mps);
+        let grade = if plan.has_altitude() { plan.grade_at(step.progress_m) } else { 0.0 };
+        let slope = Slope::grade(grade);
+        step.limit = limit_step(&drive.vehicle, &legd.ground, slope, &mut twist, &mut left, &mut right);
+        if step.limit == StepLimit::Stall {
+            step.effort.grade_rad = grade;
+            steps.push(step);
+            break Outcome::Stalled { progress_m: follower.progress_m(), grade_rad: grade };
+        }
+        step.left_mps = left;
+        step.right_mps = right;
         step.twist = twist;
         step.accel_mps2 = (twist.vx_mps - prev_vx) / dt;
         prev_vx = twist.vx_mps;
-        let grade = if plan.has_altitude() { plan.grade_at(step.progress_m) } else { 0.0 };
         step.effort = effort_step(
             &drive.vehicle,
             &legd.ground,
             twist.vx_mps,
             twist.omega_radps,
-            cmd.left_mps,
-            cmd.right_mps,
+            left,
+            right,
             step.accel_mps2,
-            Slope::grade(grade),
+            slope,
         );
         steps.push(step);
         pose = pose.step(twist, dt);
@@ -375,6 +403,88 @@ mod tests {
         };
         let d = RouteDrive::new(&route, &profile);
         assert_relative_eq!(step_bound(&route, &profile), d.step_bound(), max_relative = 1e-9);
+    }
+
+    /// A plan of `points` on `ground`, ideal kinematics, no yaw-rate clamp to speak of and no
+    /// power limit, so only traction can bound the turn.
+    fn traction_drive(
+        points: Vec<[f64; 2]>,
+        altitude_m: Option<Vec<f64>>,
+        ground: Ground,
+        speed_mps: f64,
+    ) -> RouteDrive {
+        let mut d = drive_on(points, Model::ideal(0.9), speed_mps, limits(1.0));
+        d.plan = PlanPath::from_parts(d.plan.points().to_vec(), &[0], altitude_m);
+        d.legs[0].ground = ground;
+        d.vehicle.max_power_w = 1e12;
+        d.vehicle.max_side_thrust_n = 1e9;
+        d
+    }
+
+    #[test]
+    fn a_corner_tighter_than_traction_allows_is_overshot_by_at_least_the_fillet() {
+        // Deep snow (f_r 0.15, mu 0.25, mu_max 0.3) on the demo vehicle: traction radius 5.45 m on
+        // the level (Wong 2008; derived in turn_limit's tests). A right-angle corner between long
+        // straights cannot be driven tighter. Circle geometry: the curvature-bounded path tangent
+        // to both sides that stays closest to them is the fillet of radius R, whose midpoint lies
+        // R (1 - cos(theta/2)) from each side; any path that turns no tighter than 1/R leaves the
+        // plan by at least that much.
+        let ground = Ground { rolling_resistance: 0.15, traction_coefficient: 0.25, lateral_resistance_max: 0.3 };
+        let pts = vec![[0.0, 0.0], [30.0, 0.0], [30.0, 30.0]];
+        let d = traction_drive(pts, None, ground, 0.8);
+        let k_lim = crate::turn_limit::traction_curvature_limit(&d.vehicle, &ground, 0.8, Slope::LEVEL);
+        assert_relative_eq!(1.0 / k_lim, 5.45, epsilon = 0.01);
+        let tr = roll_out(&d);
+        assert_eq!(tr.outcome, Outcome::Reached);
+        let mut limited = 0;
+        for s in &tr.steps {
+            if s.twist.vx_mps > 1e-6 {
+                assert!((s.twist.omega_radps / s.twist.vx_mps).abs() <= k_lim * (1.0 + 1e-9), "{s:?}");
+            }
+            limited += usize::from(s.traction_limited());
+        }
+        assert!(limited > 10, "the corner must be traction-limited ({limited} steps)");
+        let fillet_gap_m = (1.0 / k_lim) * (1.0 - std::f64::consts::FRAC_PI_4.cos());
+        let max_dev = tr.steps.iter().map(|s| s.deviation_m).fold(0.0, f64::max);
+        assert!(max_dev >= fillet_gap_m, "{max_dev} < {fillet_gap_m}");
+        // The traction-free vehicle would have cut the corner far closer.
+        let mut free = d.clone();
+        free.legs[0].ground.traction_coefficient = 10.0;
+        let free_dev = roll_out(&free).steps.iter().map(|s| s.deviation_m).fold(0.0, f64::max);
+        assert!(free_dev < fillet_gap_m, "{free_dev}");
+    }
+
+    #[test]
+    fn a_climb_the_ground_cannot_hold_stalls_the_vehicle() {
+        // 30 % climb on deep snow: f_r + tan g = 0.45 > mu = 0.25 (Wong 2008, grade resistance).
+        let ground = Ground { rolling_resistance: 0.15, traction_coefficient: 0.25, lateral_resistance_max: 0.3 };
+        let pts: Vec<[f64; 2]> = (0..=40).map(|i| [i as f64, 0.0]).collect();
+        let alt: Vec<f64> = (0..=40).map(|i| if i < 20 { 0.0 } else { 0.3 * (i - 20) as f64 }).collect();
+        let d = traction_drive(pts, Some(alt), ground, 0.8);
+        let tr = roll_out(&d);
+        match tr.outcome {
+            Outcome::Stalled { progress_m, grade_rad } => {
+                assert!(progress_m > 18.0 && progress_m < 21.0, "{progress_m}");
+                assert!(grade_rad > 0.1, "{grade_rad}");
+            }
+            other => panic!("{other:?}"),
+        }
+        assert_eq!(tr.steps.last().map(|s| s.limit), Some(StepLimit::Stall));
+    }
+
+    #[test]
+    fn a_descent_the_ground_cannot_hold_slides_straight_on() {
+        // 60 % descent on deep snow: tan g - f_r = 0.45 > mu = 0.25; the vehicle loses its
+        // steering there and runs straight on, so a bend on the slope is not followed.
+        let ground = Ground { rolling_resistance: 0.15, traction_coefficient: 0.25, lateral_resistance_max: 0.3 };
+        let pts: Vec<[f64; 2]> =
+            (0..=40).map(|i| [i as f64, if i > 25 { 0.3 * (i - 25) as f64 } else { 0.0 }]).collect();
+        let alt: Vec<f64> = (0..=40).map(|i| if i < 20 { 0.0 } else { -0.6 * (i - 20) as f64 }).collect();
+        let d = traction_drive(pts, Some(alt), ground, 0.8);
+        let tr = roll_out(&d);
+        let sliding: Vec<&Step> = tr.steps.iter().filter(|s| s.limit == StepLimit::Slide).collect();
+        assert!(sliding.len() > 10);
+        assert!(sliding.iter().all(|s| s.twist.omega_radps == 0.0));
     }
 
     #[test]

@@ -400,7 +400,11 @@ mod tests {
         let snow = Ground { rolling_resistance: 0.06, traction_coefficient: 0.3, lateral_resistance_max: 0.35 };
         let g = (-0.5_f64).atan();
         assert_relative_eq!(traction_coefficient_needed(&veh, &snow, 0.0, Slope::grade(g)), 0.44, max_relative = 1e-12);
-        assert_relative_eq!(traction_coefficient_needed(&veh, &snow, 0.0, Slope::grade(-g)), 0.56, max_relative = 1e-12);
+        assert_relative_eq!(
+            traction_coefficient_needed(&veh, &snow, 0.0, Slope::grade(-g)),
+            0.56,
+            max_relative = 1e-12
+        );
     }
 
     #[test]
