@@ -219,6 +219,36 @@ impl PlanPath {
         self.altitude_m.is_some()
     }
 
+    /// The terrain under a contact patch `contact_length_m` long centred at arc length `s_m`
+    /// (docs/method.md, Following: terrain changes): the legs under its rear and front ends and
+    /// the share of the patch on the front one. A leg shorter than the patch between two others
+    /// is skipped (the patch is split between the legs under its ends).
+    #[inline]
+    pub fn terrain_share(&self, s_m: f64, contact_length_m: f64) -> TerrainShare {
+        let half = 0.5 * contact_length_m.max(0.0);
+        let rear = self.leg_at((s_m - half).max(0.0));
+        let front = self.leg_at(s_m + half);
+        if front == rear || half <= 0.0 {
+            return TerrainShare { rear, front: rear, front_share: 0.0 };
+        }
+        let boundary_m = self.leg_bounds_m[front].0;
+        let front_share = ((s_m + half - boundary_m) / (2.0 * half)).clamp(0.0, 1.0);
+        TerrainShare { rear, front, front_share }
+    }
+
+    /// Arc length of the point of segment `segment` (joining points `segment` and `segment + 1`)
+    /// nearest to `p`.
+    #[inline]
+    pub fn arc_length_on_segment(&self, segment: usize, p: [f64; 2]) -> f64 {
+        let i = segment.min(self.points.len().saturating_sub(2));
+        if self.points.len() < 2 {
+            return 0.0;
+        }
+        let (a, d) = (self.points[i], self.dir[i]);
+        let along = (p[0] - a[0]) * d[0] + (p[1] - a[1]) * d[1];
+        self.s_m[i] + along.clamp(0.0, self.s_m[i + 1] - self.s_m[i])
+    }
+
     /// Nearest point of the plan to `p` among the parts with arc length in `[from_m, to_m]`.
     #[inline]
     pub fn nearest_within(&self, p: [f64; 2], from_m: f64, to_m: f64) -> Nearest {
@@ -318,6 +348,26 @@ impl PlanPath {
             }
         }
         self.point_at((from_m + lookahead_m).min(total))
+    }
+}
+
+/// The legs under the two ends of the vehicle's contact patch and the share on the front one.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TerrainShare {
+    pub rear: usize,
+    pub front: usize,
+    /// Share of the contact length on the front leg, 0..1 (0 when both ends are on one leg).
+    pub front_share: f64,
+}
+
+impl TerrainShare {
+    /// The leg with the larger share of the patch.
+    pub fn dominant(&self) -> usize {
+        if self.front_share > 0.5 {
+            self.front
+        } else {
+            self.rear
+        }
     }
 }
 
@@ -435,6 +485,21 @@ mod tests {
         // A stale cursor far away still gives the same answer.
         let mut far = Cursor { segment: 190 };
         assert_eq!(plan.nearest_within_at([1.0, 0.0], 0.0, 2.0, &mut far), plan.nearest_within([1.0, 0.0], 0.0, 2.0));
+    }
+
+    #[test]
+    fn the_contact_patch_is_shared_linearly_across_a_boundary() {
+        let plan = PlanPath::from_parts(vec![[0.0, 0.0], [10.0, 0.0], [20.0, 0.0]], &[0, 1], None);
+        assert_eq!(plan.terrain_share(5.0, 1.0), TerrainShare { rear: 0, front: 0, front_share: 0.0 });
+        for (s, share) in [(9.5, 0.0), (9.75, 0.25), (10.0, 0.5), (10.3, 0.8), (10.5, 1.0), (11.0, 1.0)] {
+            let t = plan.terrain_share(s, 1.0);
+            // Share of the patch on leg 1.
+            let on_second = if t.front == 1 && t.rear == 0 { t.front_share } else { f64::from(u8::from(t.rear == 1)) };
+            assert_relative_eq!(on_second, share, epsilon = 1e-12);
+        }
+        assert_eq!(plan.terrain_share(10.6, 1.0).dominant(), 1);
+        assert_relative_eq!(plan.arc_length_on_segment(1, [13.0, 2.0]), 13.0, epsilon = 1e-12);
+        assert_relative_eq!(plan.arc_length_on_segment(1, [25.0, 0.0]), 20.0, epsilon = 1e-12);
     }
 
     #[test]
