@@ -5,11 +5,12 @@ use std::path::PathBuf;
 
 use rayon::prelude::*;
 
-use crate::assess::{assess_route, DriftNote, RouteReport, Verdict};
+use crate::assess::{assess_route_with, leg_plans, DriftNote, RouteReport, Verdict};
 use crate::drift::{run_drift, DriftSettings};
 use crate::limits::Limits;
+use crate::margin::max_passing_speeds;
 use crate::progress::Progress;
-use crate::rollout::{roll_out_within, step_bound, RouteDrive, Trace};
+use crate::rollout::{roll_out_with_resumes, step_bound, RouteDrive, Trace};
 use crate::route::{check_terrains, read_routes_with, Route, RouteError};
 use crate::vehicle::Profile;
 use crate::Error;
@@ -21,6 +22,9 @@ pub struct CheckedRoute {
     pub drive: RouteDrive,
     pub trace: Trace,
     pub report: RouteReport,
+    /// Control steps simulated for this route: its rollout and the margins' simulations (for a
+    /// run-wide work budget).
+    pub steps_simulated: u64,
 }
 
 /// The result of checking a set of routes with one profile.
@@ -106,12 +110,20 @@ pub fn check_route(route: Route, profile: &Profile) -> CheckedRoute {
     check_route_with(route, profile, &Limits::default())
 }
 
-/// Simulates and assesses one route within `limits.max_rollout_steps` control steps.
+/// Simulates and assesses one route within `limits.max_rollout_steps` control steps per
+/// simulation, then finds each leg's highest passing speed (`crate::margin`; those simulations
+/// are counted in [`CheckedRoute::steps_simulated`]).
 pub fn check_route_with(route: Route, profile: &Profile, limits: &Limits) -> CheckedRoute {
     let drive = RouteDrive::new(&route, profile);
-    let trace = roll_out_within(&drive, limits.max_rollout_steps);
-    let report = assess_route(&route, &drive, &trace, profile.vehicle.battery_wh);
-    CheckedRoute { route, drive, trace, report }
+    let (trace, resumes) = roll_out_with_resumes(&drive, limits.max_rollout_steps);
+    let plans = leg_plans(&drive);
+    let mut report = assess_route_with(&route, &drive, &trace, profile.vehicle.battery_wh, &plans);
+    let margins = max_passing_speeds(&drive, &plans, &resumes, &report, limits.max_rollout_steps);
+    for (leg, m) in report.legs.iter_mut().zip(&margins) {
+        leg.max_passing_speed_mps = m.speed_mps;
+    }
+    let steps_simulated = trace.steps.len() as u64 + margins.iter().map(|m| m.steps).sum::<u64>();
+    CheckedRoute { route, drive, trace, report, steps_simulated }
 }
 
 /// Checks routes in parallel; the output keeps the input order.

@@ -86,7 +86,44 @@ pub struct Follower<'a> {
     leg: usize,
 }
 
+/// The state a follower carries from one control step to the next, to resume it later (with the
+/// same plan and limits, possibly other leg speeds).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FollowerState {
+    progress_m: f64,
+    speed_mps: f64,
+    left_mps: f64,
+    right_mps: f64,
+    cursor: Cursor,
+    leg: usize,
+}
+
+impl FollowerState {
+    /// Arc length of the progress point.
+    pub fn progress_m(&self) -> f64 {
+        self.progress_m
+    }
+}
+
 impl<'a> Follower<'a> {
+    /// The follower's state now.
+    pub fn state(&self) -> FollowerState {
+        FollowerState {
+            progress_m: self.progress_m,
+            speed_mps: self.speed_mps,
+            left_mps: self.left_mps,
+            right_mps: self.right_mps,
+            cursor: self.cursor,
+            leg: self.leg,
+        }
+    }
+
+    /// A follower resumed from `state`, driving legs at `leg_speed_mps`.
+    pub fn resume(plan: &'a PlanPath, leg_speed_mps: &'a [f64], limits: FollowerLimits, state: FollowerState) -> Self {
+        let FollowerState { progress_m, speed_mps, left_mps, right_mps, cursor, leg } = state;
+        Follower { plan, leg_speed_mps, limits, progress_m, speed_mps, left_mps, right_mps, cursor, leg }
+    }
+
     pub fn new(plan: &'a PlanPath, leg_speed_mps: &'a [f64], limits: FollowerLimits) -> Self {
         Follower {
             plan,

@@ -17,6 +17,7 @@ pub mod fit;
 pub mod follow;
 pub mod kinematics;
 pub mod limits;
+pub mod margin;
 pub mod progress;
 pub mod relax;
 pub mod report;

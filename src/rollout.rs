@@ -11,7 +11,7 @@
 //! reserved up front from the time bound).
 
 use crate::effort::{effort_step, EffortStep, EffortVehicle, Ground, Slope};
-use crate::follow::{Follower, FollowerLimits};
+use crate::follow::{Follower, FollowerLimits, FollowerState};
 use crate::kinematics::{Model, MotionModel, Pose, Twist};
 use crate::route::{PlanPath, Route, TerrainShare};
 use crate::turn_limit::{limit_step, StepLimit};
@@ -94,9 +94,14 @@ impl RouteDrive {
     /// Time bound for a rollout: three times the planned driving time at the reachable leg
     /// speeds, plus a minute for ramps. A vehicle that stalls or circles is stopped there.
     pub fn time_limit_s(&self) -> f64 {
+        self.time_limit_with(&self.speeds_mps)
+    }
+
+    /// [`RouteDrive::time_limit_s`] with leg speeds `speeds_mps`.
+    pub fn time_limit_with(&self, speeds_mps: &[f64]) -> f64 {
         let legs = (0..self.plan.leg_count()).map(|i| {
             let (a, b) = self.plan.leg_bounds_m(i);
-            (b - a, self.legs[i].speed_mps)
+            (b - a, speeds_mps.get(i).copied().unwrap_or(self.legs[i].speed_mps))
         });
         time_bound_s(legs, self.limits.max_side_speed_mps)
     }
@@ -112,6 +117,14 @@ impl RouteDrive {
         } else {
             (rear, front)
         }
+    }
+
+    /// The ground coefficients under a contact patch centred at arc length `s_m` (blended across
+    /// a terrain boundary, as the simulation blends them).
+    pub fn ground_at(&self, s_m: f64) -> Ground {
+        let under = self.plan.terrain_share(s_m, self.vehicle.contact_length_m);
+        let (rear, front) = self.terrain_pair(under);
+        rear.ground.blend(&front.ground, under.front_share)
     }
 
     /// Most control steps the rollout can take: the time bound times the control rate.
@@ -226,32 +239,58 @@ pub struct Trace {
     pub outcome: Outcome,
 }
 
-/// Simulates the route. The vehicle starts at rest on the first plan point, heading along the
-/// first segment; each step the follower commands side speeds from the pose, the leg's terrain
-/// model gives the twist, and the pose advances by the exact SE(2) step.
-/// At most [`crate::limits::DEFAULT_MAX_ROLLOUT_STEPS`] steps are simulated.
-pub fn roll_out(drive: &RouteDrive) -> Trace {
-    roll_out_within(drive, crate::limits::DEFAULT_MAX_ROLLOUT_STEPS)
+/// The state of a simulation at the top of a control step, from which it can be resumed (with
+/// other leg speeds: the margins resume just before a leg; docs/method.md, Verdicts).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Resume {
+    follower: FollowerState,
+    pose: Pose,
+    k: u64,
+    prev_vx_mps: f64,
 }
 
-/// [`roll_out`] with a budget of `max_steps` control steps: a rollout that needs more ends with
-/// [`Outcome::StepBudget`] (and the assessment fails the unfinished legs). The check refuses such
-/// routes up front ([`step_bound`]); the budget also guards direct callers.
-pub fn roll_out_within(drive: &RouteDrive, max_steps: u64) -> Trace {
+impl Resume {
+    /// At rest on the first plan point, heading along the first segment.
+    pub fn start(drive: &RouteDrive) -> Resume {
+        let plan = &drive.plan;
+        let (start, dir) = (plan.point_at(0.0), plan.direction_at(0.0));
+        let follower = Follower::new(plan, &drive.speeds_mps, drive.limits).state();
+        Resume { follower, pose: Pose::new(start[0], start[1], dir[1].atan2(dir[0])), k: 0, prev_vx_mps: 0.0 }
+    }
+
+    /// Control steps simulated before this point.
+    pub fn steps_before(&self) -> u64 {
+        self.k
+    }
+}
+
+/// What the step observer tells the simulation.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Flow {
+    Continue,
+    Stop,
+}
+
+/// The simulation loop (see [`roll_out`]) from `start` with leg speeds `speeds_mps`, for at most
+/// `max_steps` steps in all. `at_top` sees the state at the top of every step (before the
+/// progress update); `on_step` sees every finished step and may stop the simulation, which then
+/// returns `None`. Nothing is allocated here.
+fn simulate(
+    drive: &RouteDrive,
+    speeds_mps: &[f64],
+    start: Resume,
+    max_steps: u64,
+    mut at_top: impl FnMut(&Resume),
+    mut on_step: impl FnMut(&Step) -> Flow,
+) -> Option<Outcome> {
     let plan = &drive.plan;
     let dt = drive.limits.dt_s;
-    let limit_s = drive.time_limit_s();
-    // The planned time plus 20 s, as steps; `as` saturates a huge or NaN estimate.
-    let expected_steps = ((limit_s / 3.0) / dt) as usize;
-    let mut steps = Vec::with_capacity(expected_steps.min(MAX_RESERVED_STEPS) + 64);
-    let start = plan.point_at(0.0);
-    let dir = plan.direction_at(0.0);
-    let mut pose = Pose::new(start[0], start[1], dir[1].atan2(dir[0]));
-    let mut follower = Follower::new(plan, &drive.speeds_mps, drive.limits);
-    let mut t = 0.0;
-    let mut k: u64 = 0;
-    let mut prev_vx = 0.0;
+    let limit_s = drive.time_limit_with(speeds_mps);
+    let mut follower = Follower::resume(plan, speeds_mps, drive.limits, start.follower);
+    let (mut pose, mut k, mut prev_vx) = (start.pose, start.k, start.prev_vx_mps);
+    let mut t = k as f64 * dt;
     let outcome = loop {
+        at_top(&Resume { follower: follower.state(), pose, k, prev_vx_mps: prev_vx });
         follower.update_progress(pose);
         let leg = follower.leg();
         let near = follower.deviation(pose);
@@ -264,17 +303,20 @@ pub fn roll_out_within(drive: &RouteDrive, max_steps: u64) -> Trace {
             offset_m: near.signed_offset_m,
             ..Step::default()
         };
-        if k > 0 && follower.finished(pose) {
-            steps.push(step);
-            break Outcome::Reached;
-        }
-        if t > limit_s {
-            steps.push(step);
-            break Outcome::TimedOut { limit_s, progress_m: follower.progress_m() };
-        }
-        if k >= max_steps {
-            steps.push(step);
-            break Outcome::StepBudget { max_steps, progress_m: follower.progress_m() };
+        let end = if k > 0 && follower.finished(pose) {
+            Some(Outcome::Reached)
+        } else if t > limit_s {
+            Some(Outcome::TimedOut { limit_s, progress_m: follower.progress_m() })
+        } else if k >= max_steps {
+            Some(Outcome::StepBudget { max_steps, progress_m: follower.progress_m() })
+        } else {
+            None
+        };
+        if let Some(outcome) = end {
+            if on_step(&step) == Flow::Stop {
+                return None;
+            }
+            break outcome;
         }
         let legd = &drive.legs[leg];
         let cmd = follower.command(pose, &legd.controller);
@@ -288,7 +330,9 @@ pub fn roll_out_within(drive: &RouteDrive, max_steps: u64) -> Trace {
         step.limit = limit_step(&drive.vehicle, &ground, slope, &mut twist, &mut left, &mut right);
         if step.limit == StepLimit::Stall {
             step.effort.grade_rad = grade;
-            steps.push(step);
+            if on_step(&step) == Flow::Stop {
+                return None;
+            }
             break Outcome::Stalled { progress_m: follower.progress_m(), grade_rad: grade };
         }
         step.left_mps = left;
@@ -298,12 +342,103 @@ pub fn roll_out_within(drive: &RouteDrive, max_steps: u64) -> Trace {
         prev_vx = twist.vx_mps;
         step.effort =
             effort_step(&drive.vehicle, &ground, twist.vx_mps, twist.omega_radps, left, right, step.accel_mps2, slope);
-        steps.push(step);
+        if on_step(&step) == Flow::Stop {
+            return None;
+        }
         pose = pose.step(twist, dt);
         k += 1;
         t = k as f64 * dt;
     };
-    Trace { steps, outcome }
+    Some(outcome)
+}
+
+/// Simulates the route. The vehicle starts at rest on the first plan point, heading along the
+/// first segment; each step the follower commands side speeds from the pose, the terrain model
+/// under the vehicle gives the twist, traction bounds it, and the pose advances by the exact
+/// SE(2) step. At most [`crate::limits::DEFAULT_MAX_ROLLOUT_STEPS`] steps are simulated.
+pub fn roll_out(drive: &RouteDrive) -> Trace {
+    roll_out_within(drive, crate::limits::DEFAULT_MAX_ROLLOUT_STEPS)
+}
+
+/// [`roll_out`] with a budget of `max_steps` control steps: a rollout that needs more ends with
+/// [`Outcome::StepBudget`] (and the assessment fails the unfinished legs). The check refuses such
+/// routes up front ([`step_bound`]); the budget also guards direct callers.
+pub fn roll_out_within(drive: &RouteDrive, max_steps: u64) -> Trace {
+    roll_out_with_resumes(drive, max_steps).0
+}
+
+/// Distance before a leg's start from which that leg's speed can change the simulation (the
+/// follower slows ahead of a slower leg within v^2 / 2a of its start), plus a metre.
+pub fn leg_influence_m(drive: &RouteDrive) -> f64 {
+    let v = drive.limits.max_side_speed_mps;
+    v * v / (2.0 * drive.limits.max_side_accel_mps2.max(1e-9)) + 1.0
+}
+
+/// [`roll_out_within`], also returning for every leg the state from which the simulation can be
+/// resumed with another speed for that leg (the first step whose progress point is within
+/// [`leg_influence_m`] of the leg's start; the start for the first leg). Legs the simulation
+/// never came near get `None`.
+pub fn roll_out_with_resumes(drive: &RouteDrive, max_steps: u64) -> (Trace, Vec<Option<Resume>>) {
+    let limit_s = drive.time_limit_s();
+    // The planned time plus 20 s, as steps; `as` saturates a huge or NaN estimate.
+    let expected_steps = ((limit_s / 3.0) / drive.limits.dt_s) as usize;
+    let mut steps = Vec::with_capacity(expected_steps.min(MAX_RESERVED_STEPS) + 64);
+    let n_legs = drive.legs.len();
+    let mut resumes: Vec<Option<Resume>> = vec![None; n_legs];
+    let influence_m = leg_influence_m(drive);
+    let mut next_leg = 0;
+    let outcome = simulate(
+        drive,
+        &drive.speeds_mps,
+        Resume::start(drive),
+        max_steps,
+        |r| {
+            let progress_m = r.follower.progress_m();
+            while next_leg < n_legs && progress_m >= drive.plan.leg_bounds_m(next_leg).0 - influence_m {
+                resumes[next_leg] = Some(*r);
+                next_leg += 1;
+            }
+        },
+        |s| {
+            steps.push(*s);
+            Flow::Continue
+        },
+    );
+    let progress_m = steps.last().map_or(0.0, |s: &Step| s.progress_m);
+    let outcome = outcome.unwrap_or(Outcome::StepBudget { max_steps, progress_m });
+    (Trace { steps, outcome }, resumes)
+}
+
+/// Whether leg `leg` passes the simulation rules of the verdict when driven at the leg speeds
+/// `speeds_mps`, resumed from `from` (docs/method.md, Verdicts: margins): the vehicle gets past
+/// the leg's end without its deviation ever leaving the leg's corridor, without stalling, and
+/// within the time bound and `max_steps`. Stops at the first step that decides it. Returns the
+/// answer and the steps simulated.
+pub fn leg_passes(drive: &RouteDrive, speeds_mps: &[f64], from: &Resume, leg: usize, max_steps: u64) -> (bool, u64) {
+    let corridor_m = drive.legs[leg].corridor_m;
+    let mut passed = false;
+    let mut simulated = 0u64;
+    let outcome = simulate(
+        drive,
+        speeds_mps,
+        *from,
+        max_steps,
+        |_| {},
+        |s| {
+            simulated += 1;
+            if s.leg > leg {
+                passed = true;
+                return Flow::Stop;
+            }
+            if s.leg == leg && (s.deviation_m > corridor_m || s.limit == StepLimit::Stall) {
+                return Flow::Stop;
+            }
+            Flow::Continue
+        },
+    );
+    // Reaching the end of the route completes the last leg.
+    let passed = passed || (outcome == Some(Outcome::Reached));
+    (passed, simulated)
 }
 
 #[cfg(test)]
