@@ -19,6 +19,16 @@ pub struct FollowerLimits {
     pub max_side_speed_mps: f64,
     pub max_side_accel_mps2: f64,
     pub track_width_m: f64,
+    /// Optional slow-down in turns: the largest lateral acceleration of the pursuit arc, m/s^2;
+    /// infinite when the follower does not slow for turns (the default).
+    pub max_lateral_accel_mps2: f64,
+}
+
+impl FollowerLimits {
+    /// True when the follower slows down in turns.
+    pub fn slows_in_turns(&self) -> bool {
+        self.max_lateral_accel_mps2.is_finite()
+    }
 }
 
 /// How far ahead, in lookaheads, a lost vehicle's progress point may move to the plan point
@@ -204,6 +214,18 @@ impl<'a> Follower<'a> {
     /// speed ramp, yaw-rate clamp, inverse model, saturation and per-side acceleration limit.
     #[inline]
     pub fn command(&mut self, pose: Pose, controller: &Model) -> Command {
+        self.command_capped(pose, controller, |_| f64::INFINITY)
+    }
+
+    /// [`Follower::command`] with a speed cap that depends on the pursuit curvature (the
+    /// simulation passes the traction part of the slow-down in turns through it).
+    ///
+    /// Slow-down in turns (optional, `max_lateral_accel_mps2`; common practice in path
+    /// followers, no source): the target speed is limited to sqrt(a_max / |kappa|) for the
+    /// pursuit arc's curvature kappa, which looks one lookahead ahead, and to `cap(kappa)`; the
+    /// speed then ramps to it at the side-acceleration limit like any other target.
+    #[inline]
+    pub fn command_capped(&mut self, pose: Pose, controller: &Model, cap: impl Fn(f64) -> f64) -> Command {
         let lim = self.limits;
         let goal = self.plan.pursuit_goal_at(
             [pose.x_m, pose.y_m],
@@ -215,7 +237,12 @@ impl<'a> Follower<'a> {
         let (gx, gy) = pose.to_body(goal[0], goal[1]);
         let kappa = pursuit_curvature(gx, gy);
         let dv = lim.max_side_accel_mps2 * lim.dt_s;
-        self.speed_mps += (self.target_speed_mps() - self.speed_mps).clamp(-dv, dv);
+        let mut target = self.target_speed_mps();
+        if lim.slows_in_turns() && kappa.abs() > 1e-9 {
+            let lateral = (lim.max_lateral_accel_mps2 / kappa.abs()).sqrt();
+            target = target.min(lateral.min(cap(kappa)).max(CREEP_SPEED_MPS));
+        }
+        self.speed_mps += (target - self.speed_mps).clamp(-dv, dv);
         let omega = (kappa * self.speed_mps).clamp(-lim.max_yaw_rate_radps, lim.max_yaw_rate_radps);
         let half = 0.5 * omega * lim.track_width_m;
         let (l, r) =
@@ -287,6 +314,7 @@ mod tests {
             max_side_speed_mps: 2.0,
             max_side_accel_mps2: 1.0,
             track_width_m: 0.9,
+            max_lateral_accel_mps2: f64::INFINITY,
         }
     }
 

@@ -14,7 +14,7 @@ use crate::effort::{effort_step, EffortStep, EffortVehicle, Ground, Slope};
 use crate::follow::{Follower, FollowerLimits, FollowerState};
 use crate::kinematics::{Model, MotionModel, Pose, Twist};
 use crate::route::{PlanPath, Route, TerrainShare};
-use crate::turn_limit::{limit_step, StepLimit};
+use crate::turn_limit::{limit_step, turn_speed_limit_mps, StepLimit};
 use crate::vehicle::Profile;
 
 /// How one leg is driven: the terrain's actual model, the model the controller inverts, and
@@ -80,6 +80,7 @@ impl RouteDrive {
             max_side_speed_mps: v.max_side_speed_mps,
             max_side_accel_mps2: v.max_side_accel_mps2,
             track_width_m: v.track_width_m,
+            max_lateral_accel_mps2: profile.follower.max_lateral_accel_mps2.unwrap_or(f64::INFINITY),
         };
         RouteDrive {
             plan,
@@ -319,14 +320,18 @@ fn simulate(
             break outcome;
         }
         let legd = &drive.legs[leg];
-        let cmd = follower.command(pose, &legd.controller);
         let under = plan.terrain_share(step.progress_m, drive.vehicle.contact_length_m);
         let (rear, front) = drive.terrain_pair(under);
-        let mut twist = ground_twist(&rear.actual, &front.actual, under.front_share, cmd.left_mps, cmd.right_mps);
         let ground = rear.ground.blend(&front.ground, under.front_share);
-        let (mut left, mut right) = (cmd.left_mps, cmd.right_mps);
         let grade = if plan.has_altitude() { plan.grade_at(step.progress_m) } else { 0.0 };
         let slope = Slope::grade(grade);
+        let cmd = if drive.limits.slows_in_turns() {
+            follower.command_capped(pose, &legd.controller, |k| turn_speed_limit_mps(&drive.vehicle, &ground, k, slope))
+        } else {
+            follower.command(pose, &legd.controller)
+        };
+        let mut twist = ground_twist(&rear.actual, &front.actual, under.front_share, cmd.left_mps, cmd.right_mps);
+        let (mut left, mut right) = (cmd.left_mps, cmd.right_mps);
         step.limit = limit_step(&drive.vehicle, &ground, slope, &mut twist, &mut left, &mut right);
         if step.limit == StepLimit::Stall {
             step.effort.grade_rad = grade;
@@ -474,6 +479,7 @@ mod tests {
             max_side_speed_mps: 3.0,
             max_side_accel_mps2: 2.0,
             track_width_m: 0.9,
+            max_lateral_accel_mps2: f64::INFINITY,
         }
     }
 
@@ -677,6 +683,28 @@ mod tests {
         assert!(worst < -0.1 && worst > -0.35, "{worst}");
         let mid = tr.steps.iter().find(|s| s.progress_m >= 30.0).expect("reaches the boundary");
         assert!(mid.twist.vx_mps < 0.95 * 1.2 - 0.05 && mid.twist.vx_mps > 0.75 * 1.2 + 0.05, "{mid:?}");
+    }
+
+    #[test]
+    fn the_optional_slow_down_holds_lateral_acceleration_on_a_circle() {
+        // Circular motion (common practice, no source): lateral acceleration v^2 / R, so a cap
+        // a_max gives v = sqrt(a_max R). On a 4 m circle with a_max = 0.25 m/s^2 and ideal
+        // kinematics the follower settles on the circle (r^2 = R^2 + (chi - 1) L^2 with chi = 1)
+        // at sqrt(0.25 x 4) = 1.0 m/s although the leg asks for 1.5 m/s. Off by default.
+        let mut lim = limits(1.5);
+        lim.max_lateral_accel_mps2 = 0.25;
+        let d = drive_on(crate::route::plan::circle_points(4.0, 2000, 2.0), Model::ideal(0.9), 1.5, lim);
+        let tr = roll_out(&d);
+        let n = tr.steps.len();
+        for s in &tr.steps[n / 2..n * 3 / 4] {
+            assert_relative_eq!(s.twist.vx_mps, 1.0, max_relative = 0.01);
+            assert!(s.twist.vx_mps * s.twist.omega_radps.abs() <= 0.25 * 1.01, "{s:?}");
+        }
+        let mut off = d.clone();
+        off.limits.max_lateral_accel_mps2 = f64::INFINITY;
+        let free = roll_out(&off);
+        let m = free.steps.len();
+        assert_relative_eq!(free.steps[m / 2].twist.vx_mps, 1.5, max_relative = 0.01);
     }
 
     #[test]

@@ -203,6 +203,27 @@ pub fn lateral_accel_caution_mps2(ground: &Ground) -> f64 {
     LATERAL_ACCEL_CAUTION_SHARE * ground.traction_coefficient * STANDARD_GRAVITY_MPS2
 }
 
+/// The highest speed at which a steady turn of curvature `curvature_per_m` on `slope` stays
+/// within the traction limit (docs/method.md, Following: slow-down in turns). In this
+/// quasi-static model only the power part of the limit depends on speed (thrust does not:
+/// centrifugal load transfer is neglected), so: infinite when the turn is within traction and
+/// the rating at any speed, the speed at which its drawn power reaches the rating when power
+/// binds (drawn power is proportional to speed at given thrusts), and infinite too when
+/// thrust alone forbids the turn (slowing down would not help; the simulation widens it).
+pub fn turn_speed_limit_mps(veh: &EffortVehicle, ground: &Ground, curvature_per_m: f64, slope: Slope) -> f64 {
+    let k = curvature_per_m.abs().min(2.0 / veh.track_width_m);
+    let Some(budget_n) = turning_budget_n(veh, ground, slope, 1.0, 1.0) else { return f64::INFINITY };
+    if SideForces::new(veh, ground, k, 0.0, slope).turning_n > budget_n {
+        return f64::INFINITY;
+    }
+    let per_mps = steady_turn_power_w(veh, ground, 1.0, k, slope);
+    if per_mps <= 0.0 {
+        f64::INFINITY
+    } else {
+        veh.max_power_w / per_mps
+    }
+}
+
 /// How traction bounded one control step of the simulation.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub enum StepLimit {
@@ -461,6 +482,20 @@ mod tests {
         let e = crate::effort::effort_step(&veh, &ground, twist.vx_mps, 0.0, l, r, 0.0, slope);
         assert_relative_eq!(e.drawn_power_w, 20_000.0, max_relative = 1e-9);
         assert!(twist.vx_mps < 3.0 && (l - r).abs() < 1e-12);
+    }
+
+    #[test]
+    fn the_turn_speed_limit_puts_the_drawn_power_at_the_rating() {
+        let (mut veh, mut ground) = wong_example();
+        ground.traction_coefficient = 5.0;
+        veh.max_power_w = 20_000.0;
+        let k = 0.4;
+        let v = turn_speed_limit_mps(&veh, &ground, k, Slope::LEVEL);
+        assert_relative_eq!(steady_turn_power_w(&veh, &ground, v, k, Slope::LEVEL), 20_000.0, max_relative = 1e-12);
+        assert_relative_eq!(traction_curvature_limit(&veh, &ground, v, Slope::LEVEL), k, max_relative = 1e-6);
+        // Thrust-bound turns are not helped by slowing down.
+        ground.traction_coefficient = 0.3;
+        assert_eq!(turn_speed_limit_mps(&veh, &ground, 1.0, Slope::LEVEL), f64::INFINITY);
     }
 
     #[test]

@@ -33,7 +33,8 @@ const VEHICLE_KEYS: &[&str] = &[
     "battery_wh",
 ];
 
-const FOLLOWER_KEYS: &[&str] = &["lookahead_m", "control_rate_hz", "inverse_model", "corridor_m", "curvature_scale_m"];
+const FOLLOWER_KEYS: &[&str] =
+    &["lookahead_m", "control_rate_hz", "inverse_model", "corridor_m", "curvature_scale_m", "max_lateral_accel_mps2"];
 
 /// Keys every terrain table may hold, whatever its family.
 const TERRAIN_COMMON_KEYS: &[&str] = &[
@@ -312,6 +313,7 @@ fn parse_follower(s: &Section) -> Result<FollowerSpec, VehicleError> {
         inverse_model,
         corridor_m: s.number("corridor_m", Rule::Positive)?,
         curvature_scale_m: s.number("curvature_scale_m", Rule::Positive)?,
+        max_lateral_accel_mps2: s.optional_number("max_lateral_accel_mps2", Rule::Positive)?,
     })
 }
 
@@ -759,6 +761,16 @@ lateral_resistance_max = 0.35
         parse(&linear([0.45, 0.47, 0.01, -0.02, -0.8, 0.75])).expect("linear");
         let e = error_of(&linear([0.5, 0.5, 0.0, 0.0, 0.5, 0.5]));
         assert!(e.contains("terrain.packed-snow.model: forward and yaw rows are singular"), "{e}");
+    }
+
+    #[test]
+    fn slow_down_in_turns_is_optional_and_positive() {
+        let off = replaced("curvature_scale_m = 0.5", "curvature_scale_m = 0.5");
+        assert_eq!(parse(&off).expect("default").follower.max_lateral_accel_mps2, None);
+        let text = replaced("curvature_scale_m = 0.5", "curvature_scale_m = 0.5\nmax_lateral_accel_mps2 = 0.6");
+        assert_eq!(parse(&text).expect("slow-down").follower.max_lateral_accel_mps2, Some(0.6));
+        let e = error_of(&replaced("curvature_scale_m = 0.5", "curvature_scale_m = 0.5\nmax_lateral_accel_mps2 = -1"));
+        assert!(e.contains("follower.max_lateral_accel_mps2: must be a positive number"), "{e}");
     }
 
     #[test]
