@@ -384,6 +384,43 @@ pub(crate) mod tests {
     }
 
     #[test]
+    fn each_side_s_rolling_resistance_opposes_its_own_motion() {
+        // Wong 2008: rolling resistance opposes the motion of the track it acts on. Pivot turn
+        // (left track back, right forward): the left track's rolling resistance pushes it
+        // forward, so its thrust is -f_r W/2 - M_r/B, the right one's +f_r W/2 + M_r/B; both
+        // sides then consume power. Reversing straight, both thrusts are -f_r W/2 and the
+        // drive still delivers f_r W |v| (it used to come out as power returned).
+        let (veh, ground) = wong_example();
+        let w = veh.weight_n();
+        let m_r = turning_moment(0.6, w, 2.0, RunningGear::Tracks);
+        let pivot = effort_step(&veh, &ground, 0.0, 0.5, -0.4, 0.4, 0.0, Slope::LEVEL);
+        assert_relative_eq!(pivot.left_thrust_n, -0.05 * w / 2.0 - m_r / 1.6, max_relative = 1e-12);
+        assert_relative_eq!(pivot.right_thrust_n, 0.05 * w / 2.0 + m_r / 1.6, max_relative = 1e-12);
+        assert_relative_eq!(pivot.mechanical_power_w, 0.8 * (0.05 * w / 2.0 + m_r / 1.6), max_relative = 1e-12);
+        let back = effort_step(&veh, &ground, -1.0, 0.0, -1.0, -1.0, 0.0, Slope::LEVEL);
+        assert_relative_eq!(back.left_thrust_n, -0.05 * w / 2.0, max_relative = 1e-12);
+        assert_relative_eq!(back.mechanical_power_w, 0.05 * w * 1.0, max_relative = 1e-12);
+    }
+
+    #[test]
+    fn normal_load_falls_with_the_cosine_of_the_grade() {
+        // On a 30 % grade N = W cos(atan 0.3) and the weight component per side is
+        // W sin(atan 0.3) / 2 (statics of a body on an incline, common practice, no source).
+        let (veh, ground) = wong_example();
+        let g = 0.3_f64.atan();
+        let (f_o, f_i) = side_thrusts(&veh, &ground, 0.0, 0.0, Slope::grade(g));
+        let w = veh.weight_n();
+        let expected = 0.05 * w * (1.0 / 1.09_f64.sqrt()) / 2.0 + w * (0.3 / 1.09_f64.sqrt()) / 2.0;
+        assert_relative_eq!(f_o, expected, max_relative = 1e-12);
+        assert_relative_eq!(f_i, expected, max_relative = 1e-12);
+        assert_relative_eq!(
+            side_thrust_limit_on_n(&veh, &ground, Slope::grade(g)),
+            0.7 * w / 1.09_f64.sqrt() / 2.0,
+            max_relative = 1e-12
+        );
+    }
+
+    #[test]
     fn outer_side_follows_the_turn_direction() {
         let (veh, ground) = wong_example();
         let left_turn = effort_step(&veh, &ground, 1.0, 0.2, 0.5, 1.5, 0.0, Slope::LEVEL);
