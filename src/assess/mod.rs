@@ -546,3 +546,6 @@ fn judge_effort(leg: &mut LegReport, e: &LegEffort, plan: &LegPlan, drive: &Rout
         add(leg, Verdict::Caution, why);
     }
 }
+
+#[cfg(test)]
+mod tests;

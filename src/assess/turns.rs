@@ -168,8 +168,8 @@ pub struct TurnCheck {
     pub worst_ratio: f64,
     pub worst_at_m: f64,
     pub worst_per_m: f64,
-    /// Runs of consecutive vertices that need more than the vehicle can drive, each as its
-    /// tightest point.
+    /// Runs of consecutive vertices (each within 2 curvature scales, and at least 1.05 m, of the
+    /// last) that need more than the vehicle can drive, each as its tightest point.
     pub failing: Vec<FailingTurn>,
 }
 
@@ -192,9 +192,11 @@ pub fn check_turns(drive: &RouteDrive, leg: usize, plan: &LegPlan, speed_mps: f6
         worst_per_m: plan.tightest_per_m,
         failing: Vec::new(),
     };
-    // The failing run being built: (last vertex index, its representative and ratio).
-    let mut run: Option<(usize, TurnPoint, f64, Achievable)> = None;
-    let close = |run: &mut Option<(usize, TurnPoint, f64, Achievable)>, out: &mut Vec<FailingTurn>| {
+    // The failing run being built: (last vertex, its representative and ratio). Consecutive
+    // failing vertices closer than this belong to one turn.
+    let join_m = (2.0 * drive.curvature_scale_m).max(crate::route::plan::ARC_SAMPLE_MAX_SPACING_M);
+    let mut run: Option<(TurnPoint, TurnPoint, f64, Achievable)> = None;
+    let close = |run: &mut Option<(TurnPoint, TurnPoint, f64, Achievable)>, out: &mut Vec<FailingTurn>| {
         if let Some((_, t, _, a)) = run.take() {
             out.push(failing_turn(&t, &a));
         }
@@ -209,15 +211,15 @@ pub fn check_turns(drive: &RouteDrive, leg: usize, plan: &LegPlan, speed_mps: f6
         }
         if ratio > 1.0 {
             match &mut run {
-                Some((last, best, best_ratio, best_a)) if t.index == *last + 1 => {
-                    *last = t.index;
+                Some((last, best, best_ratio, best_a)) if t.index == last.index + 1 && t.s_m - last.s_m <= join_m => {
+                    *last = *t;
                     if ratio > *best_ratio {
                         (*best, *best_ratio, *best_a) = (*t, ratio, a);
                     }
                 }
                 _ => {
                     close(&mut run, &mut check.failing);
-                    run = Some((t.index, *t, ratio, a));
+                    run = Some((*t, *t, ratio, a));
                 }
             }
         } else {
