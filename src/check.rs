@@ -6,11 +6,12 @@ use std::sync::Arc;
 
 use rayon::prelude::*;
 
-use crate::assess::{assess_route, DriftNote, RouteReport, Verdict};
+use crate::assess::{assess_route_with, leg_plans, DriftNote, RouteReport, Verdict};
 use crate::drift::{run_drift, DriftSettings};
 use crate::limits::Limits;
+use crate::margin::max_passing_speeds;
 use crate::progress::Progress;
-use crate::rollout::{roll_out_within, step_bound, RouteDrive, Trace};
+use crate::rollout::{roll_out_with_resumes, step_bound, RouteDrive, Trace};
 use crate::route::{Route, RouteError};
 use crate::site::{Site, TerrainMap};
 use crate::vehicle::Profile;
@@ -23,6 +24,9 @@ pub struct CheckedRoute {
     pub drive: RouteDrive,
     pub trace: Trace,
     pub report: RouteReport,
+    /// Control steps simulated for this route: its rollout and the margins' simulations (for a
+    /// run-wide work budget).
+    pub steps_simulated: u64,
 }
 
 /// The result of checking a set of routes with one profile.
@@ -115,6 +119,35 @@ pub fn charge_work(
     })
 }
 
+/// Upper bound of the control steps the margin search (each leg's highest passing speed,
+/// `crate::margin`) of every route simulates when checked within `limits.max_rollout_steps`
+/// steps per simulation ([`crate::margin::work_bound`]).
+pub fn margin_work_steps(routes: &[Route], profile: &Profile, limits: &Limits) -> f64 {
+    routes.iter().map(|r| crate::margin::work_bound(r, profile, limits.max_rollout_steps)).sum()
+}
+
+/// Charges a check of `routes` ([`check_routes_with`]) to `budget`, up front: one rollout of
+/// every route, then the margin search of every leg ([`margin_work_steps`]). Each charge is
+/// refused whole with a message that counts the routes and says what the work is for (`what`,
+/// e.g. "checking").
+pub fn charge_check(
+    budget: &crate::limits::WorkBudget,
+    routes: &[Route],
+    profile: &Profile,
+    limits: &Limits,
+    what: &str,
+) -> Result<(), crate::limits::WorkBudgetError> {
+    charge_work(budget, routes, profile, 1, what)?;
+    budget.charge_rollouts(margin_work_steps(routes, profile, limits), 1, || {
+        let n = routes.len();
+        let per_leg = crate::margin::max_simulations_per_leg(profile.vehicle.max_side_speed_mps);
+        format!(
+            "finding the highest passing speed of every leg (up to {per_leg} simulations of each) when {what} {n} route{}",
+            if n == 1 { "" } else { "s" }
+        )
+    })
+}
+
 /// Refuses a route whose rollout could need more than `limits.max_rollout_steps` steps.
 fn check_step_bound(route: &Route, profile: &Profile, limits: &Limits) -> Result<(), RouteError> {
     let steps = step_bound(route, profile);
@@ -140,12 +173,20 @@ pub fn check_route(route: Route, profile: &Profile) -> CheckedRoute {
     check_route_with(route, profile, &Limits::default())
 }
 
-/// Simulates and assesses one route within `limits.max_rollout_steps` control steps.
+/// Simulates and assesses one route within `limits.max_rollout_steps` control steps per
+/// simulation, then finds each leg's highest passing speed (`crate::margin`; those simulations
+/// are counted in [`CheckedRoute::steps_simulated`]).
 pub fn check_route_with(route: Route, profile: &Profile, limits: &Limits) -> CheckedRoute {
     let drive = RouteDrive::new(&route, profile);
-    let trace = roll_out_within(&drive, limits.max_rollout_steps);
-    let report = assess_route(&route, &drive, &trace, profile.vehicle.battery_wh);
-    CheckedRoute { route, drive, trace, report }
+    let (trace, resumes) = roll_out_with_resumes(&drive, limits.max_rollout_steps);
+    let plans = leg_plans(&drive);
+    let mut report = assess_route_with(&route, &drive, &trace, profile.vehicle.battery_wh, &plans);
+    let margins = max_passing_speeds(&drive, &plans, &resumes, &report, limits.max_rollout_steps);
+    for (leg, m) in report.legs.iter_mut().zip(&margins) {
+        leg.max_passing_speed_mps = m.speed_mps;
+    }
+    let steps_simulated = trace.steps.len() as u64 + margins.iter().map(|m| m.steps).sum::<u64>();
+    CheckedRoute { route, drive, trace, report, steps_simulated }
 }
 
 /// Checks routes in parallel; the output keeps the input order.

@@ -1,5 +1,4 @@
-//! Track effort: thrust per side, mechanical and drawn power, energy, and the traction-limited
-//! tightest turn, after Wong, "Theory of Ground Vehicles", 4th ed. (2008), ch. 7, steering of
+//! Track effort: thrust per side, mechanical and drawn power and energy, after Wong, "Theory of Ground Vehicles", 4th ed. (2008), ch. 7, steering of
 //! tracked vehicles (docs/method.md, Effort).
 //!
 //! Quasi-static: rolling resistance, turning resistance, acceleration and grade; yaw inertia and
@@ -71,6 +70,65 @@ impl Ground {
     }
 }
 
+impl Ground {
+    /// The coefficients a share `w` (0..1) of the way from `self` to `other`, each linear: the
+    /// ground under a contact patch that straddles a terrain boundary (docs/method.md, Following).
+    #[inline]
+    pub fn blend(&self, other: &Ground, w: f64) -> Ground {
+        let mix = |a: f64, b: f64| {
+            if w <= 0.0 {
+                a
+            } else if w >= 1.0 {
+                b
+            } else {
+                a + w * (b - a)
+            }
+        };
+        Ground {
+            rolling_resistance: mix(self.rolling_resistance, other.rolling_resistance),
+            traction_coefficient: mix(self.traction_coefficient, other.traction_coefficient),
+            lateral_resistance_max: mix(self.lateral_resistance_max, other.lateral_resistance_max),
+        }
+    }
+}
+
+/// The attitude of the ground under the vehicle. Only the grade along the direction of travel is
+/// modelled; a cross slope would join here.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Slope {
+    /// Grade along the direction of travel, rad, positive uphill.
+    pub grade_rad: f64,
+}
+
+impl Slope {
+    pub const LEVEL: Slope = Slope { grade_rad: 0.0 };
+
+    pub fn grade(grade_rad: f64) -> Slope {
+        Slope { grade_rad }
+    }
+
+    /// Normal load on the ground, N: W cos(grade).
+    #[inline]
+    pub fn normal_load_n(&self, weight_n: f64) -> f64 {
+        if self.grade_rad == 0.0 {
+            weight_n
+        } else {
+            weight_n * self.grade_rad.cos()
+        }
+    }
+
+    /// Weight component down the slope per side, N: W sin(grade) / 2 (positive uphill: it
+    /// opposes forward motion).
+    #[inline]
+    pub fn grade_force_per_side_n(&self, weight_n: f64) -> f64 {
+        if self.grade_rad == 0.0 {
+            0.0
+        } else {
+            0.5 * weight_n * self.grade_rad.sin()
+        }
+    }
+}
+
 /// Coefficient of lateral resistance at turning radius `radius_m` (Wong 2008, the empirical
 /// relation mu_t = mu_max / (0.925 + 0.15 R / B) for R >= B/2; mu_max below). Written in
 /// curvature so a straight (kappa = 0) gives 0 and a turn on the spot gives mu_max.
@@ -84,32 +142,84 @@ pub fn lateral_resistance(mu_max: f64, curvature_per_m: f64, track_width_m: f64)
     mu_max * k * track_width_m / (0.925 * k * track_width_m + 0.15)
 }
 
-/// Turning resistance moment M_r, N m: tracks mu_t W l / 4 (uniform pressure), wheels
-/// mu_t W l / 2 (loads at the axles).
+/// Turning resistance moment M_r, N m, for a normal load `normal_load_n`: tracks mu_t N l / 4
+/// (uniform pressure), wheels mu_t N l / 2 (loads at the axles).
 #[inline]
-pub fn turning_moment(mu_t: f64, weight_n: f64, contact_length_m: f64, gear: RunningGear) -> f64 {
+pub fn turning_moment(mu_t: f64, normal_load_n: f64, contact_length_m: f64, gear: RunningGear) -> f64 {
     match gear {
-        RunningGear::Tracks => mu_t * weight_n * contact_length_m / 4.0,
-        RunningGear::Wheels => mu_t * weight_n * contact_length_m / 2.0,
+        RunningGear::Tracks => mu_t * normal_load_n * contact_length_m / 4.0,
+        RunningGear::Wheels => mu_t * normal_load_n * contact_length_m / 2.0,
     }
 }
 
-/// Thrusts of the outer and inner side, N (Wong 2008): F_o = f_r W/2 + M_r/B + extra,
-/// F_i = f_r W/2 - M_r/B + extra, where `extra` per side is m a / 2 + W sin(grade) / 2.
+/// The forces behind each side's thrust on a slope, N (Wong 2008, steering of tracked vehicles):
+/// a side moving in direction `dir` (+1 forward, -1 backward, 0 at rest) needs
+/// `dir * rolling_n + grade_n + accel_n`, plus `turning_n` on the outer side and minus it on the
+/// inner side.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SideForces {
+    /// Rolling resistance per side, f_r N / 2 with N = W cos(grade); it opposes the side's motion.
+    pub rolling_n: f64,
+    /// W sin(grade) / 2.
+    pub grade_n: f64,
+    /// m a / 2.
+    pub accel_n: f64,
+    /// M_r / B, with M_r from the normal load N.
+    pub turning_n: f64,
+}
+
+impl SideForces {
+    #[inline]
+    pub fn new(veh: &EffortVehicle, ground: &Ground, curvature_per_m: f64, accel_mps2: f64, slope: Slope) -> Self {
+        let w = veh.weight_n();
+        let n = slope.normal_load_n(w);
+        let mu_t = lateral_resistance(ground.lateral_resistance_max, curvature_per_m, veh.track_width_m);
+        SideForces {
+            rolling_n: 0.5 * ground.rolling_resistance * n,
+            grade_n: slope.grade_force_per_side_n(w),
+            accel_n: 0.5 * veh.mass_kg * accel_mps2,
+            turning_n: turning_moment(mu_t, n, veh.contact_length_m, veh.running_gear) / veh.track_width_m,
+        }
+    }
+
+    /// Thrust of the outer side moving in direction `dir`.
+    #[inline]
+    pub fn outer_n(&self, dir: f64) -> f64 {
+        dir * self.rolling_n + self.grade_n + self.accel_n + self.turning_n
+    }
+
+    /// Thrust of the inner side moving in direction `dir`.
+    #[inline]
+    pub fn inner_n(&self, dir: f64) -> f64 {
+        dir * self.rolling_n + self.grade_n + self.accel_n - self.turning_n
+    }
+}
+
+/// Thrusts of the outer and inner side of a turn driven forward, N (Wong 2008): F_o = f_r N/2 +
+/// M_r/B + extra, F_i = f_r N/2 - M_r/B + extra, with N = W cos(grade) and `extra` per side
+/// m a / 2 + W sin(grade) / 2.
 #[inline]
 pub fn side_thrusts(
     veh: &EffortVehicle,
     ground: &Ground,
     curvature_per_m: f64,
     accel_mps2: f64,
-    grade_rad: f64,
+    slope: Slope,
 ) -> (f64, f64) {
-    let w = veh.weight_n();
-    let mu_t = lateral_resistance(ground.lateral_resistance_max, curvature_per_m, veh.track_width_m);
-    let m_r = turning_moment(mu_t, w, veh.contact_length_m, veh.running_gear);
-    let slope = if grade_rad == 0.0 { 0.0 } else { grade_rad.sin() };
-    let base = 0.5 * ground.rolling_resistance * w + 0.5 * veh.mass_kg * accel_mps2 + 0.5 * w * slope;
-    (base + m_r / veh.track_width_m, base - m_r / veh.track_width_m)
+    let f = SideForces::new(veh, ground, curvature_per_m, accel_mps2, slope);
+    (f.outer_n(1.0), f.inner_n(1.0))
+}
+
+/// Direction of a side's motion for its rolling resistance: +1, -1, or 0 at rest.
+#[inline]
+pub fn motion_direction(side_mps: f64) -> f64 {
+    if side_mps > 1e-9 {
+        1.0
+    } else if side_mps < -1e-9 {
+        -1.0
+    } else {
+        0.0
+    }
 }
 
 /// Power drawn from the source for side powers `p_left_w`, `p_right_w` (mechanical, at the
@@ -130,67 +240,16 @@ pub fn drawn_power_w(veh: &EffortVehicle, p_left_w: f64, p_right_w: f64) -> f64 
     side(p_left_w) + side(p_right_w)
 }
 
-/// Thrust limit per side: the smaller of traction (mu W / 2) and the drive's rating.
+/// Thrust limit per side on level ground: the smaller of traction (mu W / 2) and the drive's rating.
 pub fn side_thrust_limit_n(veh: &EffortVehicle, ground: &Ground) -> f64 {
-    (0.5 * ground.traction_coefficient * veh.weight_n()).min(veh.max_side_thrust_n)
+    side_thrust_limit_on_n(veh, ground, Slope::LEVEL)
 }
 
-/// Whether a steady turn of radius `radius_m` at speed `speed_mps` on level ground keeps the
-/// outer thrust within [`side_thrust_limit_n`] and the drawn power within `max_power_w`. Side
-/// speeds from the turn's geometry, v (1 +- B / 2R).
-fn steady_turn_ok(veh: &EffortVehicle, ground: &Ground, speed_mps: f64, radius_m: f64) -> bool {
-    let (f_o, f_i) = side_thrusts(veh, ground, 1.0 / radius_m, 0.0, 0.0);
-    let half = veh.track_width_m / (2.0 * radius_m);
-    let (v_o, v_i) = (speed_mps * (1.0 + half), speed_mps * (1.0 - half));
-    f_o <= side_thrust_limit_n(veh, ground) && drawn_power_w(veh, f_i * v_i, f_o * v_o) <= veh.max_power_w
-}
-
-/// Radius above which a turn is treated as a straight for the traction limit, m.
-const STRAIGHT_RADIUS_M: f64 = 1.0e5;
-
-/// The traction/thrust/power limit on curvature at `speed_mps` on level ground (docs/method.md, Achievable curvature):
-/// 1 / R_min with R_min the smallest radius >= B/2 whose steady turn keeps the outer thrust
-/// within traction and the rating and the drawn power within the rating. Outer thrust and power
-/// both fall as the radius grows (mu_t falls with R, the outer side slows), so the condition is
-/// monotone in R and R_min is found by bisection (60 halvings of [B/2, 1e5 m] in log R).
-/// Returns 2/B when even a pivot-radius turn is fine, and 0 when the vehicle cannot even drive
-/// straight at this speed.
-pub fn traction_curvature_limit(veh: &EffortVehicle, ground: &Ground, speed_mps: f64) -> f64 {
-    let r_pivot = 0.5 * veh.track_width_m;
-    if steady_turn_ok(veh, ground, speed_mps, r_pivot) {
-        return 1.0 / r_pivot;
-    }
-    if !steady_turn_ok(veh, ground, speed_mps, STRAIGHT_RADIUS_M) {
-        return 0.0;
-    }
-    let (mut lo, mut hi) = (r_pivot.ln(), STRAIGHT_RADIUS_M.ln());
-    for _ in 0..60 {
-        let mid = 0.5 * (lo + hi);
-        if steady_turn_ok(veh, ground, speed_mps, mid.exp()) {
-            hi = mid;
-        } else {
-            lo = mid;
-        }
-    }
-    1.0 / hi.exp()
-}
-
-/// The steerability condition of Wong 2008 in closed form for tracks on level ground at steady
-/// speed: F_o <= mu W / 2 is f_r + mu_t l / (2 B) <= mu; with mu_t = mu_max / (0.925 + 0.15 R/B)
-/// the smallest radius is R = (B / 0.15) (mu_max l / (2 B (mu - f_r)) - 0.925), at least B/2.
-/// `None` when even a straight is not possible (mu <= f_r).
-pub fn steerability_min_radius_m(veh: &EffortVehicle, ground: &Ground) -> Option<f64> {
-    let budget = ground.traction_coefficient - ground.rolling_resistance;
-    if budget <= 0.0 {
-        return None;
-    }
-    let (b, l) = (veh.track_width_m, veh.contact_length_m);
-    let factor = match veh.running_gear {
-        RunningGear::Tracks => 2.0,
-        RunningGear::Wheels => 1.0,
-    };
-    let r = (b / 0.15) * (ground.lateral_resistance_max * l / (factor * b * budget) - 0.925);
-    Some(r.max(0.5 * b))
+/// Thrust limit per side on a slope: the smaller of traction (mu N / 2, N = W cos(grade)) and the
+/// drive's rating. Driving and braking alike.
+#[inline]
+pub fn side_thrust_limit_on_n(veh: &EffortVehicle, ground: &Ground, slope: Slope) -> f64 {
+    (0.5 * ground.traction_coefficient * slope.normal_load_n(veh.weight_n())).min(veh.max_side_thrust_n)
 }
 
 /// Effort at one control step.
@@ -198,7 +257,7 @@ pub fn steerability_min_radius_m(veh: &EffortVehicle, ground: &Ground) -> Option
 pub struct EffortStep {
     pub left_thrust_n: f64,
     pub right_thrust_n: f64,
-    /// Thrust of the outer side of the turn (the larger one on a straight).
+    /// Thrust of the outer side of the turn (the left one on a straight).
     pub outer_thrust_n: f64,
     pub inner_thrust_n: f64,
     /// Mechanical power at the tracks, both sides, W (negative when braking).
@@ -209,7 +268,22 @@ pub struct EffortStep {
     pub grade_rad: f64,
 }
 
-/// Effort at one step from the actual twist, side speeds, acceleration and grade.
+/// Curvature of a twist, 1/m: omega / vx, infinite for a turn on the spot, 0 at rest.
+#[inline]
+pub fn twist_curvature(vx_mps: f64, omega_radps: f64) -> f64 {
+    if vx_mps.abs() > 1e-9 {
+        omega_radps / vx_mps
+    } else if omega_radps.abs() > 1e-9 {
+        f64::INFINITY
+    } else {
+        0.0
+    }
+}
+
+/// Effort at one step from the actual twist (forward speed, yaw rate), the side speeds, the
+/// forward acceleration and the slope. Each side's rolling resistance opposes that side's own
+/// motion, so a counter-rotating inner track is pushed back by it; the turning moment pushes the
+/// outer side forward and the inner side back.
 #[inline]
 pub fn effort_step(
     veh: &EffortVehicle,
@@ -219,36 +293,39 @@ pub fn effort_step(
     left_mps: f64,
     right_mps: f64,
     accel_mps2: f64,
-    grade_rad: f64,
+    slope: Slope,
 ) -> EffortStep {
-    let curvature = if vx_mps.abs() > 1e-9 {
-        omega_radps / vx_mps
-    } else if omega_radps.abs() > 1e-9 {
-        f64::INFINITY
-    } else {
-        0.0
-    };
-    let (f_o, f_i) = side_thrusts(veh, ground, curvature, accel_mps2, grade_rad);
+    let f = SideForces::new(veh, ground, twist_curvature(vx_mps, omega_radps), accel_mps2, slope);
+    let (dl, dr) = (motion_direction(left_mps), motion_direction(right_mps));
     // Turning left (omega > 0) the right side is outer.
-    let (left, right) = if omega_radps >= 0.0 { (f_i, f_o) } else { (f_o, f_i) };
+    let (left, right, outer, inner) = if omega_radps > 0.0 {
+        let (l, r) = (f.inner_n(dl), f.outer_n(dr));
+        (l, r, r, l)
+    } else if omega_radps < 0.0 {
+        let (l, r) = (f.outer_n(dl), f.inner_n(dr));
+        (l, r, l, r)
+    } else {
+        let (l, r) = (f.outer_n(dl), f.outer_n(dr));
+        (l, r, l, r)
+    };
     let (p_l, p_r) = (left * left_mps, right * right_mps);
     EffortStep {
         left_thrust_n: left,
         right_thrust_n: right,
-        outer_thrust_n: f_o,
-        inner_thrust_n: f_i,
+        outer_thrust_n: outer,
+        inner_thrust_n: inner,
         mechanical_power_w: p_l + p_r,
         drawn_power_w: drawn_power_w(veh, p_l, p_r),
-        grade_rad,
+        grade_rad: slope.grade_rad,
     }
 }
 
 #[cfg(test)]
-mod tests {
+pub(crate) mod tests {
     use super::*;
     use approx::assert_relative_eq;
 
-    fn wong_example() -> (EffortVehicle, Ground) {
+    pub(crate) fn wong_example() -> (EffortVehicle, Ground) {
         // Values of the worked example below: W = 50 kN, l = 2.0 m, B = 1.6 m, mu_max = 0.6,
         // f_r = 0.05.
         let veh = EffortVehicle {
@@ -276,7 +353,7 @@ mod tests {
         assert_relative_eq!(mu_t, 0.358209, max_relative = 1e-5);
         let m_r = turning_moment(mu_t, veh.weight_n(), 2.0, RunningGear::Tracks);
         assert_relative_eq!(m_r, 8955.22, max_relative = 1e-6);
-        let (f_o, f_i) = side_thrusts(&veh, &ground, 1.0 / 8.0, 0.0, 0.0);
+        let (f_o, f_i) = side_thrusts(&veh, &ground, 1.0 / 8.0, 0.0, Slope::LEVEL);
         assert_relative_eq!(f_o, 6847.0, epsilon = 0.1);
         assert_relative_eq!(f_i, -4347.0, epsilon = 0.1);
     }
@@ -288,35 +365,6 @@ mod tests {
         assert_relative_eq!(lateral_resistance(0.6, 1.0 / (0.8 + 1e-9), 1.6), 0.6, max_relative = 1e-9);
         assert_eq!(lateral_resistance(0.6, f64::INFINITY, 1.6), 0.6);
         assert_eq!(lateral_resistance(0.6, 0.0, 1.6), 0.0);
-    }
-
-    #[test]
-    fn traction_limit_matches_the_steerability_closed_form() {
-        // Steerability condition f_r + mu_t l / (2B) <= mu (Wong 2008) solved for R in closed
-        // form, against the numerical bisection (power and rating out of the way).
-        let (veh, mut ground) = wong_example();
-        for mu in [0.3, 0.4, 0.5, 0.62] {
-            ground.traction_coefficient = mu;
-            let r_closed = steerability_min_radius_m(&veh, &ground).expect("can drive");
-            let k = traction_curvature_limit(&veh, &ground, 0.5);
-            assert_relative_eq!(1.0 / k, r_closed, max_relative = 1e-9);
-        }
-        ground.traction_coefficient = 0.04;
-        assert_eq!(steerability_min_radius_m(&veh, &ground), None);
-        assert_eq!(traction_curvature_limit(&veh, &ground, 0.5), 0.0);
-        ground.traction_coefficient = 2.0;
-        assert_relative_eq!(traction_curvature_limit(&veh, &ground, 0.5), 2.0 / 1.6);
-    }
-
-    #[test]
-    fn power_limit_binds_at_speed() {
-        // With ample traction but little power, a faster vehicle must turn wider.
-        let (mut veh, mut ground) = wong_example();
-        ground.traction_coefficient = 5.0;
-        veh.max_power_w = 20_000.0;
-        let slow = traction_curvature_limit(&veh, &ground, 0.5);
-        let fast = traction_curvature_limit(&veh, &ground, 1.5);
-        assert!(fast < slow, "{fast} vs {slow}");
     }
 
     #[test]
@@ -336,11 +384,48 @@ mod tests {
     }
 
     #[test]
+    fn each_side_s_rolling_resistance_opposes_its_own_motion() {
+        // Wong 2008: rolling resistance opposes the motion of the track it acts on. Pivot turn
+        // (left track back, right forward): the left track's rolling resistance pushes it
+        // forward, so its thrust is -f_r W/2 - M_r/B, the right one's +f_r W/2 + M_r/B; both
+        // sides then consume power. Reversing straight, both thrusts are -f_r W/2 and the
+        // drive still delivers f_r W |v| (it used to come out as power returned).
+        let (veh, ground) = wong_example();
+        let w = veh.weight_n();
+        let m_r = turning_moment(0.6, w, 2.0, RunningGear::Tracks);
+        let pivot = effort_step(&veh, &ground, 0.0, 0.5, -0.4, 0.4, 0.0, Slope::LEVEL);
+        assert_relative_eq!(pivot.left_thrust_n, -0.05 * w / 2.0 - m_r / 1.6, max_relative = 1e-12);
+        assert_relative_eq!(pivot.right_thrust_n, 0.05 * w / 2.0 + m_r / 1.6, max_relative = 1e-12);
+        assert_relative_eq!(pivot.mechanical_power_w, 0.8 * (0.05 * w / 2.0 + m_r / 1.6), max_relative = 1e-12);
+        let back = effort_step(&veh, &ground, -1.0, 0.0, -1.0, -1.0, 0.0, Slope::LEVEL);
+        assert_relative_eq!(back.left_thrust_n, -0.05 * w / 2.0, max_relative = 1e-12);
+        assert_relative_eq!(back.mechanical_power_w, 0.05 * w * 1.0, max_relative = 1e-12);
+    }
+
+    #[test]
+    fn normal_load_falls_with_the_cosine_of_the_grade() {
+        // On a 30 % grade N = W cos(atan 0.3) and the weight component per side is
+        // W sin(atan 0.3) / 2 (statics of a body on an incline, common practice, no source).
+        let (veh, ground) = wong_example();
+        let g = 0.3_f64.atan();
+        let (f_o, f_i) = side_thrusts(&veh, &ground, 0.0, 0.0, Slope::grade(g));
+        let w = veh.weight_n();
+        let expected = 0.05 * w * (1.0 / 1.09_f64.sqrt()) / 2.0 + w * (0.3 / 1.09_f64.sqrt()) / 2.0;
+        assert_relative_eq!(f_o, expected, max_relative = 1e-12);
+        assert_relative_eq!(f_i, expected, max_relative = 1e-12);
+        assert_relative_eq!(
+            side_thrust_limit_on_n(&veh, &ground, Slope::grade(g)),
+            0.7 * w / 1.09_f64.sqrt() / 2.0,
+            max_relative = 1e-12
+        );
+    }
+
+    #[test]
     fn outer_side_follows_the_turn_direction() {
         let (veh, ground) = wong_example();
-        let left_turn = effort_step(&veh, &ground, 1.0, 0.2, 0.5, 1.5, 0.0, 0.0);
+        let left_turn = effort_step(&veh, &ground, 1.0, 0.2, 0.5, 1.5, 0.0, Slope::LEVEL);
         assert!(left_turn.right_thrust_n > left_turn.left_thrust_n);
-        let right_turn = effort_step(&veh, &ground, 1.0, -0.2, 1.5, 0.5, 0.0, 0.0);
+        let right_turn = effort_step(&veh, &ground, 1.0, -0.2, 1.5, 0.5, 0.0, Slope::LEVEL);
         assert!(right_turn.left_thrust_n > right_turn.right_thrust_n);
         assert_relative_eq!(left_turn.outer_thrust_n, right_turn.outer_thrust_n);
     }

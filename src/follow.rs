@@ -19,7 +19,21 @@ pub struct FollowerLimits {
     pub max_side_speed_mps: f64,
     pub max_side_accel_mps2: f64,
     pub track_width_m: f64,
+    /// Optional slow-down in turns: the largest lateral acceleration of the pursuit arc, m/s^2;
+    /// infinite when the follower does not slow for turns (the default).
+    pub max_lateral_accel_mps2: f64,
 }
+
+impl FollowerLimits {
+    /// True when the follower slows down in turns.
+    pub fn slows_in_turns(&self) -> bool {
+        self.max_lateral_accel_mps2.is_finite()
+    }
+}
+
+/// How far ahead, in lookaheads, a lost vehicle's progress point may move to the plan point
+/// nearest to it (see [`Follower::update_progress`]).
+pub const LOST_SEARCH_LOOKAHEADS: f64 = 3.0;
 
 /// Speed the controller creeps at on the final approach so it always reaches the end point.
 const CREEP_SPEED_MPS: f64 = 0.05;
@@ -82,7 +96,44 @@ pub struct Follower<'a> {
     leg: usize,
 }
 
+/// The state a follower carries from one control step to the next, to resume it later (with the
+/// same plan and limits, possibly other leg speeds).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FollowerState {
+    progress_m: f64,
+    speed_mps: f64,
+    left_mps: f64,
+    right_mps: f64,
+    cursor: Cursor,
+    leg: usize,
+}
+
+impl FollowerState {
+    /// Arc length of the progress point.
+    pub fn progress_m(&self) -> f64 {
+        self.progress_m
+    }
+}
+
 impl<'a> Follower<'a> {
+    /// The follower's state now.
+    pub fn state(&self) -> FollowerState {
+        FollowerState {
+            progress_m: self.progress_m,
+            speed_mps: self.speed_mps,
+            left_mps: self.left_mps,
+            right_mps: self.right_mps,
+            cursor: self.cursor,
+            leg: self.leg,
+        }
+    }
+
+    /// A follower resumed from `state`, driving legs at `leg_speed_mps`.
+    pub fn resume(plan: &'a PlanPath, leg_speed_mps: &'a [f64], limits: FollowerLimits, state: FollowerState) -> Self {
+        let FollowerState { progress_m, speed_mps, left_mps, right_mps, cursor, leg } = state;
+        Follower { plan, leg_speed_mps, limits, progress_m, speed_mps, left_mps, right_mps, cursor, leg }
+    }
+
     pub fn new(plan: &'a PlanPath, leg_speed_mps: &'a [f64], limits: FollowerLimits) -> Self {
         Follower {
             plan,
@@ -118,19 +169,28 @@ impl<'a> Follower<'a> {
 
     /// Moves the progress point forward to the nearest plan point within one lookahead ahead;
     /// it never moves back, so loops and self-crossings are followed in order. While the
-    /// vehicle is farther than a lookahead from the plan it is lost and the progress point
-    /// holds (otherwise the window would drag it along the plan), so the goal stays where the
-    /// vehicle left the plan and the controller steers back to it.
+    /// vehicle is farther than a lookahead from the plan it is lost: the progress point then
+    /// moves only to a plan point within [`LOST_SEARCH_LOOKAHEADS`] lookaheads ahead that is
+    /// nearer than where it stands and is a true nearest point (not the end of the searched
+    /// stretch, which would drag it along the plan). So a vehicle that overshoots a corner it
+    /// cannot turn rejoins the next side where it is nearest, instead of circling back to a goal
+    /// inside its turning circle; one far off a straight steers back to the point abeam.
     #[inline]
     pub fn update_progress(&mut self, pose: Pose) {
-        let near = self.plan.nearest_within_at(
-            [pose.x_m, pose.y_m],
-            self.progress_m,
-            self.progress_m + self.limits.lookahead_m,
-            &mut self.cursor,
-        );
-        if near.s_m > self.progress_m && near.distance_m <= self.limits.lookahead_m {
+        let (p, l) = (self.progress_m, self.limits.lookahead_m);
+        let xy = [pose.x_m, pose.y_m];
+        let near = self.plan.nearest_within_at(xy, p, p + l, &mut self.cursor);
+        if near.s_m > p && near.distance_m <= l {
             self.progress_m = near.s_m;
+        } else if near.distance_m > l {
+            let to_m = (p + LOST_SEARCH_LOOKAHEADS * l).min(self.plan.length_m());
+            let mut cursor = self.cursor;
+            let far = self.plan.nearest_within_at(xy, p, to_m, &mut cursor);
+            let interior = far.s_m < to_m - 1e-9 || to_m >= self.plan.length_m();
+            let here = self.plan.nearest_within_at(xy, p, p, &mut cursor);
+            if far.s_m > p && interior && far.distance_m < here.distance_m - 1e-9 {
+                self.progress_m = far.s_m;
+            }
         }
         self.leg = self.plan.leg_at_cursor(self.progress_m, &mut self.cursor);
     }
@@ -154,6 +214,18 @@ impl<'a> Follower<'a> {
     /// speed ramp, yaw-rate clamp, inverse model, saturation and per-side acceleration limit.
     #[inline]
     pub fn command(&mut self, pose: Pose, controller: &Model) -> Command {
+        self.command_capped(pose, controller, |_| f64::INFINITY)
+    }
+
+    /// [`Follower::command`] with a speed cap that depends on the pursuit curvature (the
+    /// simulation passes the traction part of the slow-down in turns through it).
+    ///
+    /// Slow-down in turns (optional, `max_lateral_accel_mps2`; common practice in path
+    /// followers, no source): the target speed is limited to sqrt(a_max / |kappa|) for the
+    /// pursuit arc's curvature kappa, which looks one lookahead ahead, and to `cap(kappa)`; the
+    /// speed then ramps to it at the side-acceleration limit like any other target.
+    #[inline]
+    pub fn command_capped(&mut self, pose: Pose, controller: &Model, cap: impl Fn(f64) -> f64) -> Command {
         let lim = self.limits;
         let goal = self.plan.pursuit_goal_at(
             [pose.x_m, pose.y_m],
@@ -165,7 +237,12 @@ impl<'a> Follower<'a> {
         let (gx, gy) = pose.to_body(goal[0], goal[1]);
         let kappa = pursuit_curvature(gx, gy);
         let dv = lim.max_side_accel_mps2 * lim.dt_s;
-        self.speed_mps += (self.target_speed_mps() - self.speed_mps).clamp(-dv, dv);
+        let mut target = self.target_speed_mps();
+        if lim.slows_in_turns() && kappa.abs() > 1e-9 {
+            let lateral = (lim.max_lateral_accel_mps2 / kappa.abs()).sqrt();
+            target = target.min(lateral.min(cap(kappa)).max(CREEP_SPEED_MPS));
+        }
+        self.speed_mps += (target - self.speed_mps).clamp(-dv, dv);
         let omega = (kappa * self.speed_mps).clamp(-lim.max_yaw_rate_radps, lim.max_yaw_rate_radps);
         let half = 0.5 * omega * lim.track_width_m;
         let (l, r) =
@@ -237,6 +314,7 @@ mod tests {
             max_side_speed_mps: 2.0,
             max_side_accel_mps2: 1.0,
             track_width_m: 0.9,
+            max_lateral_accel_mps2: f64::INFINITY,
         }
     }
 

@@ -1,7 +1,8 @@
 //! skidroute: screen planned routes for skid-steered ground vehicles on mixed terrain.
 //!
 //! Data flow (see README.md): `route` (read + project + plan geometry) -> `vehicle` (profile)
-//! -> `kinematics` (model families, SE(2)) -> `follow` (controller) -> `rollout` (simulation)
+//! -> `kinematics` (model families, SE(2)) -> `follow` (controller) -> `effort` and `turn_limit`
+//! (thrust, power, how tight it can turn) -> `rollout` (simulation)
 //! -> `assess` (per-leg verdicts) -> `report` (table, JSON, CSV, GeoJSON, plots); beside them
 //! `drift` (Monte Carlo of the position error when localization is lost); `recording` reads ROS 2
 //! recordings (MCAP) as drive logs for `fit`.
@@ -19,6 +20,7 @@ pub mod fit;
 pub mod follow;
 pub mod kinematics;
 pub mod limits;
+pub mod margin;
 pub mod progress;
 pub mod recording;
 pub mod relax;
@@ -26,6 +28,7 @@ pub mod report;
 pub mod rollout;
 pub mod route;
 pub mod site;
+pub mod turn_limit;
 pub mod vehicle;
 
 pub use error::Error;

@@ -31,7 +31,8 @@ pub const DEFAULT_MAX_TOTAL_POINTS: usize = 20_000_000;
 pub const DEFAULT_MAX_ROLLOUT_STEPS: u64 = 5_000_000;
 /// Most control steps a whole run may simulate, counted from step bounds: every route's step
 /// bound, times the Monte Carlo samples of a drift estimate, plus any further rollouts a command
-/// makes (relax checks the route before and after). Step bounds are about three times the steps
+/// makes (the margin search of every check, `crate::margin::work_bound`; relax checks the route
+/// before and after). Step bounds are about three times the steps
 /// a run takes (2000 drift samples of the supply-run example: a bound of 53.6 million, 17.1
 /// million taken, in 9.7 s on two busy cores), so the default admits a few minutes of work.
 pub const DEFAULT_MAX_WORK_STEPS: u64 = 1_000_000_000;

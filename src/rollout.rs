@@ -1,16 +1,20 @@
 //! Closed-loop simulation of a route: the follower commands side speeds from the pose, the
-//! terrain model of the leg under the vehicle's progress point turns them into the actual body
-//! twist, and the exact SE(2) step moves the vehicle (docs/method.md, Integration and Following). The trace keeps what
-//! the assessment and the effort estimate need: pose, leg, progress, deviation, side speeds and
-//! the actual twist at every control step.
+//! terrain model of the leg under the vehicle's progress point turns them into a body twist,
+//! traction bounds that motion (docs/method.md, Following: a turn tighter than the tracks can
+//! push is widened, a climb the ground cannot hold stalls the vehicle, a descent it cannot hold
+//! makes it slide), and the exact SE(2) step moves the vehicle (docs/method.md, Integration).
+//! The trace keeps what the assessment and the effort estimate need: pose, leg, progress,
+//! deviation, side speeds, the actual twist, the effort and whether traction bound the step, at
+//! every control step.
 //!
 //! Units: seconds, metres, radians, local frame. The step loop allocates nothing (the trace is
 //! reserved up front from the time bound).
 
-use crate::effort::{effort_step, EffortStep, EffortVehicle, Ground};
-use crate::follow::{Follower, FollowerLimits};
+use crate::effort::{effort_step, EffortStep, EffortVehicle, Ground, Slope};
+use crate::follow::{Follower, FollowerLimits, FollowerState};
 use crate::kinematics::{Model, MotionModel, Pose, Twist};
-use crate::route::{PlanPath, Route};
+use crate::route::{PlanPath, Route, TerrainShare};
+use crate::turn_limit::{limit_step, turn_speed_limit_mps, StepLimit};
 use crate::vehicle::Profile;
 
 /// How one leg is driven: the terrain's actual model, the model the controller inverts, and
@@ -76,6 +80,7 @@ impl RouteDrive {
             max_side_speed_mps: v.max_side_speed_mps,
             max_side_accel_mps2: v.max_side_accel_mps2,
             track_width_m: v.track_width_m,
+            max_lateral_accel_mps2: profile.follower.max_lateral_accel_mps2.unwrap_or(f64::INFINITY),
         };
         RouteDrive {
             plan,
@@ -90,16 +95,65 @@ impl RouteDrive {
     /// Time bound for a rollout: three times the planned driving time at the reachable leg
     /// speeds, plus a minute for ramps. A vehicle that stalls or circles is stopped there.
     pub fn time_limit_s(&self) -> f64 {
+        self.time_limit_with(&self.speeds_mps)
+    }
+
+    /// [`RouteDrive::time_limit_s`] with leg speeds `speeds_mps`.
+    pub fn time_limit_with(&self, speeds_mps: &[f64]) -> f64 {
         let legs = (0..self.plan.leg_count()).map(|i| {
             let (a, b) = self.plan.leg_bounds_m(i);
-            (b - a, self.legs[i].speed_mps)
+            (b - a, speeds_mps.get(i).copied().unwrap_or(self.legs[i].speed_mps))
         });
         time_bound_s(legs, self.limits.max_side_speed_mps)
+    }
+
+    /// The drives of the legs under the rear and front of the contact patch; the rear one twice
+    /// when both are on the same terrain, so nothing is blended.
+    #[inline]
+    pub fn terrain_pair(&self, under: TerrainShare) -> (&LegDrive, &LegDrive) {
+        let rear = &self.legs[under.rear];
+        let front = &self.legs[under.front];
+        if under.front_share <= 0.0 || rear.terrain == front.terrain {
+            (rear, rear)
+        } else {
+            (rear, front)
+        }
+    }
+
+    /// The ground coefficients under a contact patch centred at arc length `s_m` (blended across
+    /// a terrain boundary, as the simulation blends them).
+    pub fn ground_at(&self, s_m: f64) -> Ground {
+        let under = self.plan.terrain_share(s_m, self.vehicle.contact_length_m);
+        let (rear, front) = self.terrain_pair(under);
+        rear.ground.blend(&front.ground, under.front_share)
     }
 
     /// Most control steps the rollout can take: the time bound times the control rate.
     pub fn step_bound(&self) -> f64 {
         (self.time_limit_s() / self.limits.dt_s).ceil() + 1.0
+    }
+}
+
+/// The twist side speeds `(left_mps, right_mps)` produce on the ground under the contact patch
+/// (docs/method.md, Following: terrain changes): where the patch straddles a boundary, the two
+/// terrains' twists blended linearly with the share of the patch on the front one, so a change
+/// of terrain takes hold over the contact length (the wheelbase for wheels) instead of in one
+/// control step. One rule for the check and the drift simulation.
+#[inline]
+pub fn ground_twist(rear: &Model, front: &Model, front_share: f64, left_mps: f64, right_mps: f64) -> Twist {
+    let a = rear.twist(left_mps, right_mps);
+    if front_share <= 0.0 || std::ptr::eq(rear, front) {
+        return a;
+    }
+    let b = front.twist(left_mps, right_mps);
+    if front_share >= 1.0 {
+        return b;
+    }
+    let w = front_share;
+    Twist {
+        vx_mps: a.vx_mps + w * (b.vx_mps - a.vx_mps),
+        vy_mps: a.vy_mps + w * (b.vy_mps - a.vy_mps),
+        omega_radps: a.omega_radps + w * (b.omega_radps - a.omega_radps),
     }
 }
 
@@ -113,12 +167,32 @@ fn time_bound_s(legs: impl Iterator<Item = (f64, f64)>, max_side_speed_mps: f64)
 /// The step bound of a route's rollout under `profile` ([`RouteDrive::step_bound`]), from the
 /// route alone, so a route can be refused before anything is simulated.
 pub fn step_bound(route: &Route, profile: &Profile) -> f64 {
-    let legs = route.legs.iter().map(|leg| {
-        let length_m: f64 = leg.points.windows(2).map(|w| crate::route::plan::dist(w[0], w[1])).sum();
-        (length_m, leg.speed_mps.unwrap_or(profile.vehicle.cruise_speed_mps))
-    });
+    let legs = leg_lengths_and_speeds(route, profile);
     let limit_s = time_bound_s(legs, profile.vehicle.max_side_speed_mps);
     (limit_s * profile.follower.control_rate_hz).ceil() + 1.0
+}
+
+/// For every leg in turn, the step bound of the route's rollout with that leg driven at
+/// `speed_mps` and the others at their planned speeds (the simulations of the margin search,
+/// `crate::margin`, are bounded by these), from the route alone.
+pub fn step_bounds_with_each_leg_at(route: &Route, profile: &Profile, speed_mps: f64) -> Vec<f64> {
+    let legs: Vec<(f64, f64)> = leg_lengths_and_speeds(route, profile).collect();
+    let max_side_mps = profile.vehicle.max_side_speed_mps;
+    (0..legs.len())
+        .map(|i| {
+            let with =
+                legs.iter().enumerate().map(|(j, &(length_m, v))| (length_m, if j == i { speed_mps } else { v }));
+            (time_bound_s(with, max_side_mps) * profile.follower.control_rate_hz).ceil() + 1.0
+        })
+        .collect()
+}
+
+/// (length, planned speed) of every leg of `route`, the cruise speed where none is given.
+fn leg_lengths_and_speeds<'a>(route: &'a Route, profile: &'a Profile) -> impl Iterator<Item = (f64, f64)> + 'a {
+    route.legs.iter().map(|leg| {
+        let length_m: f64 = leg.points.windows(2).map(|w| crate::route::plan::dist(w[0], w[1])).sum();
+        (length_m, leg.speed_mps.unwrap_or(profile.vehicle.cruise_speed_mps))
+    })
 }
 
 /// Steps reserved for the trace up front; longer rollouts grow it (a few reallocations in all,
@@ -145,6 +219,16 @@ pub struct Step {
     pub accel_mps2: f64,
     /// Thrust, power and grade over the step that starts here.
     pub effort: EffortStep,
+    /// How traction, the thrust rating or the power rating bound the motion of this step.
+    pub limit: StepLimit,
+}
+
+impl Step {
+    /// True when traction, the thrust rating or the power rating changed the motion of this step
+    /// (the trace's `traction_limited` column).
+    pub fn traction_limited(&self) -> bool {
+        self.limit.is_limited()
+    }
 }
 
 /// How a rollout ended.
@@ -161,6 +245,12 @@ pub enum Outcome {
         max_steps: u64,
         progress_m: f64,
     },
+    /// Uphill, even holding still needed more thrust than traction (or the rating) gives: the
+    /// vehicle stalled here and the simulation ends (docs/method.md, Following).
+    Stalled {
+        progress_m: f64,
+        grade_rad: f64,
+    },
 }
 
 /// The simulated drive of one route.
@@ -170,32 +260,58 @@ pub struct Trace {
     pub outcome: Outcome,
 }
 
-/// Simulates the route. The vehicle starts at rest on the first plan point, heading along the
-/// first segment; each step the follower commands side speeds from the pose, the leg's terrain
-/// model gives the twist, and the pose advances by the exact SE(2) step.
-/// At most [`crate::limits::DEFAULT_MAX_ROLLOUT_STEPS`] steps are simulated.
-pub fn roll_out(drive: &RouteDrive) -> Trace {
-    roll_out_within(drive, crate::limits::DEFAULT_MAX_ROLLOUT_STEPS)
+/// The state of a simulation at the top of a control step, from which it can be resumed (with
+/// other leg speeds: the margins resume just before a leg; docs/method.md, Verdicts).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Resume {
+    follower: FollowerState,
+    pose: Pose,
+    k: u64,
+    prev_vx_mps: f64,
 }
 
-/// [`roll_out`] with a budget of `max_steps` control steps: a rollout that needs more ends with
-/// [`Outcome::StepBudget`] (and the assessment fails the unfinished legs). The check refuses such
-/// routes up front ([`step_bound`]); the budget also guards direct callers.
-pub fn roll_out_within(drive: &RouteDrive, max_steps: u64) -> Trace {
+impl Resume {
+    /// At rest on the first plan point, heading along the first segment.
+    pub fn start(drive: &RouteDrive) -> Resume {
+        let plan = &drive.plan;
+        let (start, dir) = (plan.point_at(0.0), plan.direction_at(0.0));
+        let follower = Follower::new(plan, &drive.speeds_mps, drive.limits).state();
+        Resume { follower, pose: Pose::new(start[0], start[1], dir[1].atan2(dir[0])), k: 0, prev_vx_mps: 0.0 }
+    }
+
+    /// Control steps simulated before this point.
+    pub fn steps_before(&self) -> u64 {
+        self.k
+    }
+}
+
+/// What the step observer tells the simulation.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Flow {
+    Continue,
+    Stop,
+}
+
+/// The simulation loop (see [`roll_out`]) from `start` with leg speeds `speeds_mps`, for at most
+/// `max_steps` steps in all. `at_top` sees the state at the top of every step (before the
+/// progress update); `on_step` sees every finished step and may stop the simulation, which then
+/// returns `None`. Nothing is allocated here.
+fn simulate(
+    drive: &RouteDrive,
+    speeds_mps: &[f64],
+    start: Resume,
+    max_steps: u64,
+    mut at_top: impl FnMut(&Resume),
+    mut on_step: impl FnMut(&Step) -> Flow,
+) -> Option<Outcome> {
     let plan = &drive.plan;
     let dt = drive.limits.dt_s;
-    let limit_s = drive.time_limit_s();
-    // The planned time plus 20 s, as steps; `as` saturates a huge or NaN estimate.
-    let expected_steps = ((limit_s / 3.0) / dt) as usize;
-    let mut steps = Vec::with_capacity(expected_steps.min(MAX_RESERVED_STEPS) + 64);
-    let start = plan.point_at(0.0);
-    let dir = plan.direction_at(0.0);
-    let mut pose = Pose::new(start[0], start[1], dir[1].atan2(dir[0]));
-    let mut follower = Follower::new(plan, &drive.speeds_mps, drive.limits);
-    let mut t = 0.0;
-    let mut k: u64 = 0;
-    let mut prev_vx = 0.0;
+    let limit_s = drive.time_limit_with(speeds_mps);
+    let mut follower = Follower::resume(plan, speeds_mps, drive.limits, start.follower);
+    let (mut pose, mut k, mut prev_vx) = (start.pose, start.k, start.prev_vx_mps);
+    let mut t = k as f64 * dt;
     let outcome = loop {
+        at_top(&Resume { follower: follower.state(), pose, k, prev_vx_mps: prev_vx });
         follower.update_progress(pose);
         let leg = follower.leg();
         let near = follower.deviation(pose);
@@ -208,43 +324,146 @@ pub fn roll_out_within(drive: &RouteDrive, max_steps: u64) -> Trace {
             offset_m: near.signed_offset_m,
             ..Step::default()
         };
-        if k > 0 && follower.finished(pose) {
-            steps.push(step);
-            break Outcome::Reached;
-        }
-        if t > limit_s {
-            steps.push(step);
-            break Outcome::TimedOut { limit_s, progress_m: follower.progress_m() };
-        }
-        if k >= max_steps {
-            steps.push(step);
-            break Outcome::StepBudget { max_steps, progress_m: follower.progress_m() };
+        let end = if k > 0 && follower.finished(pose) {
+            Some(Outcome::Reached)
+        } else if t > limit_s {
+            Some(Outcome::TimedOut { limit_s, progress_m: follower.progress_m() })
+        } else if k >= max_steps {
+            Some(Outcome::StepBudget { max_steps, progress_m: follower.progress_m() })
+        } else {
+            None
+        };
+        if let Some(outcome) = end {
+            if on_step(&step) == Flow::Stop {
+                return None;
+            }
+            break outcome;
         }
         let legd = &drive.legs[leg];
-        let cmd = follower.command(pose, &legd.controller);
-        let twist = legd.actual.twist(cmd.left_mps, cmd.right_mps);
-        step.left_mps = cmd.left_mps;
-        step.right_mps = cmd.right_mps;
+        let under = plan.terrain_share(step.progress_m, drive.vehicle.contact_length_m);
+        let (rear, front) = drive.terrain_pair(under);
+        let ground = rear.ground.blend(&front.ground, under.front_share);
+        let grade = if plan.has_altitude() { plan.grade_at(step.progress_m) } else { 0.0 };
+        let slope = Slope::grade(grade);
+        let cmd = if drive.limits.slows_in_turns() {
+            follower.command_capped(pose, &legd.controller, |k| turn_speed_limit_mps(&drive.vehicle, &ground, k, slope))
+        } else {
+            follower.command(pose, &legd.controller)
+        };
+        let mut twist = ground_twist(&rear.actual, &front.actual, under.front_share, cmd.left_mps, cmd.right_mps);
+        let (mut left, mut right) = (cmd.left_mps, cmd.right_mps);
+        step.limit = limit_step(&drive.vehicle, &ground, slope, &mut twist, &mut left, &mut right);
+        if step.limit == StepLimit::Stall {
+            step.effort.grade_rad = grade;
+            if on_step(&step) == Flow::Stop {
+                return None;
+            }
+            break Outcome::Stalled { progress_m: follower.progress_m(), grade_rad: grade };
+        }
+        step.left_mps = left;
+        step.right_mps = right;
         step.twist = twist;
         step.accel_mps2 = (twist.vx_mps - prev_vx) / dt;
         prev_vx = twist.vx_mps;
-        let grade = if plan.has_altitude() { plan.grade_at(step.progress_m) } else { 0.0 };
-        step.effort = effort_step(
-            &drive.vehicle,
-            &legd.ground,
-            twist.vx_mps,
-            twist.omega_radps,
-            cmd.left_mps,
-            cmd.right_mps,
-            step.accel_mps2,
-            grade,
-        );
-        steps.push(step);
+        step.effort =
+            effort_step(&drive.vehicle, &ground, twist.vx_mps, twist.omega_radps, left, right, step.accel_mps2, slope);
+        if on_step(&step) == Flow::Stop {
+            return None;
+        }
         pose = pose.step(twist, dt);
         k += 1;
         t = k as f64 * dt;
     };
-    Trace { steps, outcome }
+    Some(outcome)
+}
+
+/// Simulates the route. The vehicle starts at rest on the first plan point, heading along the
+/// first segment; each step the follower commands side speeds from the pose, the terrain model
+/// under the vehicle gives the twist, traction bounds it, and the pose advances by the exact
+/// SE(2) step. At most [`crate::limits::DEFAULT_MAX_ROLLOUT_STEPS`] steps are simulated.
+pub fn roll_out(drive: &RouteDrive) -> Trace {
+    roll_out_within(drive, crate::limits::DEFAULT_MAX_ROLLOUT_STEPS)
+}
+
+/// [`roll_out`] with a budget of `max_steps` control steps: a rollout that needs more ends with
+/// [`Outcome::StepBudget`] (and the assessment fails the unfinished legs). The check refuses such
+/// routes up front ([`step_bound`]); the budget also guards direct callers.
+pub fn roll_out_within(drive: &RouteDrive, max_steps: u64) -> Trace {
+    roll_out_with_resumes(drive, max_steps).0
+}
+
+/// Distance before a leg's start from which that leg's speed can change the simulation (the
+/// follower slows ahead of a slower leg within v^2 / 2a of its start), plus a metre.
+pub fn leg_influence_m(drive: &RouteDrive) -> f64 {
+    let v = drive.limits.max_side_speed_mps;
+    v * v / (2.0 * drive.limits.max_side_accel_mps2.max(1e-9)) + 1.0
+}
+
+/// [`roll_out_within`], also returning for every leg the state from which the simulation can be
+/// resumed with another speed for that leg (the first step whose progress point is within
+/// [`leg_influence_m`] of the leg's start; the start for the first leg). Legs the simulation
+/// never came near get `None`.
+pub fn roll_out_with_resumes(drive: &RouteDrive, max_steps: u64) -> (Trace, Vec<Option<Resume>>) {
+    let limit_s = drive.time_limit_s();
+    // The planned time plus 20 s, as steps; `as` saturates a huge or NaN estimate.
+    let expected_steps = ((limit_s / 3.0) / drive.limits.dt_s) as usize;
+    let mut steps = Vec::with_capacity(expected_steps.min(MAX_RESERVED_STEPS) + 64);
+    let n_legs = drive.legs.len();
+    let mut resumes: Vec<Option<Resume>> = vec![None; n_legs];
+    let influence_m = leg_influence_m(drive);
+    let mut next_leg = 0;
+    let outcome = simulate(
+        drive,
+        &drive.speeds_mps,
+        Resume::start(drive),
+        max_steps,
+        |r| {
+            let progress_m = r.follower.progress_m();
+            while next_leg < n_legs && progress_m >= drive.plan.leg_bounds_m(next_leg).0 - influence_m {
+                resumes[next_leg] = Some(*r);
+                next_leg += 1;
+            }
+        },
+        |s| {
+            steps.push(*s);
+            Flow::Continue
+        },
+    );
+    let progress_m = steps.last().map_or(0.0, |s: &Step| s.progress_m);
+    let outcome = outcome.unwrap_or(Outcome::StepBudget { max_steps, progress_m });
+    (Trace { steps, outcome }, resumes)
+}
+
+/// Whether leg `leg` passes the simulation rules of the verdict when driven at the leg speeds
+/// `speeds_mps`, resumed from `from` (docs/method.md, Verdicts: margins): the vehicle gets past
+/// the leg's end without its deviation ever leaving the leg's corridor, without stalling, and
+/// within the time bound and `max_steps`. Stops at the first step that decides it. Returns the
+/// answer and the steps simulated.
+pub fn leg_passes(drive: &RouteDrive, speeds_mps: &[f64], from: &Resume, leg: usize, max_steps: u64) -> (bool, u64) {
+    let corridor_m = drive.legs[leg].corridor_m;
+    let mut passed = false;
+    let mut simulated = 0u64;
+    let outcome = simulate(
+        drive,
+        speeds_mps,
+        *from,
+        max_steps,
+        |_| {},
+        |s| {
+            simulated += 1;
+            if s.leg > leg {
+                passed = true;
+                return Flow::Stop;
+            }
+            if s.leg == leg && (s.deviation_m > corridor_m || s.limit == StepLimit::Stall) {
+                return Flow::Stop;
+            }
+            Flow::Continue
+        },
+    );
+    // Reaching the end of the route completes the last leg.
+    let passed = passed || (outcome == Some(Outcome::Reached));
+    (passed, simulated)
 }
 
 #[cfg(test)]
@@ -280,6 +499,7 @@ mod tests {
             max_side_speed_mps: 3.0,
             max_side_accel_mps2: 2.0,
             track_width_m: 0.9,
+            max_lateral_accel_mps2: f64::INFINITY,
         }
     }
 
@@ -379,6 +599,136 @@ mod tests {
         };
         let d = RouteDrive::new(&route, &profile);
         assert_relative_eq!(step_bound(&route, &profile), d.step_bound(), max_relative = 1e-9);
+    }
+
+    /// A plan of `points` on `ground`, ideal kinematics, no yaw-rate clamp to speak of and no
+    /// power limit, so only traction can bound the turn.
+    fn traction_drive(
+        points: Vec<[f64; 2]>,
+        altitude_m: Option<Vec<f64>>,
+        ground: Ground,
+        speed_mps: f64,
+    ) -> RouteDrive {
+        let mut d = drive_on(points, Model::ideal(0.9), speed_mps, limits(1.0));
+        d.plan = PlanPath::from_parts(d.plan.points().to_vec(), &[0], altitude_m);
+        d.legs[0].ground = ground;
+        d.vehicle.max_power_w = 1e12;
+        d.vehicle.max_side_thrust_n = 1e9;
+        d
+    }
+
+    #[test]
+    fn a_corner_tighter_than_traction_allows_is_overshot_by_at_least_the_fillet() {
+        // Deep snow (f_r 0.15, mu 0.25, mu_max 0.3) on the demo vehicle: traction radius 5.45 m on
+        // the level (Wong 2008; derived in turn_limit's tests). A right-angle corner between long
+        // straights cannot be driven tighter. Circle geometry: the curvature-bounded path tangent
+        // to both sides that stays closest to them is the fillet of radius R, whose midpoint lies
+        // R (1 - cos(theta/2)) from each side; any path that turns no tighter than 1/R leaves the
+        // plan by at least that much.
+        let ground = Ground { rolling_resistance: 0.15, traction_coefficient: 0.25, lateral_resistance_max: 0.3 };
+        let pts = vec![[0.0, 0.0], [30.0, 0.0], [30.0, 30.0]];
+        let d = traction_drive(pts, None, ground, 0.8);
+        let k_lim = crate::turn_limit::traction_curvature_limit(&d.vehicle, &ground, 0.8, Slope::LEVEL);
+        assert_relative_eq!(1.0 / k_lim, 5.45, epsilon = 0.01);
+        let tr = roll_out(&d);
+        assert_eq!(tr.outcome, Outcome::Reached);
+        let mut limited = 0;
+        for s in &tr.steps {
+            if s.twist.vx_mps > 1e-6 {
+                assert!((s.twist.omega_radps / s.twist.vx_mps).abs() <= k_lim * (1.0 + 1e-9), "{s:?}");
+            }
+            limited += usize::from(s.traction_limited());
+        }
+        assert!(limited > 10, "the corner must be traction-limited ({limited} steps)");
+        let fillet_gap_m = (1.0 / k_lim) * (1.0 - std::f64::consts::FRAC_PI_4.cos());
+        let max_dev = tr.steps.iter().map(|s| s.deviation_m).fold(0.0, f64::max);
+        assert!(max_dev >= fillet_gap_m, "{max_dev} < {fillet_gap_m}");
+        // The traction-free vehicle would have cut the corner far closer.
+        let mut free = d.clone();
+        free.legs[0].ground.traction_coefficient = 10.0;
+        let free_dev = roll_out(&free).steps.iter().map(|s| s.deviation_m).fold(0.0, f64::max);
+        assert!(free_dev < fillet_gap_m, "{free_dev}");
+    }
+
+    #[test]
+    fn a_climb_the_ground_cannot_hold_stalls_the_vehicle() {
+        // 30 % climb on deep snow: f_r + tan g = 0.45 > mu = 0.25 (Wong 2008, grade resistance).
+        let ground = Ground { rolling_resistance: 0.15, traction_coefficient: 0.25, lateral_resistance_max: 0.3 };
+        let pts: Vec<[f64; 2]> = (0..=40).map(|i| [i as f64, 0.0]).collect();
+        let alt: Vec<f64> = (0..=40).map(|i| if i < 20 { 0.0 } else { 0.3 * (i - 20) as f64 }).collect();
+        let d = traction_drive(pts, Some(alt), ground, 0.8);
+        let tr = roll_out(&d);
+        match tr.outcome {
+            Outcome::Stalled { progress_m, grade_rad } => {
+                assert!(progress_m > 18.0 && progress_m < 21.0, "{progress_m}");
+                assert!(grade_rad > 0.1, "{grade_rad}");
+            }
+            other => panic!("{other:?}"),
+        }
+        assert_eq!(tr.steps.last().map(|s| s.limit), Some(StepLimit::Stall));
+    }
+
+    #[test]
+    fn a_descent_the_ground_cannot_hold_slides_straight_on() {
+        // 60 % descent on deep snow: tan g - f_r = 0.45 > mu = 0.25; the vehicle loses its
+        // steering there and runs straight on, so a bend on the slope is not followed.
+        let ground = Ground { rolling_resistance: 0.15, traction_coefficient: 0.25, lateral_resistance_max: 0.3 };
+        let pts: Vec<[f64; 2]> =
+            (0..=40).map(|i| [i as f64, if i > 25 { 0.3 * (i - 25) as f64 } else { 0.0 }]).collect();
+        let alt: Vec<f64> = (0..=40).map(|i| if i < 20 { 0.0 } else { -0.6 * (i - 20) as f64 }).collect();
+        let d = traction_drive(pts, Some(alt), ground, 0.8);
+        let tr = roll_out(&d);
+        let sliding: Vec<&Step> = tr.steps.iter().filter(|s| s.limit == StepLimit::Slide).collect();
+        assert!(sliding.len() > 10);
+        assert!(sliding.iter().all(|s| s.twist.omega_radps == 0.0));
+    }
+
+    #[test]
+    fn a_terrain_change_takes_hold_over_the_contact_length() {
+        // Gravel (alpha 0.95) then slush (alpha 0.75) at 1.2 m/s, ideal controller: the forward
+        // speed falls from 0.95 x 1.2 to 0.75 x 1.2 m/s. Switched in one 0.05 s step that is
+        // -4.8 m/s^2; spread over the 1.1 m contact length driven at about 1 m/s it is about
+        // 0.24 x 1.0 / 1.1 = 0.22 m/s^2 (kinematics, common practice, no source).
+        let es = |alpha: f64| {
+            Model::ExtendedSymmetric(ExtendedSymmetric { track_width_m: 0.9, alpha, track_expansion: 1.0 })
+        };
+        let mut lim = limits(1.5);
+        lim.dt_s = 0.05;
+        let mut d = drive_on(vec![[0.0, 0.0], [30.0, 0.0], [60.0, 0.0]], es(0.95), 1.2, lim);
+        d.plan = PlanPath::from_parts(d.plan.points().to_vec(), &[0, 1], None);
+        let mut slush = d.legs[0].clone();
+        slush.terrain = "slush".into();
+        slush.actual = es(0.75);
+        d.legs.push(slush);
+        d.speeds_mps.push(1.2);
+        let tr = roll_out(&d);
+        let near: Vec<&Step> = tr.steps.iter().filter(|s| (s.progress_m - 30.0).abs() < 3.0).collect();
+        let worst = near.iter().map(|s| s.accel_mps2).fold(0.0, f64::min);
+        assert!(worst < -0.1 && worst > -0.35, "{worst}");
+        let mid = tr.steps.iter().find(|s| s.progress_m >= 30.0).expect("reaches the boundary");
+        assert!(mid.twist.vx_mps < 0.95 * 1.2 - 0.05 && mid.twist.vx_mps > 0.75 * 1.2 + 0.05, "{mid:?}");
+    }
+
+    #[test]
+    fn the_optional_slow_down_holds_lateral_acceleration_on_a_circle() {
+        // Circular motion (common practice, no source): lateral acceleration v^2 / R, so a cap
+        // a_max gives v = sqrt(a_max R). On a 4 m circle with a_max = 0.25 m/s^2 and ideal
+        // kinematics the follower settles on the circle (r^2 = R^2 + (chi - 1) L^2 with chi = 1)
+        // at sqrt(0.25 x 4) = 1.0 m/s although the leg asks for 1.5 m/s. Off by default.
+        let mut lim = limits(1.5);
+        lim.max_lateral_accel_mps2 = 0.25;
+        let d = drive_on(crate::route::plan::circle_points(4.0, 2000, 2.0), Model::ideal(0.9), 1.5, lim);
+        let tr = roll_out(&d);
+        let n = tr.steps.len();
+        for s in &tr.steps[n / 2..n * 3 / 4] {
+            assert_relative_eq!(s.twist.vx_mps, 1.0, max_relative = 0.01);
+            assert!(s.twist.vx_mps * s.twist.omega_radps.abs() <= 0.25 * 1.01, "{s:?}");
+        }
+        let mut off = d.clone();
+        off.limits.max_lateral_accel_mps2 = f64::INFINITY;
+        let free = roll_out(&off);
+        let m = free.steps.len();
+        assert_relative_eq!(free.steps[m / 2].twist.vx_mps, 1.5, max_relative = 0.01);
     }
 
     #[test]

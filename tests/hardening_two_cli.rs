@@ -280,8 +280,50 @@ fn work_beyond_the_run_budget_is_refused_up_front_for_every_simulating_command()
     }
     let o = run(bin().args(["check", "--max-work-steps", "100"]).arg(&route));
     assert!(one_error_line(&o).contains("checking 1 route could take up to"));
-    let o = run(bin().args(["check", "--quiet", "--max-work-steps", "100000"]).arg(&route));
+    let o = run(bin().args(["check", "--quiet", "--max-work-steps", "1000000"]).arg(&route));
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+}
+
+/// The margin search (each leg's highest passing speed) is charged up front with the check: the
+/// 40 m straight on the demo profile (cruise 1.2 m/s, top side speed 2 m/s, 20 Hz) has a rollout
+/// bound of (3 x 40 / 1.2 + 60) s x 20 Hz + 1 = 3201 steps, and each simulation of the search
+/// at most (3 x 40 / 0.1 + 60) s x 20 Hz + 1 = 25201 steps (the leg at the lowest tried speed,
+/// 0.1 m/s). The search makes one simulation at the top speed, one at the lowest, and a
+/// bisection in log speed from 0.1 to 2 m/s down to 1 %: ceil(log2(ln 20 / ln 1.01)) halvings,
+/// plus one for rounding (docs/method.md, Verdicts: margins; closed form, no source).
+#[test]
+fn the_margin_search_is_charged_to_the_work_budget_up_front() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let route = straight_csv(dir.path(), "r.csv", 5, 10.0);
+    let rollout = ((3.0 * 40.0 / 1.2 + 60.0) * 20.0_f64).ceil() + 1.0;
+    let per_simulation = ((3.0 * 40.0 / 0.1 + 60.0) * 20.0_f64).ceil() + 1.0;
+    let halvings = (20.0_f64.ln() / 1.01_f64.ln()).log2().ceil() + 1.0;
+    let needed = rollout + (halvings + 2.0) * per_simulation;
+    assert!((needed - 305_613.0).abs() < 0.5, "{needed}");
+    let check =
+        |budget: f64| run(bin().args(["check", "--quiet", "--max-work-steps", &budget.to_string()]).arg(&route));
+    let started = Instant::now();
+    let e = one_error_line(&check(rollout));
+    assert!(
+        e.contains(
+            "finding the highest passing speed of every leg (up to 12 simulations of each) when checking 1 route"
+        ),
+        "{e}"
+    );
+    assert!(
+        e.contains("could take up to 302412 control steps, and the run has 0 of its work budget of 3201 left"),
+        "{e}"
+    );
+    assert!(e.contains("--max-work-steps or SKIDROUTE_MAX_WORK_STEPS"), "{e}");
+    assert!(started.elapsed() < Duration::from_secs(5), "not refused up front: {:?}", started.elapsed());
+    let e = one_error_line(&check(needed - 1.0));
+    assert!(e.contains("finding the highest passing speed"), "{e}");
+    let o = check(needed);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    // The environment variable sets the same budget.
+    let o =
+        run(bin().args(["check", "--quiet"]).arg(&route).env("SKIDROUTE_MAX_WORK_STEPS", (needed - 1.0).to_string()));
+    assert!(one_error_line(&o).contains("finding the highest passing speed"));
 }
 
 #[test]

@@ -91,7 +91,7 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
         (skidroute::batch::load_routes_parallel_on_site(&files, &profile, &limits, &site)?, Vec::new())
     };
     let budget = limits.work_budget();
-    skidroute::check::charge_work(&budget, &routes, &profile, 1, "checking")?;
+    skidroute::check::charge_check(&budget, &routes, &profile, &limits, "checking")?;
     if a.drift {
         skidroute::check::charge_work(&budget, &routes, &profile, a.samples, "the drift estimate of")?;
     }

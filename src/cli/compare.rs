@@ -74,7 +74,7 @@ pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
     let routes = skidroute::batch::load_routes_parallel_on_site(&files, &profile, &limits, &site)?;
     super::site::print_warnings(&routes, a.quiet);
     let budget = limits.work_budget();
-    skidroute::check::charge_work(&budget, &routes, &profile, 1, "checking")?;
+    skidroute::check::charge_check(&budget, &routes, &profile, &limits, "checking")?;
     if let RankBy::Drift = by {
         let samples = skidroute::compare::DRIFT_RANKING_SAMPLES as u64;
         skidroute::check::charge_work(&budget, &routes, &profile, samples, "ranking by drift")?;

@@ -256,7 +256,6 @@ fn setup(route: &Route, profile: &Profile, settings: &DriftSettings) -> Result<s
     let loss_start_m = drive.plan.leg_bounds_m(settings.lost_from_leg - 1).0;
     let time_limit_s = drive.time_limit_s();
     let path_spacing_m = (drive.plan.length_m() / 1500.0).max(0.25);
-    let segment_leg = segment_legs(&drive);
     Ok(sample::SampleSetup {
         drive,
         samplers,
@@ -266,22 +265,7 @@ fn setup(route: &Route, profile: &Profile, settings: &DriftSettings) -> Result<s
         loss_start_m,
         time_limit_s,
         path_spacing_m,
-        segment_leg,
     })
-}
-
-/// Leg of each plan segment: the leg containing the segment's midpoint.
-fn segment_legs(drive: &RouteDrive) -> Vec<usize> {
-    let pts = drive.plan.points();
-    let mut s_m = 0.0;
-    pts.windows(2)
-        .map(|w| {
-            let len = (w[1][0] - w[0][0]).hypot(w[1][1] - w[0][1]);
-            let leg = drive.plan.leg_at(s_m + 0.5 * len);
-            s_m += len;
-            leg
-        })
-        .collect()
 }
 
 fn summarise(

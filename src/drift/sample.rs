@@ -22,7 +22,7 @@ use rand_distr::{Distribution, StandardNormal};
 use super::draw::ParamSampler;
 use crate::follow::Follower;
 use crate::kinematics::{Model, MotionModel, Pose, Twist};
-use crate::rollout::RouteDrive;
+use crate::rollout::{ground_twist, RouteDrive};
 
 /// Random-walk noise intensities of a terrain.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
@@ -55,8 +55,6 @@ pub struct SampleSetup {
     pub time_limit_s: f64,
     /// Spacing of the points kept of a true path (for plots), metres.
     pub path_spacing_m: f64,
-    /// Leg of each plan segment (segment i joins plan points i and i + 1).
-    pub segment_leg: Vec<usize>,
 }
 
 /// Squared distance from `p` to the segment a-b, m^2.
@@ -167,14 +165,17 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
         let localized = s < setup.loss_start_m;
         let leg = follower.leg();
         let cmd = follower.command(believed, &drive.legs[leg].controller);
-        // The terrain under the true vehicle: the leg of the plan segment it is nearest to.
-        let true_leg = if single_terrain {
-            leg
+        // The terrain under the true vehicle, at the plan point it is nearest to, blended over the
+        // contact length (the rule of the check: rollout::ground_twist).
+        let (true_leg, mut twist) = if single_terrain {
+            (leg, actual[leg].twist(cmd.left_mps, cmd.right_mps))
         } else {
             cursor.advance(points, [truth.x_m, truth.y_m]);
-            setup.segment_leg.get(cursor.segment).copied().unwrap_or(leg)
+            let s_true = plan.arc_length_on_segment(cursor.segment, [truth.x_m, truth.y_m]);
+            let under = plan.terrain_share(s_true, drive.vehicle.contact_length_m);
+            let (rear, front) = (actual[under.rear], actual[under.front]);
+            (under.dominant(), ground_twist(rear, front, under.front_share, cmd.left_mps, cmd.right_mps))
         };
-        let mut twist = actual[true_leg].twist(cmd.left_mps, cmd.right_mps);
         let ds_m = twist.vx_mps.hypot(twist.vy_mps) * dt;
         add_noise(&mut twist, &setup.noise[true_leg], ds_m, dt, &mut rng);
         truth = truth.step(twist, dt);

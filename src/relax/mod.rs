@@ -104,18 +104,20 @@ pub struct Relaxed {
     pub max_displacement_m: f64,
 }
 
-/// The traction/thrust/power curvature limit of a leg at `speed_mps` (the effort model,
-/// docs/method.md, Achievable curvature and Effort). The single place relax reads it.
-pub fn traction_limit_per_m(drive: &RouteDrive, leg: &LegDrive, speed_mps: f64) -> Option<f64> {
-    Some(crate::effort::traction_curvature_limit(&drive.vehicle, &leg.ground, speed_mps))
+/// The traction/thrust/power curvature limit of a leg at `speed_mps` at the grade of the plan
+/// at arc length `at_m`, where the turn is (docs/method.md, Achievable curvature and Effort).
+/// The single place relax reads it.
+pub fn traction_limit_per_m(drive: &RouteDrive, leg: &LegDrive, speed_mps: f64, at_m: f64) -> Option<f64> {
+    let slope = crate::effort::Slope::grade(drive.plan.grade_at(at_m));
+    Some(crate::turn_limit::traction_curvature_limit(&drive.vehicle, &leg.ground, speed_mps, slope))
 }
 
 /// Achievable curvature of a leg at a speed (docs/method.md, Achievable curvature): kinematic limit, and the traction
 /// limit where known.
-pub fn achievable_per_m(drive: &RouteDrive, leg: usize, speed_mps: f64) -> f64 {
+pub fn achievable_per_m(drive: &RouteDrive, leg: usize, speed_mps: f64, at_m: f64) -> f64 {
     let Some(ld) = drive.legs.get(leg) else { return f64::INFINITY };
     let k = kinematic_curvature_limit(&drive.limits, &ld.controller, &ld.actual, speed_mps);
-    traction_limit_per_m(drive, ld, speed_mps).map_or(k, |t| t.min(k))
+    traction_limit_per_m(drive, ld, speed_mps, at_m).map_or(k, |t| t.min(k))
 }
 
 /// A corner of the simplified plan.
@@ -126,6 +128,8 @@ struct Corner {
     kappa_per_m: f64,
     legs: Vec<usize>,
     failing: bool,
+    /// Arc length of the vertex.
+    at_m: f64,
 }
 
 /// Consecutive failing corners turning the same way, repaired as one corner at the
@@ -140,6 +144,8 @@ struct Group {
     turn_rad: f64,
     kappa_per_m: f64,
     legs: Vec<usize>,
+    /// Arc length of the tightest vertex of the group, where its traction limit is read.
+    at_m: f64,
 }
 
 /// What to do at a failing corner group.
@@ -168,7 +174,7 @@ pub fn relax_route(route: &Route, profile: &Profile, settings: &RelaxSettings) -
     let s_m = arc_lengths(pts);
     let first_index = leg_first_indices(route);
     let verts = simplified_vertices(pts, &first_index, settings.simplify_tolerance_m);
-    let ach: Vec<f64> = (0..drive.legs.len()).map(|i| achievable_per_m(&drive, i, drive.legs[i].speed_mps)).collect();
+    let ach = |l: usize, at_m: f64| achievable_per_m(&drive, l, drive.legs[l].speed_mps, at_m);
     let corners = find_corners(&drive, &verts, &s_m, &ach);
     let vp = |j: usize| pts[verts[j]];
     let groups = group_corners(&corners, &vp);
@@ -242,8 +248,11 @@ fn run_group(run: &[&Corner], vp: &dyn Fn(usize) -> [f64; 2]) -> Option<Group> {
     let mut legs: Vec<usize> = run.iter().flat_map(|c| c.legs.iter().copied()).collect();
     legs.sort_unstable();
     legs.dedup();
-    let kappa_per_m = run.iter().map(|c| c.kappa_per_m).fold(0.0, f64::max);
-    Some(Group { a, b, x, turn_rad, kappa_per_m, legs })
+    let (kappa_per_m, at_m) =
+        run.iter()
+            .map(|c| (c.kappa_per_m, c.at_m))
+            .fold((0.0, first.at_m), |best, c| if c.0 > best.0 { c } else { best });
+    Some(Group { a, b, x, turn_rad, kappa_per_m, legs, at_m })
 }
 
 /// Chooses the fillet radius and speed for one failing corner group.
@@ -252,11 +261,12 @@ fn plan_corner(
     settings: &RelaxSettings,
     corner: &Group,
     room_m: f64,
-    ach: &[f64],
+    ach: &dyn Fn(usize, f64) -> f64,
     [a, v, b]: [[f64; 2]; 3],
     spacing_m: f64,
 ) -> Plan {
-    let ach_min = corner.legs.iter().map(|&l| ach[l]).fold(f64::INFINITY, f64::min);
+    let at_m = corner.at_m;
+    let ach_min = corner.legs.iter().map(|&l| ach(l, at_m)).fold(f64::INFINITY, f64::min);
     let needed_m = 1.0 / (settings.target_share * ach_min);
     let half_tan = (0.5 * corner.turn_rad.abs()).tan();
     let room_radius_m = if half_tan > 0.0 { room_m / half_tan } else { f64::INFINITY };
@@ -271,7 +281,7 @@ fn plan_corner(
     let passes = |v_mps: f64| {
         corner.legs.iter().all(|&l| {
             let speed = v_mps.min(drive.legs[l].speed_mps);
-            1.0 / radius_m <= settings.target_share * achievable_per_m(drive, l, speed)
+            1.0 / radius_m <= settings.target_share * achievable_per_m(drive, l, speed, at_m)
         })
     };
     let v_max = corner.legs.iter().map(|&l| drive.legs[l].speed_mps).fold(0.0, f64::max);
@@ -345,7 +355,7 @@ fn simplified_vertices(pts: &[[f64; 2]], first_index: &[usize], tolerance_m: f64
 }
 
 /// Every interior simplified vertex with its turn, measured curvature and whether it fails.
-fn find_corners(drive: &RouteDrive, verts: &[usize], s_m: &[f64], ach: &[f64]) -> Vec<Corner> {
+fn find_corners(drive: &RouteDrive, verts: &[usize], s_m: &[f64], ach: &dyn Fn(usize, f64) -> f64) -> Vec<Corner> {
     let plan = &drive.plan;
     let pts = plan.points();
     let scale_m = drive.curvature_scale_m;
@@ -362,9 +372,9 @@ fn find_corners(drive: &RouteDrive, verts: &[usize], s_m: &[f64], ach: &[f64]) -
                 .fold(0.0, f64::max);
             let mut legs: Vec<usize> = [from, s_v, to].iter().map(|&s| plan.leg_at(s)).collect();
             legs.dedup();
-            let limit = legs.iter().map(|&l| ach[l]).fold(f64::INFINITY, f64::min);
+            let limit = legs.iter().map(|&l| ach(l, s_v)).fold(f64::INFINITY, f64::min);
             let failing = turn_rad.abs() > 1e-6 && kappa_per_m > CAUTION_CURVATURE_SHARE * limit;
-            Some(Corner { j, turn_rad, kappa_per_m, legs, failing })
+            Some(Corner { j, turn_rad, kappa_per_m, legs, failing, at_m: s_v })
         })
         .collect()
 }

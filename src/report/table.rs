@@ -32,6 +32,13 @@ fn opt_num(x: Option<f64>, decimals: usize, none: &str) -> Cell {
     }
 }
 
+/// The traction the leg needs next to what its terrain gives, "0.41/0.25" (docs/method.md,
+/// Verdicts: margins).
+fn traction_cell(l: &LegReport) -> Cell {
+    Cell::new(format!("{:.2}/{:.2}", l.traction_coefficient_needed, l.traction_coefficient))
+        .set_alignment(CellAlignment::Right)
+}
+
 fn leg_row(l: &LegReport, color: bool) -> Vec<Cell> {
     let label = match &l.name {
         Some(n) => format!("{} {}", l.index, n),
@@ -51,6 +58,8 @@ fn leg_row(l: &LegReport, color: bool) -> Vec<Cell> {
         num(l.time_s, 0),
         num(l.energy_wh, 1),
         num(l.peak_side_thrust_n, 0),
+        traction_cell(l),
+        opt_num(l.max_passing_speed_mps, 2, "none"),
         opt_num(l.drift_cep95_m, 1, "-"),
         verdict_cell(l.verdict, color),
     ]
@@ -73,6 +82,8 @@ fn route_table(r: &RouteReport, color: bool) -> Table {
         "time\ns",
         "energy\nWh",
         "peak\nthrust N",
+        "traction\nneeds/has",
+        "passes up\nto m/s",
         "drift\nCEP95 m",
         "verdict",
     ];

@@ -1,5 +1,6 @@
 //! The simulated trace as CSV, local frame (docs/method.md, Outputs): the designed columns
-//! `t_s,x_m,y_m,yaw_rad,leg,deviation_m,left_mps,right_mps`, then extra columns, then `route`.
+//! `t_s,x_m,y_m,yaw_rad,leg,deviation_m,left_mps,right_mps`, then extra columns (effort, and
+//! `traction_limited`: 1 where traction or a rating bound the motion of the step), then `route`.
 //! Legs are numbered from 1.
 
 use std::fmt::Write;
@@ -10,7 +11,7 @@ use crate::check::CheckRun;
 pub const TRACE_HEADER: &str =
     "t_s,x_m,y_m,yaw_rad,leg,deviation_m,left_mps,right_mps,progress_m,offset_m,vx_mps,vy_mps,\
 yaw_rate_radps,accel_mps2,grade_rad,left_thrust_n,right_thrust_n,outer_thrust_n,inner_thrust_n,mechanical_power_w,\
-drawn_power_w,route";
+drawn_power_w,traction_limited,route";
 
 /// Quotes a CSV field when it needs it.
 pub(crate) fn csv_field(s: &str) -> String {
@@ -31,7 +32,7 @@ pub fn trace_csv(run: &CheckRun) -> String {
         for s in &cr.trace.steps {
             let _ = writeln!(
                 out,
-                "{:.3},{:.4},{:.4},{:.5},{},{:.4},{:.4},{:.4},{:.3},{:.4},{:.4},{:.4},{:.5},{:.4},{:.5},{:.1},{:.1},{:.1},{:.1},{:.1},{:.1},{}",
+                "{:.3},{:.4},{:.4},{:.5},{},{:.4},{:.4},{:.4},{:.3},{:.4},{:.4},{:.4},{:.5},{:.4},{:.5},{:.1},{:.1},{:.1},{:.1},{:.1},{:.1},{},{}",
                 s.t_s,
                 s.pose.x_m,
                 s.pose.y_m,
@@ -53,6 +54,7 @@ pub fn trace_csv(run: &CheckRun) -> String {
                 s.effort.inner_thrust_n,
                 s.effort.mechanical_power_w,
                 s.effort.drawn_power_w,
+                u8::from(s.traction_limited()),
                 name
             );
         }

@@ -7,6 +7,10 @@
 
 use super::Route;
 
+mod curvature;
+
+pub use curvature::{VertexCurvature, ARC_SAMPLE_MAX_SPACING_M, ARC_SAMPLE_MAX_TURN};
+
 /// Most samples taken along one leg by the sampled queries (curvature, grade): 1e7, which is
 /// 1000 km at the 0.1 m curvature spacing.
 pub const MAX_SAMPLES_PER_LEG: f64 = 1e7;
@@ -25,6 +29,11 @@ pub struct PlanPath {
     leg_bounds_m: Vec<(f64, f64)>,
     /// Altitude at each point when every leg carries it.
     altitude_m: Option<Vec<f64>>,
+    /// Index of each leg's first point.
+    leg_first_point: Vec<usize>,
+    /// Signed curvature each segment bends with when the plan's curvature is read
+    /// (docs/method.md, Plan curvature).
+    bend_per_m: Vec<f64>,
 }
 
 /// A remembered segment index that makes repeated queries near the same place cheap: the
@@ -99,7 +108,9 @@ impl PlanPath {
         let segment_leg = (0..points.len().saturating_sub(1))
             .map(|i| leg_first_index.partition_point(|&first| first <= i).saturating_sub(1) as u32)
             .collect();
-        PlanPath { points, s_m, dir, segment_leg, leg_bounds_m, altitude_m }
+        let bend_per_m = curvature::segment_bends(&points);
+        let leg_first_point = leg_first_index.to_vec();
+        PlanPath { points, s_m, dir, segment_leg, leg_bounds_m, altitude_m, leg_first_point, bend_per_m }
     }
 
     pub fn length_m(&self) -> f64 {
@@ -208,6 +219,36 @@ impl PlanPath {
         self.altitude_m.is_some()
     }
 
+    /// The terrain under a contact patch `contact_length_m` long centred at arc length `s_m`
+    /// (docs/method.md, Following: terrain changes): the legs under its rear and front ends and
+    /// the share of the patch on the front one. A leg shorter than the patch between two others
+    /// is skipped (the patch is split between the legs under its ends).
+    #[inline]
+    pub fn terrain_share(&self, s_m: f64, contact_length_m: f64) -> TerrainShare {
+        let half = 0.5 * contact_length_m.max(0.0);
+        let rear = self.leg_at((s_m - half).max(0.0));
+        let front = self.leg_at(s_m + half);
+        if front == rear || half <= 0.0 {
+            return TerrainShare { rear, front: rear, front_share: 0.0 };
+        }
+        let boundary_m = self.leg_bounds_m[front].0;
+        let front_share = ((s_m + half - boundary_m) / (2.0 * half)).clamp(0.0, 1.0);
+        TerrainShare { rear, front, front_share }
+    }
+
+    /// Arc length of the point of segment `segment` (joining points `segment` and `segment + 1`)
+    /// nearest to `p`.
+    #[inline]
+    pub fn arc_length_on_segment(&self, segment: usize, p: [f64; 2]) -> f64 {
+        let i = segment.min(self.points.len().saturating_sub(2));
+        if self.points.len() < 2 {
+            return 0.0;
+        }
+        let (a, d) = (self.points[i], self.dir[i]);
+        let along = (p[0] - a[0]) * d[0] + (p[1] - a[1]) * d[1];
+        self.s_m[i] + along.clamp(0.0, self.s_m[i + 1] - self.s_m[i])
+    }
+
     /// Nearest point of the plan to `p` among the parts with arc length in `[from_m, to_m]`.
     #[inline]
     pub fn nearest_within(&self, p: [f64; 2], from_m: f64, to_m: f64) -> Nearest {
@@ -308,34 +349,25 @@ impl PlanPath {
         }
         self.point_at((from_m + lookahead_m).min(total))
     }
+}
 
-    /// Signed Menger curvature of the plan at arc length `s_m`, from the points `scale_m`
-    /// before and after (docs/method.md, Plan curvature): kappa = 2 cross(p2 - p1, p3 - p2) / (|p1p2| |p2p3| |p1p3|).
-    /// Zero where the points before or after fall off the ends of the plan.
-    pub fn curvature_at(&self, s_m: f64, scale_m: f64) -> f64 {
-        if s_m - scale_m < 0.0 || s_m + scale_m > self.length_m() {
-            return 0.0;
-        }
-        menger_curvature(self.point_at(s_m - scale_m), self.point_at(s_m), self.point_at(s_m + scale_m))
-    }
+/// The legs under the two ends of the vehicle's contact patch and the share on the front one.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TerrainShare {
+    pub rear: usize,
+    pub front: usize,
+    /// Share of the contact length on the front leg, 0..1 (0 when both ends are on one leg).
+    pub front_share: f64,
+}
 
-    /// Largest |curvature| over leg `leg`, sampled every `step_m` (0.1 m, docs/method.md, Plan curvature), with
-    /// the neighbouring legs' points used near the boundaries; returns (|kappa|, arc length).
-    /// A leg longer than `step_m` x [`MAX_SAMPLES_PER_LEG`] is sampled more coarsely, so the cost
-    /// stays bounded whatever the input.
-    pub fn required_curvature(&self, leg: usize, scale_m: f64, step_m: f64) -> (f64, f64) {
-        let (start, end) = self.leg_bounds_m[leg];
-        let step_m = step_m.max((end - start) / MAX_SAMPLES_PER_LEG);
-        let n = ((end - start) / step_m).ceil().clamp(1.0, MAX_SAMPLES_PER_LEG) as usize;
-        let mut best = (0.0, start);
-        for k in 0..=n {
-            let s = (start + k as f64 * step_m).min(end);
-            let kappa = self.curvature_at(s, scale_m).abs();
-            if kappa > best.0 {
-                best = (kappa, s);
-            }
+impl TerrainShare {
+    /// The leg with the larger share of the patch.
+    pub fn dominant(&self) -> usize {
+        if self.front_share > 0.5 {
+            self.front
+        } else {
+            self.rear
         }
-        best
     }
 }
 
@@ -387,23 +419,10 @@ mod tests {
     }
 
     #[test]
-    fn sharp_corner_reads_two_sin_half_angle_over_scale() {
-        // docs/method.md, Plan curvature (plane geometry): an isosceles triangle with legs s and turning angle theta
-        // has circumradius s / (2 sin(theta/2)).
-        let theta = 1.2_f64;
-        let pts = vec![[-10.0, 0.0], [0.0, 0.0], [10.0 * theta.cos(), 10.0 * theta.sin()]];
-        let plan = PlanPath::from_parts(pts, &[0], None);
-        let s = 0.5;
-        let (k, at) = plan.required_curvature(0, s, 0.1);
-        assert_relative_eq!(k, 2.0 * (theta / 2.0).sin() / s, max_relative = 1e-9);
-        assert_relative_eq!(at, 10.0, epsilon = 1e-9);
-    }
-
-    #[test]
     fn circle_curvature_is_inverse_radius() {
         let plan = PlanPath::from_parts(circle_points(5.0, 2000, 0.75), &[0], None);
-        let (k, _) = plan.required_curvature(0, 0.5, 0.1);
-        assert_relative_eq!(k, 0.2, max_relative = 1e-3);
+        let (k, _) = plan.required_curvature(0, 0.5);
+        assert_relative_eq!(k, 0.2, max_relative = 1e-9);
     }
 
     #[test]
@@ -466,6 +485,21 @@ mod tests {
         // A stale cursor far away still gives the same answer.
         let mut far = Cursor { segment: 190 };
         assert_eq!(plan.nearest_within_at([1.0, 0.0], 0.0, 2.0, &mut far), plan.nearest_within([1.0, 0.0], 0.0, 2.0));
+    }
+
+    #[test]
+    fn the_contact_patch_is_shared_linearly_across_a_boundary() {
+        let plan = PlanPath::from_parts(vec![[0.0, 0.0], [10.0, 0.0], [20.0, 0.0]], &[0, 1], None);
+        assert_eq!(plan.terrain_share(5.0, 1.0), TerrainShare { rear: 0, front: 0, front_share: 0.0 });
+        for (s, share) in [(9.5, 0.0), (9.75, 0.25), (10.0, 0.5), (10.3, 0.8), (10.5, 1.0), (11.0, 1.0)] {
+            let t = plan.terrain_share(s, 1.0);
+            // Share of the patch on leg 1.
+            let on_second = if t.front == 1 && t.rear == 0 { t.front_share } else { f64::from(u8::from(t.rear == 1)) };
+            assert_relative_eq!(on_second, share, epsilon = 1e-12);
+        }
+        assert_eq!(plan.terrain_share(10.6, 1.0).dominant(), 1);
+        assert_relative_eq!(plan.arc_length_on_segment(1, [13.0, 2.0]), 13.0, epsilon = 1e-12);
+        assert_relative_eq!(plan.arc_length_on_segment(1, [25.0, 0.0]), 20.0, epsilon = 1e-12);
     }
 
     #[test]

@@ -76,6 +76,10 @@ pub struct FollowerSpec {
     pub corridor_m: f64,
     /// Spacing used to measure the plan's curvature (docs/method.md, Plan curvature).
     pub curvature_scale_m: f64,
+    /// Optional slow-down in turns (docs/method.md, Following): when set, the follower limits
+    /// its speed so the lateral acceleration of its pursuit arc stays under this value and the
+    /// turn within the traction radius. `None` (the default): the follower does not slow.
+    pub max_lateral_accel_mps2: Option<f64>,
 }
 
 /// One terrain (`[terrain.NAME]`): its calibrated motion model and traction coefficients.

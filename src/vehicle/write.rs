@@ -104,6 +104,9 @@ fn write_follower(out: &mut String, f: &FollowerSpec) {
     assign(out, "inverse_model", &string(inverse));
     assign(out, "corridor_m", &float(f.corridor_m));
     assign(out, "curvature_scale_m", &float(f.curvature_scale_m));
+    if let Some(a) = f.max_lateral_accel_mps2 {
+        assign(out, "max_lateral_accel_mps2", &float(a));
+    }
     out.push('\n');
 }
 
@@ -224,6 +227,7 @@ mod tests {
         p.vehicle.regenerative = true;
         p.vehicle.mass_kg = 480.0 + 0.1 + 0.2; // an awkward float within the plausible range
         p.follower.inverse_model = InverseChoice::Calibrated;
+        p.follower.max_lateral_accel_mps2 = Some(0.65);
         p.terrain.clear();
         for model in every_family(p.vehicle.track_width_m) {
             p.terrain.insert(format!("{}_t", model.family()), terrain(model));

@@ -5,12 +5,14 @@ use crate::limits::{clip, MAX_CORRIDOR_M};
 use crate::vehicle::{FollowerSpec, InverseChoice};
 
 pub(super) const FOLLOWER_KEYS: &[&str] =
-    &["lookahead_m", "control_rate_hz", "inverse_model", "corridor_m", "curvature_scale_m"];
+    &["lookahead_m", "control_rate_hz", "inverse_model", "corridor_m", "curvature_scale_m", "max_lateral_accel_mps2"];
 
 const LOOKAHEAD: Plausible = Plausible { unit: "m", max: 1e4, usual: (0.05, 100.0), hint: "is it in metres?" };
 const CORRIDOR: Plausible =
     Plausible { unit: "m", max: MAX_CORRIDOR_M, usual: (0.01, 100.0), hint: "is it in metres?" };
 const SCALE: Plausible = Plausible { unit: "m", max: 1e4, usual: (0.01, 100.0), hint: "is it in metres?" };
+/// Lateral acceleration the follower keeps its turns under (optional slow-down in turns).
+const LATERAL_ACCEL: Plausible = Plausible { unit: "m/s^2", max: 1000.0, usual: (0.01, 20.0), hint: "is it in m/s^2?" };
 
 pub(super) fn parse_follower(s: &Section) -> FollowerSpec {
     s.check_keys(FOLLOWER_KEYS, None);
@@ -31,6 +33,7 @@ pub(super) fn parse_follower(s: &Section) -> FollowerSpec {
         inverse_model,
         corridor_m: s.plausible_number("corridor_m", Rule::Positive, &CORRIDOR),
         curvature_scale_m: s.plausible_number("curvature_scale_m", Rule::Positive, &SCALE),
+        max_lateral_accel_mps2: s.optional_plausible_number("max_lateral_accel_mps2", Rule::Positive, &LATERAL_ACCEL),
     }
 }
 

@@ -260,6 +260,23 @@ fn singular_linear_model_rejected() {
 }
 
 #[test]
+fn slow_down_in_turns_is_optional_and_positive() {
+    let off = parse(BASE).expect("default");
+    assert_eq!(off.follower.max_lateral_accel_mps2, None);
+    let text = replaced("curvature_scale_m = 0.5", "curvature_scale_m = 0.5\nmax_lateral_accel_mps2 = 0.6");
+    assert_eq!(parse(&text).expect("slow-down").follower.max_lateral_accel_mps2, Some(0.6));
+    // `curvature_scale_m` is on line 22 of the base text, so the new key is on line 23.
+    let e = error_of(&replaced("curvature_scale_m = 0.5", "curvature_scale_m = 0.5\nmax_lateral_accel_mps2 = -1"));
+    assert!(e.contains("follower.max_lateral_accel_mps2: must be a positive number, got -1"), "{e}");
+    assert!(e.contains("line 23"), "{e}");
+    let text = replaced("curvature_scale_m = 0.5", "curvature_scale_m = 0.5\nmax_lateral_accel_mps2 = 600");
+    let (_, warnings) = super::parse_profile_with_warnings(Path::new("test.toml"), &text).expect("unusual, kept");
+    assert!(warnings.iter().any(|w| w.contains("max_lateral_accel_mps2") && w.contains("(line 23)")), "{warnings:?}");
+    let e = error_of(&replaced("curvature_scale_m = 0.5", "curvature_scale_m = 0.5\nmax_lateral_accel_mps2 = 5000"));
+    assert!(e.contains("follower.max_lateral_accel_mps2: 5000 m/s^2 is beyond the possible 1000 m/s^2"), "{e}");
+}
+
+#[test]
 fn battery_optional_and_positive() {
     let text = replaced("max_yaw_rate_radps = 1.2", "max_yaw_rate_radps = 1.2\nbattery_wh = 2500");
     assert_eq!(parse(&text).expect("battery").vehicle.battery_wh, Some(2500.0));

@@ -1,0 +1,288 @@
+//! The turn rules of the verdict (docs/method.md, Verdicts): every vertex of a leg's plan is
+//! checked against the curvature the vehicle can drive there, at the leg's speed and the grade
+//! where the turn is (docs/method.md, Plan curvature and Achievable curvature). The plan facts
+//! that do not depend on speed are read once per leg ([`LegPlan`]), so the margins can check the
+//! same leg at many speeds cheaply.
+//!
+//! Units: metres, 1/m, radians; positions in the route's local frame.
+
+use serde::Serialize;
+
+use crate::effort::{Ground, Slope};
+use crate::rollout::RouteDrive;
+use crate::turn_limit::{kinematic_curvature_limit, traction_coefficient_needed, traction_curvature_limit};
+use crate::turn_limit::{Achievable, CurvatureLimit};
+
+/// Vertices whose curvature reading is below this are left out of the turn checks, 1/m (a radius
+/// of 1 km). The tightest vertex of a leg is always kept.
+const TURN_FLOOR_PER_M: f64 = 1e-3;
+
+/// One vertex of a leg's plan that turns.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TurnPoint {
+    /// Index of the vertex in the plan.
+    pub index: usize,
+    pub s_m: f64,
+    pub point: [f64; 2],
+    /// |curvature| read at the vertex, 1/m.
+    pub curvature_per_m: f64,
+    pub grade_rad: f64,
+    /// Ground under the contact patch there (blended across a terrain boundary).
+    pub ground: Ground,
+    pub sharp: bool,
+    pub turn_rad: f64,
+}
+
+/// The facts of one leg's plan that do not depend on speed.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LegPlan {
+    /// Vertices that turn (reading at least 1e-3 1/m), in order.
+    pub turns: Vec<TurnPoint>,
+    /// Largest |curvature| of the leg and where (the leg start for a straight leg).
+    pub tightest_per_m: f64,
+    pub tightest_at_m: f64,
+    /// Steepest climb and steepest descent (both >= 0, rad) and where, sampled every metre.
+    pub max_uphill_grade_rad: f64,
+    pub uphill_at_m: f64,
+    pub max_downhill_grade_rad: f64,
+    pub downhill_at_m: f64,
+    /// Smallest traction coefficient with which every turn and climb of the leg stays within
+    /// traction, and where it is needed.
+    pub traction_needed: f64,
+    pub traction_needed_at_m: f64,
+}
+
+impl LegPlan {
+    /// Reads leg `leg` of the drive's plan at its curvature scale.
+    pub fn new(drive: &RouteDrive, leg: usize) -> LegPlan {
+        let plan = &drive.plan;
+        let ground = &drive.legs[leg].ground;
+        let veh = &drive.vehicle;
+        let (start_m, end_m) = plan.leg_bounds_m(leg);
+        let grade = |s: f64| if plan.has_altitude() { plan.grade_at(s) } else { 0.0 };
+        let mut turns = Vec::new();
+        let (mut tightest, mut tightest_at_m) = (0.0, start_m);
+        let mut tightest_point: Option<TurnPoint> = None;
+        plan.for_each_vertex_curvature(leg, drive.curvature_scale_m, |v| {
+            let k = v.curvature_per_m.abs();
+            let tp = TurnPoint {
+                index: v.index,
+                s_m: v.s_m,
+                point: v.point,
+                curvature_per_m: k,
+                grade_rad: 0.0,
+                ground: *ground,
+                sharp: v.sharp,
+                turn_rad: v.turn_rad,
+            };
+            if k > tightest {
+                (tightest, tightest_at_m) = (k, v.s_m);
+                tightest_point = Some(tp);
+            }
+            if k >= TURN_FLOOR_PER_M {
+                turns.push(tp);
+            }
+        });
+        if let Some(tp) = tightest_point.filter(|tp| tp.curvature_per_m < TURN_FLOOR_PER_M) {
+            turns.push(tp);
+        }
+        for t in &mut turns {
+            t.grade_rad = grade(t.s_m);
+            t.ground = drive.ground_at(t.s_m);
+        }
+        let mut p = LegPlan {
+            turns,
+            tightest_per_m: tightest,
+            tightest_at_m,
+            max_uphill_grade_rad: 0.0,
+            uphill_at_m: start_m,
+            max_downhill_grade_rad: 0.0,
+            downhill_at_m: start_m,
+            traction_needed: 0.0,
+            traction_needed_at_m: start_m,
+        };
+        let need = |mu: f64, s: f64, p: &mut LegPlan| {
+            if mu > p.traction_needed {
+                (p.traction_needed, p.traction_needed_at_m) = (mu, s);
+            }
+        };
+        if plan.has_altitude() {
+            let n = (end_m - start_m).ceil().clamp(1.0, crate::route::plan::MAX_SAMPLES_PER_LEG) as usize;
+            for k in 0..=n {
+                let s = start_m + (end_m - start_m) * k as f64 / n as f64;
+                let g = plan.grade_at(s);
+                if g > p.max_uphill_grade_rad {
+                    (p.max_uphill_grade_rad, p.uphill_at_m) = (g, s);
+                }
+                if -g > p.max_downhill_grade_rad {
+                    (p.max_downhill_grade_rad, p.downhill_at_m) = (-g, s);
+                }
+                need(traction_coefficient_needed(veh, ground, 0.0, Slope::grade(g)), s, &mut p);
+            }
+        } else {
+            need(traction_coefficient_needed(veh, ground, 0.0, Slope::LEVEL), start_m, &mut p);
+        }
+        for t in p.turns.clone() {
+            need(
+                traction_coefficient_needed(veh, &t.ground, t.curvature_per_m, Slope::grade(t.grade_rad)),
+                t.s_m,
+                &mut p,
+            );
+        }
+        p
+    }
+}
+
+/// A turn of the plan the vehicle cannot drive at the leg's speed (the JSON `failing_turns`).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct FailingTurn {
+    /// Arc length along the route of its tightest point.
+    pub at_m: f64,
+    /// Its tightest point in the route's local frame.
+    pub x_m: f64,
+    pub y_m: f64,
+    /// Longitude and latitude of that point (GeoJSON input only).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub lon_deg: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub lat_deg: Option<f64>,
+    /// Radius the plan asks for there.
+    pub radius_m: f64,
+    /// Tightest radius the vehicle can drive there at the leg's speed and the local grade.
+    pub tightest_radius_m: f64,
+    pub limited_by: CurvatureLimit,
+    /// Grade where the turn is, percent (positive uphill).
+    pub grade_pct: f64,
+    /// True for a sharp corner of the polyline (read at the curvature scale): `relax` repairs it.
+    pub sharp_corner: bool,
+    /// Turning angle at the corner point, degrees (positive left).
+    pub turn_deg: f64,
+}
+
+/// The turns of a leg checked at one speed.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TurnCheck {
+    /// Achievable curvature at the turn that comes closest to failing (or at the tightest
+    /// point), and the required / achievable ratio there.
+    pub achievable: Achievable,
+    pub worst_ratio: f64,
+    pub worst_at_m: f64,
+    pub worst_per_m: f64,
+    /// Runs of consecutive vertices (each within 2 curvature scales, and at least 1.05 m, of the
+    /// last) that need more than the vehicle can drive, each as its tightest point.
+    pub failing: Vec<FailingTurn>,
+}
+
+/// Checks every turn of leg `leg` at `speed_mps` (docs/method.md, Verdicts). The kinematic limit
+/// (the leg's own model) is computed once; the traction limit at each turn's grade and on the
+/// ground under the contact patch there, so a turn at a terrain boundary is judged alike for the
+/// legs on both sides.
+pub fn check_turns(drive: &RouteDrive, leg: usize, plan: &LegPlan, speed_mps: f64) -> TurnCheck {
+    let ld = &drive.legs[leg];
+    let kinematic = kinematic_curvature_limit(&drive.limits, &ld.controller, &ld.actual, speed_mps);
+    let at = |g: f64, ground: &Ground| Achievable {
+        kinematic_per_m: kinematic,
+        traction_per_m: Some(traction_curvature_limit(&drive.vehicle, ground, speed_mps, Slope::grade(g))),
+    };
+    let tightest = plan.turns.iter().find(|t| t.s_m == plan.tightest_at_m);
+    let mut check = TurnCheck {
+        achievable: tightest.map_or_else(|| at(0.0, &ld.ground), |t| at(t.grade_rad, &t.ground)),
+        worst_ratio: 0.0,
+        worst_at_m: plan.tightest_at_m,
+        worst_per_m: plan.tightest_per_m,
+        failing: Vec::new(),
+    };
+    // The failing run being built: (last vertex, its representative and ratio). Consecutive
+    // failing vertices closer than this belong to one turn.
+    let join_m = (2.0 * drive.curvature_scale_m).max(crate::route::plan::ARC_SAMPLE_MAX_SPACING_M);
+    let mut run: Option<(TurnPoint, TurnPoint, f64, Achievable)> = None;
+    let close = |run: &mut Option<(TurnPoint, TurnPoint, f64, Achievable)>, out: &mut Vec<FailingTurn>| {
+        if let Some((_, t, _, a)) = run.take() {
+            out.push(failing_turn(&t, &a));
+        }
+    };
+    for t in &plan.turns {
+        let a = at(t.grade_rad, &t.ground);
+        let ach = a.curvature_per_m();
+        let ratio = if ach > 0.0 { t.curvature_per_m / ach } else { f64::INFINITY };
+        if ratio > check.worst_ratio {
+            (check.worst_ratio, check.worst_at_m, check.worst_per_m, check.achievable) =
+                (ratio, t.s_m, t.curvature_per_m, a);
+        }
+        if ratio > 1.0 {
+            match &mut run {
+                Some((last, best, best_ratio, best_a)) if t.index == last.index + 1 && t.s_m - last.s_m <= join_m => {
+                    *last = *t;
+                    if ratio > *best_ratio {
+                        (*best, *best_ratio, *best_a) = (*t, ratio, a);
+                    }
+                }
+                _ => {
+                    close(&mut run, &mut check.failing);
+                    run = Some((*t, *t, ratio, a));
+                }
+            }
+        } else {
+            close(&mut run, &mut check.failing);
+        }
+    }
+    close(&mut run, &mut check.failing);
+    check
+}
+
+fn failing_turn(t: &TurnPoint, a: &Achievable) -> FailingTurn {
+    let ach = a.curvature_per_m();
+    FailingTurn {
+        at_m: t.s_m,
+        x_m: t.point[0],
+        y_m: t.point[1],
+        lon_deg: None,
+        lat_deg: None,
+        radius_m: 1.0 / t.curvature_per_m,
+        tightest_radius_m: if ach > 0.0 { 1.0 / ach } else { f64::INFINITY },
+        limited_by: a.binding(),
+        grade_pct: 100.0 * t.grade_rad.tan(),
+        sharp_corner: t.sharp,
+        turn_deg: t.turn_rad.to_degrees(),
+    }
+}
+
+impl FailingTurn {
+    /// The reason line for this turn, in plain words (docs/method.md, Verdicts).
+    pub fn reason(&self, speed_mps: f64, terrain: &str, scale_m: f64) -> String {
+        let limiter = match self.limited_by {
+            CurvatureLimit::Kinematic => "slip and the yaw-rate limit".to_string(),
+            CurvatureLimit::Traction => format!("thrust against traction on {terrain}"),
+        };
+        let grade = if self.grade_pct.abs() >= 0.5 {
+            format!(", {:.0} % {}", self.grade_pct.abs(), if self.grade_pct > 0.0 { "uphill" } else { "downhill" })
+        } else {
+            String::new()
+        };
+        let tightest = if self.tightest_radius_m.is_finite() {
+            format!("the tightest is {:.1} m", self.tightest_radius_m)
+        } else {
+            "it cannot turn at all".to_string()
+        };
+        let fix = if self.sharp_corner {
+            format!(
+                "; it is a sharp corner (the plan turns {:.0} degrees at one point, read at the {scale_m} m curvature scale): \
+                 `skidroute relax` replaces it with an arc the vehicle can drive",
+                self.turn_deg.abs()
+            )
+        } else if self.tightest_radius_m.is_finite() {
+            match self.limited_by {
+                CurvatureLimit::Kinematic => {
+                    format!("; widen it to at least {:.1} m or plan a lower speed", self.tightest_radius_m)
+                }
+                CurvatureLimit::Traction => format!("; widen it to at least {:.1} m", self.tightest_radius_m),
+            }
+        } else {
+            String::new()
+        };
+        format!(
+            "turn needs radius {:.1} m ({:.0} m along the route{grade}); at {speed_mps:.1} m/s on {terrain} {tightest} ({limiter}){fix}",
+            self.radius_m, self.at_m
+        )
+    }
+}
