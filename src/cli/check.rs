@@ -10,6 +10,7 @@ use skidroute::report::{self, CheckOutputs};
 
 use skidroute::drift::DriftSettings;
 
+use super::common::CommonArgs;
 use super::progress::Bar;
 use super::{color_wanted, emit, load_profile};
 
@@ -18,24 +19,14 @@ pub struct CheckArgs {
     /// Route files (.geojson, .json or .csv) or folders of them (taken sorted by name).
     #[arg(required = true)]
     pub routes: Vec<PathBuf>,
-    /// Vehicle profile (TOML); the built-in demo profile when omitted.
-    #[arg(long)]
-    pub vehicle: Option<PathBuf>,
-    /// Print the JSON report to stdout instead of the table.
-    #[arg(long)]
-    pub json: bool,
-    /// Write the JSON report to this file.
-    #[arg(long, value_name = "FILE")]
-    pub report: Option<PathBuf>,
+    #[command(flatten)]
+    pub common: CommonArgs,
     /// Write the simulated trace (CSV, local frame).
     #[arg(long, value_name = "FILE")]
     pub trace: Option<PathBuf>,
     /// Write the predicted path as GeoJSON (GeoJSON routes only).
     #[arg(long, value_name = "FILE")]
     pub predicted: Option<PathBuf>,
-    /// Write a plot (.svg or .png).
-    #[arg(long, value_name = "FILE")]
-    pub plot: Option<PathBuf>,
     /// Treat cautions as failures for the exit code.
     #[arg(long)]
     pub strict: bool,
@@ -45,9 +36,6 @@ pub struct CheckArgs {
     /// Write a self-contained HTML report (plot inline, per-leg table, reasons, caution).
     #[arg(long, value_name = "FILE")]
     pub html: Option<PathBuf>,
-    /// Print nothing but errors.
-    #[arg(long)]
-    pub quiet: bool,
     /// Also estimate the drift at every leg end if localization is lost (Monte Carlo).
     #[arg(long)]
     pub drift: bool,
@@ -69,12 +57,12 @@ pub struct CheckArgs {
 }
 
 pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
-    let outputs =
-        CheckOutputs { report_json: a.report, trace_csv: a.trace, predicted_geojson: a.predicted, plot: a.plot };
+    let CommonArgs { vehicle, json, report: report_json, plot, quiet } = a.common;
+    let outputs = CheckOutputs { report_json, trace_csv: a.trace, predicted_geojson: a.predicted, plot };
     let files = skidroute::batch::expand_inputs(&a.routes)?;
-    let inputs: Vec<PathBuf> = files.iter().chain(a.vehicle.iter()).cloned().collect();
+    let inputs: Vec<PathBuf> = files.iter().chain(vehicle.iter()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, outputs.paths().chain(a.html.iter()))?;
-    let (profile, demo) = load_profile(&a.vehicle)?;
+    let (profile, demo) = load_profile(&vehicle)?;
     let limits = a.limits.resolve()?;
     let routes = skidroute::batch::load_routes_parallel_with(&files, &profile, &limits)?;
     let mut run = skidroute::check::check_routes_with(routes, &profile, demo, &limits);
@@ -86,15 +74,15 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
             odometry: super::drift::odometry(a.odometry, &profile),
             paths_kept: 0,
         };
-        skidroute::check::add_drift(&mut run, &profile, &settings, &Bar::new(a.quiet || a.json))?;
+        skidroute::check::add_drift(&mut run, &profile, &settings, &Bar::new(quiet || json))?;
     }
     report::write_check_outputs(&run, &outputs)?;
     super::batch::write_html(&run, a.html.as_deref())?;
-    if a.format == super::batch::Format::Jsonl && !a.json {
+    if a.format == super::batch::Format::Jsonl && !json {
         emit(&report::jsonl::check_jsonl(&run))?;
-    } else if a.json || a.format == super::batch::Format::Json {
+    } else if json || a.format == super::batch::Format::Json {
         emit(&report::json::check_json(&run))?;
-    } else if !a.quiet {
+    } else if !quiet {
         emit(&report::table::check_table(&run, color_wanted()))?;
     }
     let failing = match run.verdict() {

@@ -8,6 +8,7 @@ use clap::{Args, ValueEnum};
 use skidroute::compare::RankBy;
 use skidroute::report::{self, compare_report};
 
+use super::common::CommonArgs;
 use super::{emit, load_profile};
 
 /// Ranking criterion on the command line.
@@ -20,43 +21,36 @@ pub enum By {
 }
 
 #[derive(Args)]
+#[command(
+    mut_arg("json", |a| a.help("Print the JSON document to stdout instead of the table")),
+    mut_arg("report", |a| a.help("Write the JSON document to this file")),
+    mut_arg("plot", |a| a.help("Write an overlay plot of all alternatives (.svg or .png)")),
+)]
 pub struct CompareArgs {
     /// Route files (or folders of them); every `route` group is one alternative.
     #[arg(required = true)]
     pub routes: Vec<PathBuf>,
-    /// Vehicle profile (TOML); the built-in demo profile when omitted.
-    #[arg(long)]
-    pub vehicle: Option<PathBuf>,
+    #[command(flatten)]
+    pub common: CommonArgs,
     /// Rank alternatives with the same verdict by this (lower is better).
     #[arg(long, value_enum, default_value = "energy")]
     pub by: By,
-    /// Print the JSON document to stdout instead of the table.
-    #[arg(long)]
-    pub json: bool,
     /// Seed of the drift Monte Carlo (with --by drift).
     #[arg(long, default_value_t = 7)]
     pub seed: u64,
-    /// Write the JSON document to this file.
-    #[arg(long, value_name = "FILE")]
-    pub report: Option<PathBuf>,
-    /// Write an overlay plot of all alternatives (.svg or .png).
-    #[arg(long, value_name = "FILE")]
-    pub plot: Option<PathBuf>,
     /// Write a self-contained HTML report.
     #[arg(long, value_name = "FILE")]
     pub html: Option<PathBuf>,
     /// A caution does not count as acceptable for the exit code.
     #[arg(long)]
     pub strict: bool,
-    /// Print nothing but errors.
-    #[arg(long)]
-    pub quiet: bool,
 }
 
 pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
-    let outputs: Vec<PathBuf> = [&a.report, &a.plot, &a.html].into_iter().flatten().cloned().collect();
+    let CommonArgs { vehicle, json, report: report_json, plot, quiet } = a.common;
+    let outputs: Vec<PathBuf> = [&report_json, &plot, &a.html].into_iter().flatten().cloned().collect();
     let files = skidroute::batch::expand_inputs(&a.routes)?;
-    let inputs: Vec<PathBuf> = files.iter().chain(a.vehicle.iter()).cloned().collect();
+    let inputs: Vec<PathBuf> = files.iter().chain(vehicle.iter()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, &outputs)?;
     let by = match a.by {
         By::Time => RankBy::Time,
@@ -64,7 +58,7 @@ pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
         By::Deviation => RankBy::Deviation,
         By::Drift => RankBy::Drift,
     };
-    let (profile, demo) = load_profile(&a.vehicle)?;
+    let (profile, demo) = load_profile(&vehicle)?;
     let limits = super::limits::LimitArgs::default().resolve()?; // SKIDROUTE_MAX_* from the environment
     let routes = skidroute::batch::load_routes_parallel_with(&files, &profile, &limits)?;
     let run = skidroute::check::check_routes(routes, &profile, demo);
@@ -72,10 +66,10 @@ pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
         RankBy::Drift => skidroute::compare::rank_by_drift(run, &profile, a.seed)?,
         _ => skidroute::compare::rank(run, by)?,
     };
-    if let Some(p) = &a.report {
+    if let Some(p) = &report_json {
         report::write_atomic(p, compare_report::compare_json(&cmp).as_bytes())?;
     }
-    if let Some(p) = &a.plot {
+    if let Some(p) = &plot {
         compare_report::write_compare_plot(&cmp, p)?;
     }
     if let Some(p) = &a.html {
@@ -83,9 +77,9 @@ pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
         let svg = compare_report::compare_plot_svg(&cmp).map_err(fail)?;
         report::write_atomic(p, report::html::report_html(&cmp.run, &svg, Some(&cmp)).as_bytes())?;
     }
-    if a.json {
+    if json {
         emit(&compare_report::compare_json(&cmp))?;
-    } else if !a.quiet {
+    } else if !quiet {
         emit(&compare_report::compare_table(&cmp))?;
     }
     Ok(if cmp.any_acceptable(a.strict) { ExitCode::SUCCESS } else { ExitCode::from(1) })

@@ -12,6 +12,7 @@ use skidroute::report::{self};
 use skidroute::route::Route;
 use skidroute::vehicle::{InverseChoice, Profile};
 
+use super::common::CommonArgs;
 use super::load_profile;
 use super::progress::Bar;
 
@@ -28,9 +29,8 @@ pub enum OdometryArg {
 pub struct DriftArgs {
     /// Route file (.geojson, .json or .csv).
     pub route: PathBuf,
-    /// Vehicle profile (TOML); the built-in demo profile when omitted.
-    #[arg(long)]
-    pub vehicle: Option<PathBuf>,
+    #[command(flatten)]
+    pub common: CommonArgs,
     /// Which route of the file, by its `route` name, when the file holds several.
     #[arg(long = "route", value_name = "NAME")]
     pub route_name: Option<String>,
@@ -46,21 +46,9 @@ pub struct DriftArgs {
     /// Odometry model; default: the profile's follower `inverse_model`.
     #[arg(long, value_enum)]
     pub odometry: Option<OdometryArg>,
-    /// Print the JSON report to stdout instead of the table.
-    #[arg(long)]
-    pub json: bool,
-    /// Write the JSON report to this file.
-    #[arg(long, value_name = "FILE")]
-    pub report: Option<PathBuf>,
-    /// Write a plot (.svg or .png).
-    #[arg(long, value_name = "FILE")]
-    pub plot: Option<PathBuf>,
     /// Write the 95 % ellipses and CEP95 circles as GeoJSON polygons (GeoJSON routes only).
     #[arg(long, value_name = "FILE")]
     pub ellipses: Option<PathBuf>,
-    /// Print nothing but errors, and draw no progress bar.
-    #[arg(long)]
-    pub quiet: bool,
 }
 
 /// The one route of the file, or the one named by `--route`.
@@ -93,13 +81,14 @@ pub fn odometry(arg: Option<OdometryArg>, profile: &Profile) -> Odometry {
 }
 
 pub fn run_drift_command(a: DriftArgs) -> Result<ExitCode> {
-    let outputs = DriftOutputs { report_json: a.report, plot: a.plot, ellipses_geojson: a.ellipses };
-    let inputs: Vec<PathBuf> = std::iter::once(&a.route).chain(a.vehicle.iter()).cloned().collect();
+    let CommonArgs { vehicle, json, report: report_json, plot, quiet } = a.common;
+    let outputs = DriftOutputs { report_json, plot, ellipses_geojson: a.ellipses };
+    let inputs: Vec<PathBuf> = std::iter::once(&a.route).chain(vehicle.iter()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, outputs.paths())?;
     if let Some(p) = &outputs.plot {
         drift_report::check_plot_extension(p)?;
     }
-    let (profile, demo) = load_profile(&a.vehicle)?;
+    let (profile, demo) = load_profile(&vehicle)?;
     let limits = super::limits::LimitArgs::default().resolve()?; // SKIDROUTE_MAX_* from the environment
     let routes = skidroute::check::load_routes_with(std::slice::from_ref(&a.route), &profile, &limits)?;
     let route = pick_route(routes, a.route_name.as_deref(), &a.route)?;
@@ -117,12 +106,12 @@ pub fn run_drift_command(a: DriftArgs) -> Result<ExitCode> {
         odometry: odometry(a.odometry, &profile),
         paths_kept: if outputs.plot.is_some() { DEFAULT_PATHS_KEPT } else { 0 },
     };
-    let bar = Bar::new(a.quiet);
+    let bar = Bar::new(quiet);
     let result = run_drift(&route, &profile, &settings, &bar)?;
     drift_report::write_drift_outputs(&route, &result, demo, &outputs)?;
-    if a.json {
+    if json {
         print!("{}", drift_report::drift_json(&result, demo));
-    } else if !a.quiet {
+    } else if !quiet {
         print!("{}", drift_report::drift_table(&result, demo));
     }
     Ok(ExitCode::SUCCESS)

@@ -4,6 +4,7 @@
 
 pub mod batch;
 pub mod check;
+pub mod common;
 pub mod compare;
 pub mod drift;
 pub mod fit;
