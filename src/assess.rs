@@ -126,6 +126,10 @@ pub struct LegReport {
     pub drift_cep95_m: Option<f64>,
     pub verdict: Verdict,
     pub reasons: Vec<String>,
+    /// The verdict each reason stands for, in the order of `reasons` (a failing leg may also
+    /// carry reasons for a caution).
+    #[serde(skip)]
+    pub reason_verdicts: Vec<Verdict>,
 }
 
 /// The assessment of one route.
@@ -313,6 +317,7 @@ fn assess_leg(route: &Route, drive: &RouteDrive, trace: &Trace, i: usize) -> Leg
         drift_cep95_m: None,
         verdict: Verdict::Pass,
         reasons: Vec::new(),
+        reason_verdicts: Vec::new(),
     };
     judge(&mut leg, &achievable, drive, trace, i);
     judge_effort(&mut leg, &effort, grade_rad, drive, i);
@@ -333,6 +338,7 @@ fn judge_effort(leg: &mut LegReport, e: &LegEffort, grade_rad: f64, drive: &Rout
     let mut add = |v: Verdict, why: String| {
         leg.verdict = leg.verdict.max(v);
         leg.reasons.push(why);
+        leg.reason_verdicts.push(v);
     };
     let climb = ground.rolling_resistance + grade_rad.sin();
     if grade_rad > 0.0 && 0.5 * climb * veh.weight_n() > limit_n {
@@ -382,6 +388,7 @@ fn judge(leg: &mut LegReport, achievable: &Achievable, drive: &RouteDrive, trace
     let mut add = |v: Verdict, why: String| {
         leg.verdict = leg.verdict.max(v);
         leg.reasons.push(why);
+        leg.reason_verdicts.push(v);
     };
     let ach = achievable.curvature_per_m();
     let req = leg.required_curvature_per_m;

@@ -6,15 +6,19 @@ use std::process::ExitCode;
 use anyhow::Result;
 use clap::Args;
 use skidroute::assess::Verdict;
+use skidroute::report::table::TableOptions;
 use skidroute::report::{self, CheckOutputs};
 
 use skidroute::drift::DriftSettings;
 
-use super::common::CommonArgs;
+use super::common::{check_outputs, table_width, CommonArgs};
 use super::progress::Bar;
 use super::{color_wanted, emit, load_profile};
 
 #[derive(Args)]
+#[command(mut_arg("json", |a| {
+    a.help("Print the JSON report to stdout instead of the table (the same as --format json)").conflicts_with("format")
+}))]
 pub struct CheckArgs {
     /// Route files (.geojson, .json or .csv) or folders of them (taken sorted by name).
     #[arg(required = true)]
@@ -27,9 +31,12 @@ pub struct CheckArgs {
     /// Write the predicted path as GeoJSON (GeoJSON routes only).
     #[arg(long, value_name = "FILE")]
     pub predicted: Option<PathBuf>,
-    /// Treat cautions as failures for the exit code.
+    /// Treat cautions as failures for the exit code (the table says so).
     #[arg(long)]
     pub strict: bool,
+    /// Show every column of the table even when the terminal is narrower (pipes always get all).
+    #[arg(long)]
+    pub wide: bool,
     /// Stdout format: the table, the JSON document, or JSON Lines (one route per line).
     #[arg(long, value_enum, default_value = "table")]
     pub format: super::batch::Format,
@@ -62,6 +69,8 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
     let files = skidroute::batch::expand_inputs(&a.routes)?;
     let inputs: Vec<PathBuf> = files.iter().chain(vehicle.iter()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, outputs.paths().chain(a.html.iter()))?;
+    let files_out = [&outputs.report_json, &outputs.trace_csv, &outputs.predicted_geojson, &a.html];
+    check_outputs(outputs.plot.as_ref(), files_out.into_iter().flatten())?;
     let (profile, demo) = load_profile(&vehicle)?;
     let limits = a.limits.resolve()?;
     let routes = skidroute::batch::load_routes_parallel_with(&files, &profile, &limits)?;
@@ -77,13 +86,14 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
         skidroute::check::add_drift(&mut run, &profile, &settings, &Bar::new(quiet || json))?;
     }
     report::write_check_outputs(&run, &outputs)?;
-    super::batch::write_html(&run, a.html.as_deref())?;
-    if a.format == super::batch::Format::Jsonl && !json {
+    super::batch::write_html(&run, a.html.as_deref(), a.strict)?;
+    if a.format == super::batch::Format::Jsonl {
         emit(&report::jsonl::check_jsonl(&run))?;
     } else if json || a.format == super::batch::Format::Json {
         emit(&report::json::check_json(&run))?;
     } else if !quiet {
-        emit(&report::table::check_table(&run, color_wanted()))?;
+        let opts = TableOptions { color: color_wanted(), strict: a.strict, max_width: table_width(a.wide) };
+        emit(&report::table::check_table(&run, &opts))?;
     }
     let failing = match run.verdict() {
         Verdict::Fail => true,

@@ -6,9 +6,10 @@ use std::process::ExitCode;
 use anyhow::Result;
 use clap::{Args, ValueEnum};
 use skidroute::compare::RankBy;
+use skidroute::report::table::TableOptions;
 use skidroute::report::{self, compare_report};
 
-use super::common::CommonArgs;
+use super::common::{check_outputs, table_width, CommonArgs};
 use super::{emit, load_profile};
 
 /// Ranking criterion on the command line.
@@ -41,9 +42,12 @@ pub struct CompareArgs {
     /// Write a self-contained HTML report.
     #[arg(long, value_name = "FILE")]
     pub html: Option<PathBuf>,
-    /// A caution does not count as acceptable for the exit code.
+    /// A caution does not count as acceptable for the exit code (the table says so).
     #[arg(long)]
     pub strict: bool,
+    /// Show every column of the table even when the terminal is narrower (pipes always get all).
+    #[arg(long)]
+    pub wide: bool,
 }
 
 pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
@@ -52,6 +56,7 @@ pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
     let files = skidroute::batch::expand_inputs(&a.routes)?;
     let inputs: Vec<PathBuf> = files.iter().chain(vehicle.iter()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, &outputs)?;
+    check_outputs(plot.as_ref(), [&report_json, &a.html].into_iter().flatten())?;
     let by = match a.by {
         By::Time => RankBy::Time,
         By::Energy => RankBy::Energy,
@@ -75,12 +80,13 @@ pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
     if let Some(p) = &a.html {
         let fail = |what: String| report::ReportError::Output { file: p.clone(), what };
         let svg = compare_report::compare_plot_svg(&cmp).map_err(fail)?;
-        report::write_atomic(p, report::html::report_html(&cmp.run, &svg, Some(&cmp)).as_bytes())?;
+        report::write_atomic(p, report::html::report_html(&cmp.run, &svg, Some(&cmp), a.strict).as_bytes())?;
     }
     if json {
         emit(&compare_report::compare_json(&cmp))?;
     } else if !quiet {
-        emit(&compare_report::compare_table(&cmp))?;
+        let opts = TableOptions { color: false, strict: a.strict, max_width: table_width(a.wide) };
+        emit(&compare_report::compare_table(&cmp, &opts))?;
     }
     Ok(if cmp.any_acceptable(a.strict) { ExitCode::SUCCESS } else { ExitCode::from(1) })
 }

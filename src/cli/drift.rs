@@ -12,7 +12,7 @@ use skidroute::report::{self};
 use skidroute::route::Route;
 use skidroute::vehicle::{InverseChoice, Profile};
 
-use super::common::CommonArgs;
+use super::common::{check_outputs, CommonArgs};
 use super::load_profile;
 use super::progress::Bar;
 
@@ -85,6 +85,7 @@ pub fn run_drift_command(a: DriftArgs) -> Result<ExitCode> {
     let outputs = DriftOutputs { report_json, plot, ellipses_geojson: a.ellipses };
     let inputs: Vec<PathBuf> = std::iter::once(&a.route).chain(vehicle.iter()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, outputs.paths())?;
+    check_outputs(outputs.plot.as_ref(), [&outputs.report_json, &outputs.ellipses_geojson].into_iter().flatten())?;
     if let Some(p) = &outputs.plot {
         drift_report::check_plot_extension(p)?;
     }

@@ -8,7 +8,7 @@ use clap::Args;
 use skidroute::fit::{fit_logs, log::read_log_with, FitSettings};
 use skidroute::report::{self, FitOutputs};
 
-use super::common::CommonArgs;
+use super::common::{check_outputs, CommonArgs};
 use super::load_profile;
 use super::progress::Bar;
 
@@ -48,6 +48,7 @@ pub fn run_fit(a: FitArgs) -> Result<ExitCode> {
         &inputs,
         [&outputs.profile].into_iter().chain(outputs.plot.iter()).chain(report_json.iter()),
     )?;
+    check_outputs(outputs.plot.as_ref(), std::iter::once(&outputs.profile).chain(report_json.iter()))?;
     let (base, demo) = load_profile(&vehicle)?;
     let base_name = match &vehicle {
         Some(p) => p.display().to_string(),

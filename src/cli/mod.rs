@@ -12,6 +12,7 @@ pub mod limits;
 pub mod profile;
 pub mod progress;
 pub mod relax;
+pub mod shell;
 
 use std::io::IsTerminal;
 use std::path::PathBuf;

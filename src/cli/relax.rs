@@ -12,7 +12,7 @@ use skidroute::relax::{relax_route, Change, RelaxSettings, Relaxed, Unrepaired};
 use skidroute::report;
 use skidroute::CAUTION;
 
-use super::common::CommonArgs;
+use super::common::{check_outputs, CommonArgs};
 use super::{emit, load_profile};
 
 /// Said with every relax result.
@@ -98,6 +98,7 @@ pub fn run_relax(a: RelaxArgs) -> Result<ExitCode> {
     }
     let inputs: Vec<PathBuf> = std::iter::once(a.route.clone()).chain(vehicle.iter().cloned()).collect();
     report::refuse_overwriting_inputs(&inputs, std::iter::once(&a.out).chain(&report_json).chain(&plot))?;
+    check_outputs(plot.as_ref(), std::iter::once(&a.out).chain(&report_json))?;
     let (profile, demo) = load_profile(&vehicle)?;
     let text = std::fs::read_to_string(&a.route)
         .map_err(|source| skidroute::route::RouteError::Io { file: a.route.clone(), source })?;
