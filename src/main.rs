@@ -6,7 +6,7 @@ mod cli;
 
 use std::process::ExitCode;
 
-use clap::{Parser, Subcommand};
+use clap::{CommandFactory, Parser, Subcommand};
 
 #[derive(Parser)]
 #[command(name = "skidroute", version, about = "Screen planned routes for skid-steered vehicles on mixed terrain")]
@@ -29,6 +29,10 @@ enum Command {
     Fit(cli::fit::FitArgs),
     /// Print the built-in demo profile, or validate a profile file.
     Profile(cli::profile::ProfileArgs),
+    /// Print a shell completion script (bash, zsh, fish, elvish, powershell).
+    Completions(cli::shell::CompletionsArgs),
+    /// Print the manual page (roff): `skidroute man > skidroute.1`, `skidroute man check`.
+    Man(cli::shell::ManArgs),
 }
 
 fn main() -> ExitCode {
@@ -44,6 +48,8 @@ fn main() -> ExitCode {
         Command::Profile(a) => cli::profile::run_profile(a),
         Command::Compare(a) => cli::compare::run_compare(a),
         Command::Relax(a) => cli::relax::run_relax(a),
+        Command::Completions(a) => cli::shell::run_completions(a, Cli::command()),
+        Command::Man(a) => cli::shell::run_man(a, Cli::command()),
     };
     match result {
         Ok(code) => code,
@@ -51,5 +57,17 @@ fn main() -> ExitCode {
             cli::print_error(&e.to_string());
             ExitCode::from(2)
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// clap's own checks of the flag definitions (clashing names or short flags, bad
+    /// `requires`), which it runs only in builds with debug assertions (`cargo test --bin skidroute`).
+    #[test]
+    fn flag_definitions_are_consistent() {
+        Cli::command().debug_assert();
     }
 }

@@ -108,17 +108,17 @@ fn an_output_that_is_a_directory_fails_cleanly_leaving_nothing_and_the_input_unt
 }
 
 #[test]
-fn an_output_in_a_missing_folder_fails_cleanly_and_earlier_outputs_stay_whole() {
+fn an_output_in_a_missing_folder_fails_before_any_output_is_written() {
     let dir = tempfile::tempdir().expect("tempdir");
     let route = straight_csv(dir.path(), "r.csv", 5, 10.0);
     let report = dir.path().join("report.json");
     let trace = dir.path().join("no-such-folder").join("trace.csv");
     let o = run(bin().args(["check", "--quiet", "--report"]).arg(&report).arg("--trace").arg(&trace).arg(&route));
-    assert_input_error(&o, &trace);
-    // The report written before the failing trace is complete JSON, and nothing partial remains.
-    let json: serde_json::Value = serde_json::from_slice(&std::fs::read(&report).expect("report")).expect("json");
-    assert_eq!(json["format"], "skidroute-check/1");
-    assert_eq!(listing(dir.path()), ["r.csv", "report.json"]);
+    let e = assert_input_error(&o, &trace);
+    assert!(e.contains("folder") && e.contains("does not exist"), "{e}");
+    // Every output path is checked before any is written: the report is not written either.
+    assert!(!report.exists());
+    assert_eq!(listing(dir.path()), ["r.csv"]);
 }
 
 #[test]

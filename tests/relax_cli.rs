@@ -79,3 +79,29 @@ fn relax_refuses_to_overwrite_its_input_or_change_format() {
     assert_eq!(out.status.code(), Some(2));
     assert!(text(&out.stderr).contains("bad.csv"), "{}", text(&out.stderr));
 }
+
+/// The direct route of the example file has two corners far enough apart for a fillet each;
+/// each change reports its own displacement. The first is a sharp 60 deg vertex: r (1/cos(theta/2)
+/// - 1) from the vertex to the arc (plane geometry). The second was already rounded a little
+/// (its old radius), so the plan moves less than from a sharp vertex, and at least what two
+/// concentric-bisector arcs of radius r and r_old are apart, (r - r_old) (1/cos(theta/2) - 1).
+#[test]
+fn each_change_reports_its_own_displacement() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let output = dir.path().join("relaxed.geojson");
+    let out = run(&["relax", "--json", s(&example("store-alternatives.geojson")), "-o", s(&output)]);
+    assert!(matches!(out.status.code(), Some(0 | 1)), "{}", text(&out.stderr));
+    let report: serde_json::Value = serde_json::from_slice(&out.stdout).expect("json");
+    let changes = report["routes"][0]["changes"].as_array().expect("changes");
+    assert_eq!(changes.len(), 2, "{changes:#?}");
+    let field = |c: &serde_json::Value, k: &str| c[k].as_f64().expect(k);
+    let secant_minus_one = |c: &serde_json::Value| 1.0 / (0.5 * field(c, "turn_deg").abs().to_radians()).cos() - 1.0;
+    let (first, second) = (&changes[0], &changes[1]);
+    let sharp = field(first, "new_radius_m") * secant_minus_one(first);
+    assert!((field(first, "max_displacement_m") - sharp).abs() < 0.005, "{first:#?}");
+    let d2 = field(second, "max_displacement_m");
+    let upper = field(second, "new_radius_m") * secant_minus_one(second);
+    let lower = (field(second, "new_radius_m") - field(second, "old_radius_m")) * secant_minus_one(second);
+    assert!(d2 <= upper + 0.005 && d2 >= lower - 0.05, "{d2} outside [{lower}, {upper}]: {second:#?}");
+    assert!((d2 - field(first, "max_displacement_m")).abs() > 1.0, "the second reports its own, not the first's");
+}

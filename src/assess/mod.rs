@@ -99,6 +99,10 @@ pub struct LegReport {
     pub drift_cep95_m: Option<f64>,
     pub verdict: Verdict,
     pub reasons: Vec<String>,
+    /// The verdict each reason stands for, in the order of `reasons` (a failing leg may also
+    /// carry reasons for a caution).
+    #[serde(skip)]
+    pub reason_verdicts: Vec<Verdict>,
 }
 
 /// The assessment of one route.
@@ -333,6 +337,7 @@ pub(crate) fn assess_leg(
         drift_cep95_m: None,
         verdict: Verdict::Pass,
         reasons: Vec::new(),
+        reason_verdicts: Vec::new(),
     };
     judge_turns(&mut leg, &turns, drive);
     judge_motion(&mut leg, drive, trace, i);
@@ -344,10 +349,12 @@ pub(crate) fn assess_leg(
 /// Most failing turns spelled out in the reasons of one leg; the JSON lists them all.
 pub const MAX_TURN_REASONS: usize = 10;
 
-/// Adds a verdict and its reason.
+/// Adds a verdict and its reason; every reason goes through here so that `reason_verdicts`
+/// stays in step with `reasons`.
 fn add(leg: &mut LegReport, v: Verdict, why: String) {
     leg.verdict = leg.verdict.max(v);
     leg.reasons.push(why);
+    leg.reason_verdicts.push(v);
 }
 
 /// The turn rules (docs/method.md, Verdicts): a turn the vehicle cannot drive at the leg's speed

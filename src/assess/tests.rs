@@ -250,3 +250,36 @@ fn the_speed_change_caution_quotes_the_table_s_thrust() {
     assert!(l.reasons.iter().any(|r| r.starts_with(&quoted)), "{quoted} not in {:?}", l.reasons);
     assert_eq!(l.verdict, Verdict::Caution, "{:?}", l.reasons);
 }
+
+#[test]
+fn every_reason_carries_its_own_level_and_a_caution_on_a_failing_leg_is_never_tagged_fail() {
+    // A failing leg (two right-angle corners on deep snow, as above) planned above the top side
+    // speed, which alone earns a caution.
+    let mut p = profile();
+    p.vehicle.max_side_speed_mps = 0.5;
+    let pts = vec![[0.0, 0.0], [20.0, 0.0], [20.0, 20.0], [40.0, 20.0]];
+    let c = check_route(route(vec![leg(pts, "deep-snow", 0.8, 50.0)]), &p);
+    let l = &c.report.legs[0];
+    assert_eq!(l.verdict, Verdict::Fail, "{:?}", l.reasons);
+    assert_eq!(l.reasons.len(), l.reason_verdicts.len(), "one level per reason");
+    let level_of = |needle: &str| {
+        let k =
+            l.reasons.iter().position(|r| r.contains(needle)).unwrap_or_else(|| panic!("{needle}: {:?}", l.reasons));
+        l.reason_verdicts[k]
+    };
+    assert_eq!(level_of("above the top side speed"), Verdict::Caution);
+    assert_eq!(level_of("skidroute relax"), Verdict::Fail);
+    // The leg's verdict is the worst of its reasons' levels.
+    assert_eq!(l.reason_verdicts.iter().copied().max(), Some(l.verdict));
+    // The HTML report tags each reason with its own level.
+    let run = crate::check::CheckRun {
+        vehicle_name: "v".into(),
+        demo_profile: false,
+        routes: vec![c.clone()],
+        terrain_map: None,
+    };
+    let html = crate::report::html::report_html(&run, "<svg></svg>", None, false);
+    let speed_line = html.lines().find(|s| s.contains("above the top side speed")).expect("the caution is listed");
+    assert!(speed_line.contains("(caution): ") && !speed_line.contains("(fail)"), "{speed_line}");
+    assert!(html.lines().any(|s| s.contains("(fail): ") && s.contains("skidroute relax")), "{html}");
+}

@@ -53,9 +53,9 @@ pub fn jsonl_with_bad_files(run: &CheckRun, files: &[std::path::PathBuf], bad: &
 }
 
 /// Writes the self-contained HTML report when a path is given.
-pub fn write_html(run: &CheckRun, path: Option<&Path>) -> Result<()> {
+pub fn write_html(run: &CheckRun, path: Option<&Path>, strict: bool) -> Result<()> {
     let Some(p) = path else { return Ok(()) };
     let svg = report::plot::plot_svg_string(run).map_err(|what| ReportError::Output { file: p.to_path_buf(), what })?;
-    report::write_atomic(p, report::html::report_html(run, &svg, None).as_bytes())?;
+    report::write_atomic(p, report::html::report_html(run, &svg, None, strict).as_bytes())?;
     Ok(())
 }

@@ -6,49 +6,44 @@ use std::process::ExitCode;
 use anyhow::Result;
 use clap::Args;
 use skidroute::assess::Verdict;
+use skidroute::report::table::TableOptions;
 use skidroute::report::{self, CheckOutputs};
 
 use skidroute::drift::DriftSettings;
 
+use super::common::{check_outputs, table_width, CommonArgs};
 use super::progress::Bar;
 use super::{color_wanted, emit, load_profile};
 
 #[derive(Args)]
+#[command(mut_arg("json", |a| {
+    a.help("Print the JSON report to stdout instead of the table (the same as --format json)").conflicts_with("format")
+}))]
 pub struct CheckArgs {
     /// Route files (.geojson, .json or .csv) or folders of them (taken sorted by name); `-` reads
     /// one route file from standard input (GeoJSON when it starts with `{`, CSV otherwise).
     #[arg(required = true)]
     pub routes: Vec<PathBuf>,
-    /// Vehicle profile (TOML); the built-in demo profile when omitted.
-    #[arg(long)]
-    pub vehicle: Option<PathBuf>,
-    /// Print the JSON report to stdout instead of the table.
-    #[arg(long)]
-    pub json: bool,
-    /// Write the JSON report to this file.
-    #[arg(long, value_name = "FILE")]
-    pub report: Option<PathBuf>,
+    #[command(flatten)]
+    pub common: CommonArgs,
     /// Write the simulated trace (CSV, local frame).
     #[arg(long, value_name = "FILE")]
     pub trace: Option<PathBuf>,
     /// Write the predicted path as GeoJSON (GeoJSON routes only).
     #[arg(long, value_name = "FILE")]
     pub predicted: Option<PathBuf>,
-    /// Write a plot (.svg or .png).
-    #[arg(long, value_name = "FILE")]
-    pub plot: Option<PathBuf>,
-    /// Treat cautions as failures for the exit code.
+    /// Treat cautions as failures for the exit code (the table says so).
     #[arg(long)]
     pub strict: bool,
+    /// Show every column of the table even when the terminal is narrower (pipes always get all).
+    #[arg(long)]
+    pub wide: bool,
     /// Stdout format: the table, the JSON document, or JSON Lines (one route per line).
     #[arg(long, value_enum, default_value = "table")]
     pub format: super::batch::Format,
     /// Write a self-contained HTML report (plot inline, per-leg table, reasons, caution).
     #[arg(long, value_name = "FILE")]
     pub html: Option<PathBuf>,
-    /// Print nothing but errors.
-    #[arg(long)]
-    pub quiet: bool,
     /// Also estimate the drift at every leg end if localization is lost (Monte Carlo).
     #[arg(long)]
     pub drift: bool,
@@ -76,14 +71,16 @@ pub struct CheckArgs {
 }
 
 pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
-    let outputs =
-        CheckOutputs { report_json: a.report, trace_csv: a.trace, predicted_geojson: a.predicted, plot: a.plot };
+    let CommonArgs { vehicle, json, report: report_json, plot, quiet } = a.common;
+    let outputs = CheckOutputs { report_json, trace_csv: a.trace, predicted_geojson: a.predicted, plot };
     let files = skidroute::batch::expand_inputs(&a.routes)?;
-    let inputs: Vec<PathBuf> = files.iter().chain(a.vehicle.iter()).chain(a.site.inputs()).cloned().collect();
+    let inputs: Vec<PathBuf> = files.iter().chain(vehicle.iter()).chain(a.site.inputs()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, outputs.paths().chain(a.html.iter()))?;
     let stdout_taken = report::stdout_is_an_output(outputs.paths().chain(a.html.iter()));
+    let files_out = [&outputs.report_json, &outputs.trace_csv, &outputs.predicted_geojson, &a.html];
+    check_outputs(outputs.plot.as_ref(), files_out.into_iter().flatten())?;
     let limits = a.limits.resolve()?;
-    let (profile, demo) = load_profile(&a.vehicle, &limits)?;
+    let (profile, demo) = load_profile(&vehicle, &limits)?;
     let site = a.site.load(&limits)?;
     let (routes, bad_files) = if a.keep_going {
         skidroute::batch::load_routes_keep_going_on_site(&files, &profile, &limits, &site)
@@ -105,21 +102,22 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
             odometry: super::drift::odometry(a.odometry, &profile),
             paths_kept: 0,
         };
-        skidroute::check::add_drift(&mut run, &profile, &settings, &Bar::new(a.quiet || a.json))?;
+        skidroute::check::add_drift(&mut run, &profile, &settings, &Bar::new(quiet || json))?;
     }
     report::write_check_outputs(&run, &outputs)?;
-    super::batch::write_html(&run, a.html.as_deref())?;
+    super::batch::write_html(&run, a.html.as_deref(), a.strict)?;
     for bad in &bad_files {
         super::print_error(&bad.error);
     }
     if stdout_taken {
         // An output named `-` has standard output to itself.
-    } else if a.format == super::batch::Format::Jsonl && !a.json {
+    } else if a.format == super::batch::Format::Jsonl {
         emit(&super::batch::jsonl_with_bad_files(&run, &files, &bad_files))?;
-    } else if a.json || a.format == super::batch::Format::Json {
+    } else if json || a.format == super::batch::Format::Json {
         emit(&report::json::check_json(&run))?;
-    } else if !a.quiet {
-        emit(&report::table::check_table(&run, color_wanted()))?;
+    } else if !quiet {
+        let opts = TableOptions { color: color_wanted(), strict: a.strict, max_width: table_width(a.wide) };
+        emit(&report::table::check_table(&run, &opts))?;
     }
     if !bad_files.is_empty() {
         return Ok(ExitCode::from(2));

@@ -6,8 +6,10 @@ use std::process::ExitCode;
 use anyhow::Result;
 use clap::{Args, ValueEnum};
 use skidroute::compare::RankBy;
+use skidroute::report::table::TableOptions;
 use skidroute::report::{self, compare_report};
 
+use super::common::{check_outputs, table_width, CommonArgs};
 use super::{emit, load_profile};
 
 /// Ranking criterion on the command line.
@@ -20,37 +22,32 @@ pub enum By {
 }
 
 #[derive(Args)]
+#[command(
+    mut_arg("json", |a| a.help("Print the JSON document to stdout instead of the table")),
+    mut_arg("report", |a| a.help("Write the JSON document to this file")),
+    mut_arg("plot", |a| a.help("Write an overlay plot of all alternatives (.svg or .png)")),
+)]
 pub struct CompareArgs {
     /// Route files (or folders of them); every `route` group is one alternative.
     #[arg(required = true)]
     pub routes: Vec<PathBuf>,
-    /// Vehicle profile (TOML); the built-in demo profile when omitted.
-    #[arg(long)]
-    pub vehicle: Option<PathBuf>,
+    #[command(flatten)]
+    pub common: CommonArgs,
     /// Rank alternatives with the same verdict by this (lower is better).
     #[arg(long, value_enum, default_value = "energy")]
     pub by: By,
-    /// Print the JSON document to stdout instead of the table.
-    #[arg(long)]
-    pub json: bool,
     /// Seed of the drift Monte Carlo (with --by drift).
     #[arg(long, default_value_t = 7)]
     pub seed: u64,
-    /// Write the JSON document to this file.
-    #[arg(long, value_name = "FILE")]
-    pub report: Option<PathBuf>,
-    /// Write an overlay plot of all alternatives (.svg or .png).
-    #[arg(long, value_name = "FILE")]
-    pub plot: Option<PathBuf>,
     /// Write a self-contained HTML report.
     #[arg(long, value_name = "FILE")]
     pub html: Option<PathBuf>,
-    /// A caution does not count as acceptable for the exit code.
+    /// A caution does not count as acceptable for the exit code (the table says so).
     #[arg(long)]
     pub strict: bool,
-    /// Print nothing but errors.
+    /// Show every column of the table even when the terminal is narrower (pipes always get all).
     #[arg(long)]
-    pub quiet: bool,
+    pub wide: bool,
     #[command(flatten)]
     pub site: super::site::SiteArgs,
     #[command(flatten)]
@@ -58,10 +55,12 @@ pub struct CompareArgs {
 }
 
 pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
-    let outputs: Vec<PathBuf> = [&a.report, &a.plot, &a.html].into_iter().flatten().cloned().collect();
+    let CommonArgs { vehicle, json, report: report_json, plot, quiet } = a.common;
+    let outputs: Vec<PathBuf> = [&report_json, &plot, &a.html].into_iter().flatten().cloned().collect();
     let files = skidroute::batch::expand_inputs(&a.routes)?;
-    let inputs: Vec<PathBuf> = files.iter().chain(a.vehicle.iter()).chain(a.site.inputs()).cloned().collect();
+    let inputs: Vec<PathBuf> = files.iter().chain(vehicle.iter()).chain(a.site.inputs()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, &outputs)?;
+    check_outputs(plot.as_ref(), [&report_json, &a.html].into_iter().flatten())?;
     let by = match a.by {
         By::Time => RankBy::Time,
         By::Energy => RankBy::Energy,
@@ -69,10 +68,10 @@ pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
         By::Drift => RankBy::Drift,
     };
     let limits = a.limits.resolve()?;
-    let (profile, demo) = load_profile(&a.vehicle, &limits)?;
+    let (profile, demo) = load_profile(&vehicle, &limits)?;
     let site = a.site.load(&limits)?;
     let routes = skidroute::batch::load_routes_parallel_on_site(&files, &profile, &limits, &site)?;
-    super::site::print_warnings(&routes, a.quiet);
+    super::site::print_warnings(&routes, quiet);
     let budget = limits.work_budget();
     skidroute::check::charge_check(&budget, &routes, &profile, &limits, "checking")?;
     if let RankBy::Drift = by {
@@ -85,23 +84,24 @@ pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
         RankBy::Drift => skidroute::compare::rank_by_drift(run, &profile, a.seed)?,
         _ => skidroute::compare::rank(run, by)?,
     };
-    if let Some(p) = &a.report {
+    if let Some(p) = &report_json {
         report::write_atomic(p, compare_report::compare_json(&cmp).as_bytes())?;
     }
-    if let Some(p) = &a.plot {
+    if let Some(p) = &plot {
         compare_report::write_compare_plot(&cmp, p)?;
     }
     if let Some(p) = &a.html {
         let fail = |what: String| report::ReportError::Output { file: p.clone(), what };
         let svg = compare_report::compare_plot_svg(&cmp).map_err(fail)?;
-        report::write_atomic(p, report::html::report_html(&cmp.run, &svg, Some(&cmp)).as_bytes())?;
+        report::write_atomic(p, report::html::report_html(&cmp.run, &svg, Some(&cmp), a.strict).as_bytes())?;
     }
     if report::stdout_is_an_output(&outputs) {
         // An output named `-` has standard output to itself.
-    } else if a.json {
+    } else if json {
         emit(&compare_report::compare_json(&cmp))?;
-    } else if !a.quiet {
-        emit(&compare_report::compare_table(&cmp))?;
+    } else if !quiet {
+        let opts = TableOptions { color: false, strict: a.strict, max_width: table_width(a.wide) };
+        emit(&compare_report::compare_table(&cmp, &opts))?;
     }
     Ok(if cmp.any_acceptable(a.strict) { ExitCode::SUCCESS } else { ExitCode::from(1) })
 }

@@ -12,6 +12,7 @@ use skidroute::report::{self};
 use skidroute::route::Route;
 use skidroute::vehicle::{InverseChoice, Profile};
 
+use super::common::{check_outputs, CommonArgs};
 use super::progress::Bar;
 use super::{emit, load_profile};
 
@@ -28,9 +29,8 @@ pub enum OdometryArg {
 pub struct DriftArgs {
     /// Route file (.geojson, .json or .csv).
     pub route: PathBuf,
-    /// Vehicle profile (TOML); the built-in demo profile when omitted.
-    #[arg(long)]
-    pub vehicle: Option<PathBuf>,
+    #[command(flatten)]
+    pub common: CommonArgs,
     /// Which route of the file, by its `route` name, when the file holds several.
     #[arg(long = "route", value_name = "NAME")]
     pub route_name: Option<String>,
@@ -46,21 +46,9 @@ pub struct DriftArgs {
     /// Odometry model; default: the profile's follower `inverse_model`.
     #[arg(long, value_enum)]
     pub odometry: Option<OdometryArg>,
-    /// Print the JSON report to stdout instead of the table.
-    #[arg(long)]
-    pub json: bool,
-    /// Write the JSON report to this file.
-    #[arg(long, value_name = "FILE")]
-    pub report: Option<PathBuf>,
-    /// Write a plot (.svg or .png).
-    #[arg(long, value_name = "FILE")]
-    pub plot: Option<PathBuf>,
     /// Write the 95 % ellipses and CEP95 circles as GeoJSON polygons (GeoJSON routes only).
     #[arg(long, value_name = "FILE")]
     pub ellipses: Option<PathBuf>,
-    /// Print nothing but errors, and draw no progress bar.
-    #[arg(long)]
-    pub quiet: bool,
     #[command(flatten)]
     pub site: super::site::SiteArgs,
     #[command(flatten)]
@@ -97,21 +85,22 @@ pub fn odometry(arg: Option<OdometryArg>, profile: &Profile) -> Odometry {
 }
 
 pub fn run_drift_command(a: DriftArgs) -> Result<ExitCode> {
-    let mut outputs =
-        DriftOutputs { report_json: a.report, plot: a.plot, ellipses_geojson: a.ellipses, terrain_map: None };
+    let CommonArgs { vehicle, json, report: report_json, plot, quiet } = a.common;
+    let mut outputs = DriftOutputs { report_json, plot, ellipses_geojson: a.ellipses, terrain_map: None };
     let inputs: Vec<PathBuf> =
-        std::iter::once(&a.route).chain(a.vehicle.iter()).chain(a.site.inputs()).cloned().collect();
+        std::iter::once(&a.route).chain(vehicle.iter()).chain(a.site.inputs()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, outputs.paths())?;
+    check_outputs(outputs.plot.as_ref(), [&outputs.report_json, &outputs.ellipses_geojson].into_iter().flatten())?;
     if let Some(p) = &outputs.plot {
         drift_report::check_plot_extension(p)?;
     }
     let limits = a.limits.resolve()?;
-    let (profile, demo) = load_profile(&a.vehicle, &limits)?;
+    let (profile, demo) = load_profile(&vehicle, &limits)?;
     let site = a.site.load(&limits)?;
     let routes = skidroute::check::load_routes_on_site(std::slice::from_ref(&a.route), &profile, &limits, &site)?;
     let route = pick_route(routes, a.route_name.as_deref(), &a.route)?;
     outputs.terrain_map = site.terrain_map.clone();
-    super::site::print_warnings(std::iter::once(&route), a.quiet);
+    super::site::print_warnings(std::iter::once(&route), quiet);
     if outputs.ellipses_geojson.is_some() && route.origin.is_none() {
         bail!(
             "{}: --ellipses needs a GeoJSON route (a CSV route is in a local map frame without a geographic \
@@ -130,14 +119,14 @@ pub fn run_drift_command(a: DriftArgs) -> Result<ExitCode> {
     limits.work_budget().charge_rollouts(skidroute::rollout::step_bound(&route, &profile), a.samples, || {
         format!("{}: {} drift samples of route '{route_name}'", a.route.display(), a.samples)
     })?;
-    let bar = Bar::new(a.quiet);
+    let bar = Bar::new(quiet);
     let result = run_drift(&route, &profile, &settings, &bar)?;
     drift_report::write_drift_outputs(&route, &result, demo, &outputs)?;
     if report::stdout_is_an_output(outputs.paths()) {
         // An output named `-` has standard output to itself.
-    } else if a.json {
+    } else if json {
         emit(&drift_report::drift_json(&result, demo))?;
-    } else if !a.quiet {
+    } else if !quiet {
         emit(&drift_report::drift_table(&result, demo))?;
     }
     Ok(ExitCode::SUCCESS)

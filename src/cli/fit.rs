@@ -9,23 +9,29 @@ use skidroute::fit::{fit_logs, FitSettings};
 use skidroute::recording::{is_recording, read_drive_log, RecordingError, RecordingMap};
 use skidroute::report::{self, FitOutputs};
 
+use super::common::{check_outputs, CommonArgs};
 use super::progress::Bar;
 use super::{emit, load_profile};
 
 #[derive(Args)]
+#[command(
+    mut_arg("vehicle", |a| a.help("Base profile for geometry, limits and traction coefficients; the built-in demo when omitted")),
+    mut_arg("json", |a| a.help("Print the JSON fit report to stdout instead of the table")),
+    mut_arg("report", |a| a.help("Write the JSON fit report to this file")),
+    mut_arg("plot", |a| a.help("Write a plot of the fit (.svg or .png)")),
+)]
 pub struct FitArgs {
     /// Drive logs (CSV: t_s,left_mps,right_mps,x_m,y_m,yaw_rad,terrain; lat_deg,lon_deg may replace x_m,y_m),
     /// or ROS 2 recordings (.mcap) read through --recording-map.
     #[arg(required = true)]
     pub logs: Vec<PathBuf>,
+    #[command(flatten)]
+    pub common: CommonArgs,
     /// Recording map (TOML): which topics of the ROS 2 recordings hold side speeds, poses and terrain.
     #[arg(long, value_name = "MAP")]
     pub recording_map: Option<PathBuf>,
-    /// Base profile for geometry, limits and traction coefficients; the built-in demo when omitted.
-    #[arg(long)]
-    pub vehicle: Option<PathBuf>,
     /// Where to write the calibrated profile (TOML).
-    #[arg(long, value_name = "FILE")]
+    #[arg(short, long, value_name = "FILE")]
     pub out: PathBuf,
     /// Prediction horizon of the identification windows, seconds.
     #[arg(long, default_value_t = 2.0, value_name = "SECONDS")]
@@ -36,22 +42,14 @@ pub struct FitArgs {
     /// Horizon sweep: train and evaluate at each of these horizons (seconds, comma-separated).
     #[arg(long, value_delimiter = ',', value_name = "SECONDS")]
     pub sweep: Vec<f64>,
-    /// Write a plot of the fit (.svg or .png).
-    #[arg(long, value_name = "FILE")]
-    pub plot: Option<PathBuf>,
-    /// Print the JSON report to stdout instead of the table.
-    #[arg(long)]
-    pub json: bool,
-    /// Print nothing but errors, and no progress bar.
-    #[arg(long)]
-    pub quiet: bool,
     #[command(flatten)]
     pub limits: super::limits::LimitArgs,
 }
 
 pub fn run_fit(a: FitArgs) -> Result<ExitCode> {
+    let CommonArgs { vehicle, json, report: report_json, plot, quiet } = a.common;
     let settings = FitSettings::new(a.horizon_s, &a.sweep)?;
-    let outputs = FitOutputs { profile: a.out.clone(), plot: a.plot.clone() };
+    let outputs = FitOutputs { profile: a.out.clone(), plot };
     let limits = a.limits.resolve()?;
     let map = match &a.recording_map {
         Some(p) => Some(RecordingMap::read(p, &limits)?),
@@ -64,28 +62,34 @@ pub fn run_fit(a: FitArgs) -> Result<ExitCode> {
     };
     let map_files = map.as_ref().map(RecordingMap::files).unwrap_or_default();
     let inputs: Vec<PathBuf> =
-        a.logs.iter().chain(&a.validate).chain(a.vehicle.iter()).chain(&map_files).cloned().collect();
-    report::refuse_overwriting_inputs(&inputs, [&outputs.profile].into_iter().chain(outputs.plot.iter()))?;
-    let (base, demo) = load_profile(&a.vehicle, &limits)?;
-    let base_name = match &a.vehicle {
+        a.logs.iter().chain(&a.validate).chain(vehicle.iter()).chain(&map_files).cloned().collect();
+    let output_paths: Vec<&PathBuf> =
+        [&outputs.profile].into_iter().chain(outputs.plot.iter()).chain(report_json.iter()).collect();
+    report::refuse_overwriting_inputs(&inputs, output_paths.iter().copied())?;
+    check_outputs(outputs.plot.as_ref(), std::iter::once(&outputs.profile).chain(report_json.iter()))?;
+    let (base, demo) = load_profile(&vehicle, &limits)?;
+    let base_name = match &vehicle {
         Some(p) => p.display().to_string(),
         None => "built-in demo profile".to_string(),
     };
     // CSV logs and recordings alike; a recording's side speeds from a twist use the profile's track width.
     let read = |p: &PathBuf| {
-        let bar = Bar::new(a.quiet || a.json || !is_recording(p));
+        let bar = Bar::new(quiet || json || !is_recording(p));
         read_drive_log(p, map.as_ref(), base.vehicle.track_width_m, &limits, &bar)
     };
     let logs = a.logs.iter().map(read).collect::<Result<Vec<_>, _>>()?;
     let validation = a.validate.iter().map(read).collect::<Result<Vec<_>, _>>()?;
-    let bar = Bar::new(a.quiet || a.json);
+    let bar = Bar::new(quiet || json);
     let run = fit_logs(&logs, &validation, &base, &base_name, demo, &settings, &bar)?;
     report::write_fit_outputs(&run, &outputs)?;
-    if a.out.as_os_str() == "-" || report::stdout_is_an_output(&a.plot) {
+    if let Some(p) = &report_json {
+        report::write_atomic(p, report::fit_json::fit_json(&run).as_bytes())?;
+    }
+    if report::stdout_is_an_output(output_paths.iter().copied()) {
         // An output named `-` has standard output to itself.
-    } else if a.json {
+    } else if json {
         emit(&report::fit_json::fit_json(&run))?;
-    } else if !a.quiet {
+    } else if !quiet {
         emit(&format!("{}profile written to {}\n", report::fit_table::fit_table(&run), a.out.display()))?;
     }
     Ok(if run.failed() { ExitCode::from(1) } else { ExitCode::SUCCESS })

@@ -4,6 +4,7 @@
 
 pub mod batch;
 pub mod check;
+pub mod common;
 pub mod compare;
 pub mod drift;
 pub mod fit;
@@ -11,6 +12,7 @@ pub mod limits;
 pub mod profile;
 pub mod progress;
 pub mod relax;
+pub mod shell;
 pub mod site;
 
 use std::io::{IsTerminal, Write};

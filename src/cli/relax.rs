@@ -14,6 +14,7 @@ use skidroute::site::split::rejoin_pieces;
 use skidroute::site::{apply_site, Site};
 use skidroute::CAUTION;
 
+use super::common::{check_outputs, CommonArgs};
 use super::{emit, load_profile};
 
 /// Said with every relax result.
@@ -21,21 +22,19 @@ pub const NOT_CHECKED_FOR_OBSTACLES: &str =
     "The new path was not checked for obstacles, slopes or boundaries: review it on the map before use.";
 
 #[derive(Args)]
+#[command(
+    mut_arg("json", |a| a.help("Print the changes as JSON instead of text")),
+    mut_arg("report", |a| a.help("Write the JSON document of the changes to this file")),
+    mut_arg("plot", |a| a.help("Write a plot of the relaxed route as check draws it (.svg or .png)")),
+)]
 pub struct RelaxArgs {
     /// Route file (.geojson, .json or .csv).
     pub route: PathBuf,
     /// Where to write the relaxed route, in the input's format.
-    #[arg(long, value_name = "FILE")]
+    #[arg(short, long, value_name = "FILE")]
     pub out: PathBuf,
-    /// Vehicle profile (TOML); the built-in demo profile when omitted.
-    #[arg(long)]
-    pub vehicle: Option<PathBuf>,
-    /// Print the changes as JSON instead of text.
-    #[arg(long)]
-    pub json: bool,
-    /// Print nothing but errors.
-    #[arg(long)]
-    pub quiet: bool,
+    #[command(flatten)]
+    pub common: CommonArgs,
     #[command(flatten)]
     pub site: super::site::SiteArgs,
     #[command(flatten)]
@@ -96,6 +95,7 @@ fn describe(out: &mut String, name: &str, r: &Relaxed, before: Verdict, after: V
 }
 
 pub fn run_relax(a: RelaxArgs) -> Result<ExitCode> {
+    let CommonArgs { vehicle, json, report: report_json, plot, quiet } = a.common;
     let (Some(fin), Some(fout)) = (family(&a.route), family(&a.out)) else {
         bail!("{}: relax reads and writes .geojson, .json or .csv", a.out.display());
     };
@@ -103,13 +103,15 @@ pub fn run_relax(a: RelaxArgs) -> Result<ExitCode> {
         bail!("{}: the output must be {fin} like the input {}", a.out.display(), a.route.display());
     }
     let inputs: Vec<PathBuf> =
-        std::iter::once(a.route.clone()).chain(a.vehicle.iter().cloned()).chain(a.site.inputs().cloned()).collect();
-    report::refuse_overwriting_inputs(&inputs, [&a.out])?;
+        std::iter::once(a.route.clone()).chain(vehicle.iter().cloned()).chain(a.site.inputs().cloned()).collect();
+    let outputs: Vec<&PathBuf> = std::iter::once(&a.out).chain(&report_json).chain(&plot).collect();
+    report::refuse_overwriting_inputs(&inputs, outputs.iter().copied())?;
+    check_outputs(plot.as_ref(), std::iter::once(&a.out).chain(&report_json))?;
     let limits = a.limits.resolve()?;
-    let (profile, demo) = load_profile(&a.vehicle, &limits)?;
+    let (profile, demo) = load_profile(&vehicle, &limits)?;
     let site = a.site.load(&limits)?;
     let routes = skidroute::check::load_routes_on_site(std::slice::from_ref(&a.route), &profile, &limits, &site)?;
-    super::site::print_warnings(&routes, a.quiet);
+    super::site::print_warnings(&routes, quiet);
     // Read for rewriting only after the reader accepted it (within the size limit, a regular file).
     let text = std::fs::read_to_string(&a.route)
         .map_err(|source| skidroute::route::RouteError::Io { file: a.route.clone(), source })?;
@@ -141,7 +143,8 @@ pub fn run_relax(a: RelaxArgs) -> Result<ExitCode> {
     report::write_atomic(&a.out, written.as_bytes())?;
     skidroute::check::charge_check(&budget, &new_routes, &profile, &limits, "checking the relaxed")?;
     let before = skidroute::check::check_routes_with(routes.clone(), &profile, demo, &limits);
-    let after = skidroute::check::check_routes_with(new_routes, &profile, demo, &limits);
+    let mut after = skidroute::check::check_routes_with(new_routes, &profile, demo, &limits);
+    after.terrain_map = site.terrain_map.clone();
     let results: Vec<RouteResult> = relaxed
         .iter()
         .zip(before.routes.iter().zip(&after.routes))
@@ -155,20 +158,27 @@ pub fn run_relax(a: RelaxArgs) -> Result<ExitCode> {
         })
         .collect();
     let ok = results.iter().all(|r| r.unrepaired.is_empty() && r.verdict_after != Verdict::Fail);
-    if a.out.as_os_str() == "-" {
-        // The relaxed route has standard output to itself.
-    } else if a.json {
-        let doc = RelaxDocument {
-            format: "skidroute-relax/1",
-            input: a.route.display().to_string(),
-            output: a.out.display().to_string(),
-            demo_profile: demo,
-            routes: results,
-            note: NOT_CHECKED_FOR_OBSTACLES,
-            caution: CAUTION,
-        };
-        emit(&format!("{}\n", serde_json::to_string_pretty(&doc)?))?;
-    } else if !a.quiet {
+    if let Some(p) = &plot {
+        report::plot::write_plot(&after, p)?;
+    }
+    let doc = RelaxDocument {
+        format: "skidroute-relax/1",
+        input: a.route.display().to_string(),
+        output: a.out.display().to_string(),
+        demo_profile: demo,
+        routes: results,
+        note: NOT_CHECKED_FOR_OBSTACLES,
+        caution: CAUTION,
+    };
+    let doc_json = format!("{}\n", serde_json::to_string_pretty(&doc)?);
+    if let Some(p) = &report_json {
+        report::write_atomic(p, doc_json.as_bytes())?;
+    }
+    if report::stdout_is_an_output(outputs.iter().copied()) {
+        // An output named `-` has standard output to itself.
+    } else if json {
+        emit(&doc_json)?;
+    } else if !quiet {
         let mut out = String::new();
         if demo {
             let _ = writeln!(
@@ -177,7 +187,7 @@ pub fn run_relax(a: RelaxArgs) -> Result<ExitCode> {
                 profile.vehicle.name
             );
         }
-        for (r, res) in relaxed.iter().zip(&results) {
+        for (r, res) in relaxed.iter().zip(&doc.routes) {
             describe(&mut out, res.route, r, res.verdict_before, res.verdict_after);
         }
         let _ = writeln!(out, "wrote {}", a.out.display());

@@ -1,10 +1,12 @@
 use std::path::PathBuf;
 
+use approx::assert_relative_eq;
 use geo::{Distance, Euclidean, LineString, Point};
 
 use super::*;
-use crate::assess::Verdict;
+use crate::assess::{Verdict, CAUTION_CURVATURE_SHARE};
 use crate::check::check_route;
+use crate::route::plan::dist;
 use crate::route::{Leg, SourcePosition};
 
 fn leg(points: Vec<[f64; 2]>, terrain: &str, speed_mps: f64) -> Leg {
@@ -143,4 +145,61 @@ fn passing_routes_are_left_alone() {
     assert!(relaxed.changes.is_empty() && relaxed.unrepaired.is_empty());
     assert_eq!(relaxed.route, r);
     assert_eq!(relaxed.max_displacement_m, 0.0);
+}
+
+/// Distance from `p` to the polyline `line` (geo's Euclidean point-to-linestring distance).
+fn to_line_m(p: [f64; 2], line: &[[f64; 2]]) -> f64 {
+    let target: LineString<f64> = line.iter().map(|q| (q[0], q[1])).collect();
+    Euclidean.distance(&Point::new(p[0], p[1]), &target)
+}
+
+/// Two corners 100 m apart on deep snow, 60 deg then 30 deg the same way: their fillets do not
+/// overlap, so each gets its own, and each reports its own displacement. The expected value is
+/// plane geometry (see `fillet::tangent_length_m`): a corner of turn theta filleted at radius r
+/// moves the plan by r (1/cos(theta/2) - 1), at the vertex.
+#[test]
+fn corners_far_apart_get_their_own_fillets_and_displacements() {
+    let profile = Profile::demo();
+    let (h1, h2) = (60.0_f64.to_radians(), 90.0_f64.to_radians());
+    let p1 = [50.0, 0.0];
+    let p2 = [p1[0] + 100.0 * h1.cos(), p1[1] + 100.0 * h1.sin()];
+    let p3 = [p2[0] + 50.0 * h2.cos(), p2[1] + 50.0 * h2.sin()];
+    let original = route(vec![leg(vec![[0.0, 0.0], p1, p2, p3], "deep-snow", 1.2)]);
+    let relaxed = relax_route(&original, &profile, &RelaxSettings::default()).expect("relax");
+    assert!(relaxed.unrepaired.is_empty(), "{:?}", relaxed.unrepaired);
+    assert_eq!(relaxed.changes.len(), 2, "{:#?}", relaxed.changes);
+    let new_plan = all_points(&relaxed.route);
+    for (c, turn_deg, vertex) in [(&relaxed.changes[0], 60.0_f64, p1), (&relaxed.changes[1], 30.0, p2)] {
+        assert_relative_eq!(c.turn_deg, turn_deg, epsilon = 1e-9);
+        assert_relative_eq!(c.x_m, vertex[0], epsilon = 1e-9);
+        assert_relative_eq!(c.y_m, vertex[1], epsilon = 1e-9);
+        let expected = c.new_radius_m * (1.0 / (0.5 * turn_deg.to_radians()).cos() - 1.0);
+        assert_relative_eq!(c.max_displacement_m, expected, epsilon = 2e-3);
+        // The vertex is where the plan moved most: its distance to the new plan.
+        assert_relative_eq!(to_line_m(vertex, &new_plan), expected, epsilon = 1e-3);
+    }
+    assert!(relaxed.changes[0].max_displacement_m > 3.0 * relaxed.changes[1].max_displacement_m);
+    // The straight between the fillets is kept: its midpoint is still on the plan.
+    let mid = [0.5 * (p1[0] + p2[0]), 0.5 * (p1[1] + p2[1])];
+    assert!(to_line_m(mid, &new_plan) < 1e-9);
+}
+
+/// Two 45 deg corners 2 m apart turning the same way: the fillets deep snow needs would
+/// overlap on the 2 m side, so they are filleted as one 90 deg corner at the intersection of
+/// the outer sides.
+#[test]
+fn corners_whose_fillets_overlap_are_filleted_as_one() {
+    let profile = Profile::demo();
+    let h = 45.0_f64.to_radians();
+    let p1 = [40.0, 0.0];
+    let p2 = [p1[0] + 2.0 * h.cos(), p1[1] + 2.0 * h.sin()];
+    let p3 = [p2[0], p2[1] + 40.0];
+    let original = route(vec![leg(vec![[0.0, 0.0], p1, p2, p3], "deep-snow", 1.2)]);
+    let relaxed = relax_route(&original, &profile, &RelaxSettings::default()).expect("relax");
+    assert_eq!(relaxed.changes.len(), 1, "{:#?}", relaxed.changes);
+    let c = &relaxed.changes[0];
+    assert_relative_eq!(c.turn_deg, 90.0, epsilon = 1e-9);
+    // The outer sides (y = 0 and x = p2.x) meet at (p2.x, 0).
+    assert_relative_eq!(c.x_m, p2[0], epsilon = 1e-9);
+    assert_relative_eq!(c.y_m, 0.0, epsilon = 1e-9);
 }

@@ -5,12 +5,14 @@
 use std::fmt::Write;
 use std::path::Path;
 
-use comfy_table::{presets, Cell, CellAlignment, ContentArrangement, Table};
+use comfy_table::{Cell, CellAlignment};
 use plotters::coord::Shift;
 use plotters::prelude::*;
 use serde::Serialize;
 
+use super::fitted_table::{fitted_table, Column, ALWAYS};
 use super::plot::terrain_color;
+use super::table::TableOptions;
 use super::ReportError;
 use crate::assess::Verdict;
 use crate::compare::{common_frame, Comparison, FramedRoute, Ranked};
@@ -71,8 +73,25 @@ fn legs_list(legs: &[usize]) -> String {
     }
 }
 
-/// The ranking for a terminal, best first, with the caution.
-pub fn compare_table(c: &Comparison) -> String {
+/// The ranking's columns with their priorities on a narrow terminal (higher stays longer).
+fn ranking_columns() -> Vec<Column<'static, Ranked>> {
+    vec![
+        Column::new("rank", ALWAYS, |r: &Ranked| Cell::new(r.rank)),
+        Column::new("route", ALWAYS, |r: &Ranked| Cell::new(&r.route)).wrap_at(20),
+        Column::new("verdict", ALWAYS, |r: &Ranked| Cell::new(r.verdict.name().to_uppercase())),
+        Column::new("length\nm", 40, |r: &Ranked| num(r.length_m, 0)),
+        Column::new("time\ns", 50, |r: &Ranked| num(r.time_s, 0)),
+        Column::new("energy\nWh", 60, |r: &Ranked| r.energy_wh.map_or_else(|| Cell::new("-"), |e| num(e, 1))),
+        Column::new("max dev.\nm", 55, |r: &Ranked| num(r.max_deviation_m, 2)),
+        Column::new("failing\nlegs", 70, |r: &Ranked| Cell::new(legs_list(&r.failing_legs))),
+        Column::new("drift CEP95\nm", 15, |r: &Ranked| r.drift_cep95_m.map_or_else(|| Cell::new("-"), |d| num(d, 2))),
+        Column::new("source", 20, |r: &Ranked| Cell::new(crate::limits::printable(&r.source))).wrap_at(30),
+    ]
+}
+
+/// The ranking for a terminal, best first, with the caution (see [`TableOptions`]; colour is
+/// not used here).
+pub fn compare_table(c: &Comparison, opts: &TableOptions) -> String {
     let mut out = String::new();
     let profile = if c.run.demo_profile { " (built-in demo profile; pass --vehicle FILE for your own)" } else { "" };
     let _ = writeln!(out, "vehicle: {}{profile}", c.run.vehicle_name);
@@ -80,35 +99,15 @@ pub fn compare_table(c: &Comparison) -> String {
     if c.fell_back_to_time {
         let _ = writeln!(out, "({} is not available for every route; ranked by time instead)", c.by.name());
     }
-    let mut t = Table::new();
-    t.load_style(presets::UTF8_FULL_CONDENSED).set_content_arrangement(ContentArrangement::Disabled);
-    t.set_header(vec![
-        "rank",
-        "route",
-        "verdict",
-        "length\nm",
-        "time\ns",
-        "energy\nWh",
-        "max dev.\nm",
-        "failing\nlegs",
-        "drift CEP95\nm",
-        "source",
-    ]);
-    for r in &c.ranking {
-        t.add_row(vec![
-            Cell::new(r.rank),
-            Cell::new(&r.route),
-            Cell::new(r.verdict.name().to_uppercase()),
-            num(r.length_m, 0),
-            num(r.time_s, 0),
-            r.energy_wh.map_or_else(|| Cell::new("-"), |e| num(e, 1)),
-            num(r.max_deviation_m, 2),
-            Cell::new(legs_list(&r.failing_legs)),
-            r.drift_cep95_m.map_or_else(|| Cell::new("-"), |d| num(d, 2)),
-            Cell::new(crate::limits::printable(&r.source)),
-        ]);
+    if opts.strict {
+        let _ = writeln!(out, "--strict: a CAUTION counts as a failure (exit code 1 unless an alternative passes)");
     }
+    let fitted = fitted_table(&ranking_columns(), &c.ranking, opts.max_width, |_| {});
+    let t = &fitted.table;
     let _ = writeln!(out, "{t}");
+    if !fitted.hidden.is_empty() {
+        let _ = writeln!(out, "  (left out to fit the terminal: {}; --wide shows all)", fitted.hidden_list());
+    }
     for r in &c.ranking {
         if let Some(cr) = c.run.routes.get(r.run_index) {
             for l in cr.report.legs.iter().filter(|l| l.verdict == Verdict::Fail) {
@@ -119,6 +118,9 @@ pub fn compare_table(c: &Comparison) -> String {
         }
     }
     match c.ranking.first() {
+        Some(best) if best.verdict == Verdict::Caution && opts.strict => {
+            let _ = writeln!(out, "no alternative passes under --strict; best: '{}' (caution)", best.route);
+        }
         Some(best) if best.verdict != Verdict::Fail => {
             let _ = writeln!(out, "best: '{}' ({})", best.route, best.verdict.name());
         }

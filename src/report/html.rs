@@ -106,7 +106,11 @@ fn route_section(out: &mut String, r: &RouteReport, warnings: &[String]) {
         .iter()
         .map(|why| format!("route: {}", escape(why)))
         .chain(r.legs.iter().flat_map(|l| {
-            l.reasons.iter().map(move |why| format!("leg {} ({}): {}", l.index, l.verdict.name(), escape(why)))
+            // Each reason is tagged with its own level: a failing leg may also carry cautions.
+            l.reasons.iter().enumerate().map(move |(k, why)| {
+                let level = l.reason_verdicts.get(k).copied().unwrap_or(l.verdict);
+                format!("leg {} ({}): {}", l.index, level.name(), escape(why))
+            })
         }))
         .collect();
     let reasons = reasons.into_iter().chain(warnings.iter().map(|w| format!("warning: {}", escape(w))));
@@ -156,9 +160,35 @@ fn ranking_section(out: &mut String, c: &Comparison) {
     out.push_str("</table>\n");
 }
 
+/// The headline: for a check the worst verdict of all routes; for a comparison the best
+/// alternative's (a comparison fails only when its best route fails). Under `strict` a caution
+/// is said to count as a failure, as it does for the exit code.
+fn headline(run: &CheckRun, comparison: Option<&Comparison>, strict: bool) -> String {
+    let strict_note = |v: Verdict| {
+        if strict && v == Verdict::Caution {
+            " (counts as a failure: --strict)"
+        } else {
+            ""
+        }
+    };
+    match comparison {
+        None => format!("skidroute check: {}{}", verdict_span(run.verdict()), strict_note(run.verdict())),
+        Some(c) => match c.ranking.first() {
+            Some(best) if best.verdict != Verdict::Fail => format!(
+                "skidroute comparison: best '{}' {}{}",
+                escape(&best.route),
+                verdict_span(best.verdict),
+                strict_note(best.verdict)
+            ),
+            _ => format!("skidroute comparison: no alternative passes {}", verdict_span(Verdict::Fail)),
+        },
+    }
+}
+
 /// The HTML document. `plot_svg` is embedded as is (an SVG document from the plot module);
-/// `comparison` adds the ranking table above the routes.
-pub fn report_html(run: &CheckRun, plot_svg: &str, comparison: Option<&Comparison>) -> String {
+/// `comparison` adds the ranking table above the routes; `strict` says that cautions count as
+/// failures (`--strict`), so the headline agrees with the exit code.
+pub fn report_html(run: &CheckRun, plot_svg: &str, comparison: Option<&Comparison>, strict: bool) -> String {
     let mut out = String::new();
     let title = if comparison.is_some() { "skidroute comparison" } else { "skidroute check" };
     let _ = writeln!(
@@ -167,7 +197,7 @@ pub fn report_html(run: &CheckRun, plot_svg: &str, comparison: Option<&Compariso
          <meta name=\"viewport\" content=\"width=device-width, initial-scale=1\"><title>{title}</title>\
          <style>{STYLE}</style></head><body>"
     );
-    let _ = writeln!(out, "<h1>{title}: {}</h1>", verdict_span(run.verdict()));
+    let _ = writeln!(out, "<h1>{}</h1>", headline(run, comparison, strict));
     let profile = if run.demo_profile { " (built-in demo profile: invented coefficients)" } else { "" };
     let _ = writeln!(out, "<p>vehicle: {}{profile}</p>", escape(&run.vehicle_name));
     let _ = writeln!(out, "<div class=\"caution-box\"><b>Caution.</b> {}</div>", escape(CAUTION));
@@ -196,7 +226,7 @@ mod tests {
     fn escapes_markup_and_builds_a_document_without_external_resources() {
         assert_eq!(escape("<a href=\"x\">&'"), "&lt;a href=&quot;x&quot;&gt;&amp;&#39;");
         let run = CheckRun { vehicle_name: "v<1>".into(), demo_profile: true, routes: vec![], terrain_map: None };
-        let html = report_html(&run, "<?xml version=\"1.0\"?>\n<svg></svg>", None);
+        let html = report_html(&run, "<?xml version=\"1.0\"?>\n<svg></svg>", None, false);
         assert!(html.starts_with("<!DOCTYPE html>"));
         assert!(html.contains("<figure><svg></svg></figure>"));
         assert!(html.contains("v&lt;1&gt;"));

@@ -10,11 +10,13 @@ pub mod drift_report;
 pub mod fit_json;
 pub mod fit_plot;
 pub mod fit_table;
+pub(crate) mod fitted_table;
 pub mod html;
 pub mod json;
 pub mod jsonl;
 pub mod plot;
 pub mod predicted;
+mod preflight;
 pub mod relaxed;
 pub mod table;
 pub mod trace_csv;
@@ -22,6 +24,7 @@ pub mod trace_csv;
 use std::path::{Path, PathBuf};
 
 pub use atomic::{output_target, remove_partial_outputs, write_atomic, write_atomic_with, OutputTarget};
+pub use preflight::{check_output_path, check_plot_path};
 
 /// An output could not be produced or written.
 #[derive(Debug, thiserror::Error)]

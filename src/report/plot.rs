@@ -157,6 +157,9 @@ pub(crate) fn write_figure(fig: &impl Figure, path: &Path) -> Result<(), ReportE
     match ext.as_str() {
         "svg" => super::write_atomic(path, svg_string(fig).map_err(fail)?.as_bytes()),
         "png" => super::write_atomic_with(path, |tmp| {
+            // Created here first, so a folder that cannot be written to fails as a plain I/O
+            // error (the encoder would report it as a nested debug dump).
+            std::fs::File::create(tmp)?;
             let root = BitMapBackend::new(tmp, fig.size_px()).into_drawing_area();
             fig.draw(&root).map_err(|e| std::io::Error::other(e.to_string()))?;
             root.present().map_err(|e| std::io::Error::other(e.to_string()))

@@ -3,7 +3,9 @@
 
 use std::fmt::Write;
 
-use comfy_table::{presets, Cell, CellAlignment, Color, ContentArrangement, Table};
+use comfy_table::{Cell, CellAlignment, Color};
+
+use super::fitted_table::{fitted_table, Column, Fitted, ALWAYS};
 
 use crate::assess::{LegReport, RouteReport, Verdict};
 use crate::check::CheckRun;
@@ -32,6 +34,25 @@ fn opt_num(x: Option<f64>, decimals: usize, none: &str) -> Cell {
     }
 }
 
+/// How a terminal table is drawn.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct TableOptions {
+    /// ANSI colour on verdicts (callers pass false off a terminal or with `NO_COLOR`).
+    pub color: bool,
+    /// Cautions count as failures (`--strict`); the table says so.
+    pub strict: bool,
+    /// Fit the per-leg table to this many characters by leaving out low-priority columns (then
+    /// wrapping); `None` shows every column (pipes, files, `--wide`).
+    pub max_width: Option<usize>,
+}
+
+fn leg_label(l: &LegReport) -> String {
+    match &l.name {
+        Some(n) => format!("{} {}", l.index, n),
+        None => l.index.to_string(),
+    }
+}
+
 /// The traction the leg needs next to what its terrain gives, "0.41/0.25" (docs/method.md,
 /// Verdicts: margins).
 fn traction_cell(l: &LegReport) -> Cell {
@@ -39,70 +60,43 @@ fn traction_cell(l: &LegReport) -> Cell {
         .set_alignment(CellAlignment::Right)
 }
 
-fn leg_row(l: &LegReport, color: bool) -> Vec<Cell> {
-    let label = match &l.name {
-        Some(n) => format!("{} {}", l.index, n),
-        None => l.index.to_string(),
-    };
-    vec![
-        Cell::new(label),
-        Cell::new(&l.terrain),
-        num(l.length_m, 1),
-        num(l.speed_mps, 1),
-        opt_num(l.min_planned_radius_m, 1, "straight"),
-        num(l.required_curvature_per_m, 3),
-        opt_num(l.achievable_curvature_per_m, 3, "pivot"),
-        num(l.max_deviation_m, 2),
-        num(l.rms_deviation_m, 2),
-        num(l.corridor_m, 2),
-        num(l.time_s, 0),
-        num(l.energy_wh, 1),
-        num(l.peak_side_thrust_n, 0),
-        traction_cell(l),
-        opt_num(l.max_passing_speed_mps, 2, "none"),
-        opt_num(l.drift_cep95_m, 1, "-"),
-        verdict_cell(l.verdict, color),
-    ]
+/// The per-leg columns in display order, each with its priority on a narrow terminal (higher
+/// stays longer): label, terrain and verdict always; then the deviation, the margins (the highest
+/// speed that passes, the traction needed against what the terrain gives: each readable on its
+/// own), the curvature the plan needs against what the vehicle achieves, and the corridor; time,
+/// energy and thrust go first. A new column slots in with its own priority.
+fn leg_columns(with_drift: bool, color: bool) -> Vec<Column<'static, LegReport>> {
+    let mut cols = vec![
+        Column::new("leg", ALWAYS, |l: &LegReport| Cell::new(leg_label(l))).wrap_at(20),
+        Column::new("terrain", ALWAYS, |l: &LegReport| Cell::new(&l.terrain)),
+        Column::new("length\nm", 40, |l: &LegReport| num(l.length_m, 1)),
+        Column::new("speed\nm/s", 60, |l: &LegReport| num(l.speed_mps, 1)),
+        Column::new("tightest\nradius m", 50, |l: &LegReport| opt_num(l.min_planned_radius_m, 1, "straight")),
+        Column::new("required\ncurv. 1/m", 80, |l: &LegReport| num(l.required_curvature_per_m, 3)),
+        Column::new("achievable\ncurv. 1/m", 80, |l: &LegReport| opt_num(l.achievable_curvature_per_m, 3, "pivot")),
+        Column::new("max dev.\nm", 90, |l: &LegReport| num(l.max_deviation_m, 2)),
+        Column::new("RMS dev.\nm", 20, |l: &LegReport| num(l.rms_deviation_m, 2)),
+        Column::new("corridor\nm", 70, |l: &LegReport| num(l.corridor_m, 2)),
+        Column::new("time\ns", 30, |l: &LegReport| num(l.time_s, 0)),
+        Column::new("energy\nWh", 25, |l: &LegReport| num(l.energy_wh, 1)),
+        Column::new("peak\nthrust N", 10, |l: &LegReport| num(l.peak_side_thrust_n, 0)),
+        Column::new("traction\nneeds/has", 82, traction_cell),
+        Column::new("passes up\nto m/s", 85, |l: &LegReport| opt_num(l.max_passing_speed_mps, 2, "none")),
+    ];
+    if with_drift {
+        cols.push(Column::new("drift\nCEP95 m", 65, |l: &LegReport| opt_num(l.drift_cep95_m, 1, "-")));
+    }
+    cols.push(Column::new("verdict", ALWAYS, move |l: &LegReport| verdict_cell(l.verdict, color)));
+    cols
 }
 
-fn route_table(r: &RouteReport, color: bool) -> Table {
-    let mut t = Table::new();
-    t.load_style(presets::UTF8_FULL_CONDENSED).set_content_arrangement(ContentArrangement::Disabled);
-    let mut header = vec![
-        "leg",
-        "terrain",
-        "length\nm",
-        "speed\nm/s",
-        "tightest\nradius m",
-        "required\ncurv. 1/m",
-        "achievable\ncurv. 1/m",
-        "max dev.\nm",
-        "RMS dev.\nm",
-        "corridor\nm",
-        "time\ns",
-        "energy\nWh",
-        "peak\nthrust N",
-        "traction\nneeds/has",
-        "passes up\nto m/s",
-        "drift\nCEP95 m",
-        "verdict",
-    ];
-    if r.drift.is_none() {
-        header.remove(header.len() - 2);
-    }
-    t.set_header(header);
-    if color {
-        t.enforce_styling();
-    }
-    let with_drift = r.drift.is_some();
-    for l in &r.legs {
-        let mut row = leg_row(l, color);
-        if !with_drift {
-            row.remove(row.len() - 2);
+fn route_table(r: &RouteReport, opts: &TableOptions) -> Fitted {
+    let color = opts.color;
+    fitted_table(&leg_columns(r.drift.is_some(), color), &r.legs, opts.max_width, |t| {
+        if color {
+            t.enforce_styling();
         }
-        t.add_row(row);
-    }
-    t
+    })
 }
 
 fn duration(t_s: f64) -> String {
@@ -114,16 +108,22 @@ fn duration(t_s: f64) -> String {
     }
 }
 
-/// Renders the whole check run for a terminal. `color` adds ANSI colour to verdicts (callers
-/// pass false when output is not a terminal or `NO_COLOR` is set).
-pub fn check_table(run: &CheckRun, color: bool) -> String {
+/// Renders the whole check run for a terminal (see [`TableOptions`]).
+pub fn check_table(run: &CheckRun, opts: &TableOptions) -> String {
     let mut out = String::new();
     let profile = if run.demo_profile { " (built-in demo profile; pass --vehicle FILE for your own)" } else { "" };
     let _ = writeln!(out, "vehicle: {}{profile}", run.vehicle_name);
+    if opts.strict {
+        let _ = writeln!(out, "--strict: a CAUTION counts as a failure (exit code 1)");
+    }
     for cr in &run.routes {
         let r = &cr.report;
         let _ = writeln!(out, "\nroute '{}' from {}", r.route, crate::limits::printable(&r.source));
-        let _ = writeln!(out, "{}", route_table(r, color));
+        let fitted = route_table(r, opts);
+        let _ = writeln!(out, "{}", fitted.table);
+        if !fitted.hidden.is_empty() {
+            let _ = writeln!(out, "  (left out to fit the terminal: {}; --wide shows all)", fitted.hidden_list());
+        }
         for l in r.legs.iter().filter(|l| !l.reasons.is_empty()) {
             for why in &l.reasons {
                 let _ = writeln!(out, "  leg {}: {why}", l.index);
@@ -158,6 +158,9 @@ pub fn check_table(run: &CheckRun, color: bool) -> String {
             if r.completed { "" } else { ", did not reach the end" },
             r.verdict.name().to_uppercase()
         );
+        if opts.strict && r.verdict == Verdict::Caution {
+            let _ = writeln!(out, "  (a failure under --strict)");
+        }
     }
     let _ = writeln!(out, "\ncaution: {CAUTION}");
     out
