@@ -127,7 +127,9 @@ fn html_report_renders_headless() {
     let out = run(&["check", "--quiet", "--html", s(&html), s(&example("supply-run.geojson"))]);
     assert_eq!(out.status.code(), Some(1), "{}", text(&out.stderr));
     let page = std::fs::read_to_string(&html).expect("html written");
-    assert!(page.contains("<svg") && page.contains("Caution.") && page.contains("through the snowbank to the weather mast"));
+    assert!(
+        page.contains("<svg") && page.contains("Caution.") && page.contains("through the snowbank to the weather mast")
+    );
     assert!(!page.contains("<script") && !page.contains("<link") && !page.contains("src=\"http"));
     if !chromium.exists() {
         eprintln!("skipping the headless render: /usr/bin/chromium is not installed (apt-get install chromium)");

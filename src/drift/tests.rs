@@ -34,6 +34,7 @@ fn terrain(model: Model, covariance: Option<Vec<Vec<f64>>>, noise: [f64; 3]) -> 
         noise_heading_rad_per_sqrt_m: noise[0],
         noise_along_m_per_sqrt_m: noise[1],
         noise_cross_m_per_sqrt_m: noise[2],
+        calibration: None,
     }
 }
 

@@ -10,11 +10,16 @@ use std::path::Path;
 
 use toml::{Table, Value};
 
-use super::{FollowerSpec, InverseChoice, Profile, RunningGear, TerrainSpec, VehicleError, VehicleSpec};
+use super::{
+    FollowerSpec, ImuSpec, InverseChoice, Profile, RunningGear, TerrainCalibration, TerrainSpec, VehicleError,
+    VehicleSpec,
+};
 use crate::kinematics::{ExtendedScheduled, Family, Model, MotionModel, ScheduleRow};
 use crate::limits::clip;
 
-const TOP_KEYS: &[&str] = &["vehicle", "follower", "terrain"];
+const TOP_KEYS: &[&str] = &["vehicle", "follower", "terrain", "imu"];
+
+const IMU_KEYS: &[&str] = &["gyro_bias_sd_deg_per_h", "gyro_arw_deg_per_sqrt_h"];
 
 const VEHICLE_KEYS: &[&str] = &[
     "name",
@@ -45,6 +50,10 @@ const TERRAIN_COMMON_KEYS: &[&str] = &[
     "noise_heading_rad_per_sqrt_m",
     "noise_along_m_per_sqrt_m",
     "noise_cross_m_per_sqrt_m",
+    "calibrated",
+    "calibration_source",
+    "calibration_translation_error",
+    "calibration_horizon_s",
 ];
 
 /// Relative tolerance for covariance symmetry.
@@ -65,7 +74,11 @@ pub fn parse_profile(path: &Path, text: &str) -> Result<Profile, VehicleError> {
     let vehicle = parse_vehicle(&root.table("vehicle")?)?;
     let follower = parse_follower(&root.table("follower")?)?;
     let terrain = parse_terrains(&root.table("terrain")?, vehicle.track_width_m)?;
-    Ok(Profile { vehicle, follower, terrain })
+    let imu = match root.table.get("imu") {
+        None => None,
+        Some(_) => Some(parse_imu(&root.table("imu")?)?),
+    };
+    Ok(Profile { vehicle, follower, terrain, imu })
 }
 
 /// A TOML syntax error with the 1-based line and column of the span the parser reports.
@@ -374,7 +387,39 @@ fn parse_terrain(s: &Section, track_width_m: f64) -> Result<TerrainSpec, Vehicle
         noise_heading_rad_per_sqrt_m: noise(s, "noise_heading_rad_per_sqrt_m")?,
         noise_along_m_per_sqrt_m: noise(s, "noise_along_m_per_sqrt_m")?,
         noise_cross_m_per_sqrt_m: noise(s, "noise_cross_m_per_sqrt_m")?,
+        calibration: parse_calibration(s)?,
     })
+}
+
+/// `[imu]`: both keys required, each >= 0.
+fn parse_imu(s: &Section) -> Result<ImuSpec, VehicleError> {
+    s.check_keys(IMU_KEYS, None)?;
+    Ok(ImuSpec {
+        gyro_bias_sd_deg_per_h: s.number("gyro_bias_sd_deg_per_h", Rule::NonNegative)?,
+        gyro_arw_deg_per_sqrt_h: s.number("gyro_arw_deg_per_sqrt_h", Rule::NonNegative)?,
+    })
+}
+
+/// The optional `calibrat*` keys `fit` writes; `None` when the terrain has none of them.
+fn parse_calibration(s: &Section) -> Result<Option<TerrainCalibration>, VehicleError> {
+    let keys = ["calibrated", "calibration_source", "calibration_translation_error", "calibration_horizon_s"];
+    if keys.iter().all(|k| !s.table.contains_key(*k)) {
+        return Ok(None);
+    }
+    let calibrated = match s.table.get("calibrated") {
+        None => false,
+        Some(_) => s.boolean("calibrated")?,
+    };
+    let source = match s.table.get("calibration_source") {
+        None => None,
+        Some(_) => Some(s.string("calibration_source")?.to_string()),
+    };
+    Ok(Some(TerrainCalibration {
+        calibrated,
+        source,
+        translation_error: s.optional_number("calibration_translation_error", Rule::NonNegative)?,
+        horizon_s: s.optional_number("calibration_horizon_s", Rule::Positive)?,
+    }))
 }
 
 fn noise(s: &Section, key: &str) -> Result<f64, VehicleError> {
@@ -776,6 +821,42 @@ lateral_resistance_max = 0.35
         // `mass_kg` is on line 7 of the base text (which starts with a newline).
         assert!(message.starts_with("line 7, column "), "{message}");
         assert!(e.to_string().starts_with("test.toml: not valid TOML: line 7"), "{e}");
+    }
+
+    #[test]
+    fn imu_section_is_optional_and_checked() {
+        assert_eq!(parse(BASE).expect("base").imu, None);
+        let with = |body: &str| format!("{BASE}\n[imu]\n{body}\n");
+        let p = parse(&with("gyro_bias_sd_deg_per_h = 10\ngyro_arw_deg_per_sqrt_h = 0.3")).expect("imu");
+        let imu = p.imu.expect("imu present");
+        assert_relative_eq!(imu.gyro_bias_sd_deg_per_h, 10.0);
+        assert_relative_eq!(imu.gyro_arw_deg_per_sqrt_h, 0.3);
+        let e = error_of(&with("gyro_bias_sd_deg_per_h = 10"));
+        assert!(e.contains("imu.gyro_arw_deg_per_sqrt_h: missing required key"), "{e}");
+        let e = error_of(&with("gyro_bias_sd_deg_per_h = -1\ngyro_arw_deg_per_sqrt_h = 0.3"));
+        assert!(e.contains("imu.gyro_bias_sd_deg_per_h: must be a number >= 0, got -1"), "{e}");
+        let e = error_of(&with("gyro_bias_sd_deg_per_hr = 1\ngyro_arw_deg_per_sqrt_h = 0.3"));
+        assert!(e.contains("imu.gyro_bias_sd_deg_per_hr: unknown key (did you mean gyro_bias_sd_deg_per_h?)"), "{e}");
+    }
+
+    #[test]
+    fn calibration_keys_are_optional_and_checked() {
+        let with =
+            |extra: &str| replaced("lateral_resistance_max = 0.35", &format!("lateral_resistance_max = 0.35\n{extra}"));
+        assert_eq!(parse(BASE).expect("base").terrain["packed-snow"].calibration, None);
+        let p = parse(&with(
+            "calibrated = true\ncalibration_source = \"fit of a.csv\"\ncalibration_translation_error = 0.043\ncalibration_horizon_s = 2.0",
+        ))
+        .expect("calibrated");
+        let c = p.terrain["packed-snow"].calibration.clone().expect("calibration");
+        assert!(c.calibrated);
+        assert_eq!(c.source.as_deref(), Some("fit of a.csv"));
+        assert_eq!(c.translation_error, Some(0.043));
+        assert_eq!(c.horizon_s, Some(2.0));
+        let e = error_of(&with("calibration_translation_error = -0.1"));
+        assert!(e.contains("calibration_translation_error: must be a number >= 0"), "{e}");
+        let e = error_of(&with("calibrated = \"yes\""));
+        assert!(e.contains("terrain.packed-snow.calibrated: must be true or false"), "{e}");
     }
 
     #[test]
