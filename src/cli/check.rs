@@ -64,6 +64,9 @@ pub struct CheckArgs {
     /// Odometry model for --drift; default: the profile's follower `inverse_model`.
     #[arg(long, value_enum, requires = "drift")]
     pub odometry: Option<super::drift::OdometryArg>,
+    /// Heading source for --drift; default: the gyro when the profile has an [imu] section.
+    #[arg(long, value_enum, requires = "drift")]
+    pub heading: Option<super::drift::HeadingArg>,
     #[command(flatten)]
     pub limits: super::limits::LimitArgs,
 }
@@ -84,6 +87,7 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
             seed: a.seed,
             lost_from_leg: a.lost_from_leg as usize,
             odometry: super::drift::odometry(a.odometry, &profile),
+            heading: super::drift::heading(a.heading, &profile),
             paths_kept: 0,
         };
         skidroute::check::add_drift(&mut run, &profile, &settings, &Bar::new(a.quiet || a.json))?;

@@ -36,6 +36,12 @@ pub struct CompareArgs {
     /// Seed of the drift Monte Carlo (with --by drift).
     #[arg(long, default_value_t = 7)]
     pub seed: u64,
+    /// Odometry model of the drift (with --by drift); default: the profile's follower `inverse_model`.
+    #[arg(long, value_enum)]
+    pub odometry: Option<super::drift::OdometryArg>,
+    /// Heading source of the drift (with --by drift); default: the gyro when the profile has an [imu] section.
+    #[arg(long, value_enum)]
+    pub heading: Option<super::drift::HeadingArg>,
     /// Write the JSON document to this file.
     #[arg(long, value_name = "FILE")]
     pub report: Option<PathBuf>,
@@ -69,7 +75,13 @@ pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
     let routes = skidroute::batch::load_routes_parallel_with(&files, &profile, &limits)?;
     let run = skidroute::check::check_routes(routes, &profile, demo);
     let cmp = match by {
-        RankBy::Drift => skidroute::compare::rank_by_drift(run, &profile, a.seed)?,
+        RankBy::Drift => skidroute::compare::rank_by_drift_with(
+            run,
+            &profile,
+            a.seed,
+            super::drift::odometry(a.odometry, &profile),
+            super::drift::heading(a.heading, &profile),
+        )?,
         _ => skidroute::compare::rank(run, by)?,
     };
     if let Some(p) = &a.report {

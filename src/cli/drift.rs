@@ -6,11 +6,11 @@ use std::process::ExitCode;
 
 use anyhow::{bail, Result};
 use clap::{Args, ValueEnum};
-use skidroute::drift::{run_drift, DriftSettings, Odometry, DEFAULT_PATHS_KEPT, MAX_SAMPLES};
+use skidroute::drift::{run_drift, DriftSettings, HeadingSource, Odometry, DEFAULT_PATHS_KEPT, MAX_SAMPLES};
 use skidroute::report::drift_report::{self, DriftOutputs};
 use skidroute::report::{self};
 use skidroute::route::Route;
-use skidroute::vehicle::{InverseChoice, Profile};
+use skidroute::vehicle::Profile;
 
 use super::load_profile;
 use super::progress::Bar;
@@ -22,6 +22,15 @@ pub enum OdometryArg {
     Ideal,
     /// The profile's calibrated model of each terrain.
     Calibrated,
+}
+
+/// Where the believed heading comes from while localization is lost.
+#[derive(Clone, Copy, Debug, ValueEnum)]
+pub enum HeadingArg {
+    /// The odometry model's yaw rate.
+    Odometry,
+    /// The gyro of the profile's [imu] section.
+    Gyro,
 }
 
 #[derive(Args)]
@@ -46,6 +55,9 @@ pub struct DriftArgs {
     /// Odometry model; default: the profile's follower `inverse_model`.
     #[arg(long, value_enum)]
     pub odometry: Option<OdometryArg>,
+    /// Heading source; default: the gyro when the profile has an [imu] section, else odometry.
+    #[arg(long, value_enum)]
+    pub heading: Option<HeadingArg>,
     /// Print the JSON report to stdout instead of the table.
     #[arg(long)]
     pub json: bool,
@@ -81,14 +93,21 @@ fn pick_route(mut routes: Vec<Route>, name: Option<&str>, file: &std::path::Path
     }
 }
 
+/// The odometry from the flag, or the profile's default (the same for every command).
 pub fn odometry(arg: Option<OdometryArg>, profile: &Profile) -> Odometry {
     match arg {
         Some(OdometryArg::Ideal) => Odometry::Ideal,
         Some(OdometryArg::Calibrated) => Odometry::Calibrated,
-        None => match profile.follower.inverse_model {
-            InverseChoice::Ideal => Odometry::Ideal,
-            InverseChoice::Calibrated => Odometry::Calibrated,
-        },
+        None => skidroute::drift::default_odometry(profile),
+    }
+}
+
+/// The heading source from the flag, or the profile's default (the same for every command).
+pub fn heading(arg: Option<HeadingArg>, profile: &Profile) -> HeadingSource {
+    match arg {
+        Some(HeadingArg::Odometry) => HeadingSource::Odometry,
+        Some(HeadingArg::Gyro) => HeadingSource::Gyro,
+        None => skidroute::drift::default_heading(profile),
     }
 }
 
@@ -115,6 +134,7 @@ pub fn run_drift_command(a: DriftArgs) -> Result<ExitCode> {
         seed: a.seed,
         lost_from_leg: usize::try_from(a.lost_from_leg)?,
         odometry: odometry(a.odometry, &profile),
+        heading: heading(a.heading, &profile),
         paths_kept: if outputs.plot.is_some() { DEFAULT_PATHS_KEPT } else { 0 },
     };
     let bar = Bar::new(a.quiet);

@@ -5,7 +5,7 @@ use std::process::ExitCode;
 
 use anyhow::Result;
 use clap::Args;
-use skidroute::fit::{fit_logs, log::read_log_with, FitSettings};
+use skidroute::fit::{fit_logs, FitSettings};
 use skidroute::report::{self, FitOutputs};
 
 use super::load_profile;
@@ -28,6 +28,9 @@ pub struct FitArgs {
     /// Validate on these logs instead of held-out time blocks of the training logs.
     #[arg(long, value_name = "LOG")]
     pub validate: Vec<PathBuf>,
+    /// Name of the calibrated profile (default: the base profile's name with " (calibrated)").
+    #[arg(long, value_name = "NAME")]
+    pub name: Option<String>,
     /// Horizon sweep: train and evaluate at each of these horizons (seconds, comma-separated).
     #[arg(long, value_delimiter = ',', value_name = "SECONDS")]
     pub sweep: Vec<f64>,
@@ -43,7 +46,10 @@ pub struct FitArgs {
 }
 
 pub fn run_fit(a: FitArgs) -> Result<ExitCode> {
-    let settings = FitSettings::new(a.horizon_s, &a.sweep)?;
+    let mut settings = FitSettings::new(a.horizon_s, &a.sweep)?;
+    if let Some(name) = &a.name {
+        settings = settings.with_profile_name(name)?;
+    }
     let outputs = FitOutputs { profile: a.out.clone(), plot: a.plot.clone() };
     let inputs: Vec<PathBuf> = a.logs.iter().chain(&a.validate).chain(a.vehicle.iter()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, [&outputs.profile].into_iter().chain(outputs.plot.iter()))?;
@@ -54,8 +60,8 @@ pub fn run_fit(a: FitArgs) -> Result<ExitCode> {
     };
     // Limits from the environment (SKIDROUTE_MAX_FILE_MIB, SKIDROUTE_MAX_TOTAL_POINTS).
     let limits = super::limits::LimitArgs::default().resolve()?;
-    let logs = a.logs.iter().map(|p| read_log_with(p, &limits)).collect::<Result<Vec<_>, _>>()?;
-    let validation = a.validate.iter().map(|p| read_log_with(p, &limits)).collect::<Result<Vec<_>, _>>()?;
+    let logs = super::logs::load_drive_logs(&a.logs, &limits)?;
+    let validation = super::logs::load_drive_logs(&a.validate, &limits)?;
     let bar = Bar::new(a.quiet || a.json);
     let run = fit_logs(&logs, &validation, &base, &base_name, demo, &settings, &bar)?;
     report::write_fit_outputs(&run, &outputs)?;
@@ -63,7 +69,7 @@ pub fn run_fit(a: FitArgs) -> Result<ExitCode> {
         print!("{}", report::fit_json::fit_json(&run));
     } else if !a.quiet {
         print!("{}", report::fit_table::fit_table(&run));
-        println!("profile written to {}", a.out.display());
+        println!("profile '{}' written to {}", run.profile.vehicle.name, a.out.display());
     }
     Ok(if run.failed() { ExitCode::from(1) } else { ExitCode::SUCCESS })
 }

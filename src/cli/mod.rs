@@ -8,9 +8,11 @@ pub mod compare;
 pub mod drift;
 pub mod fit;
 pub mod limits;
+pub mod logs;
 pub mod profile;
 pub mod progress;
 pub mod relax;
+pub mod replay;
 
 use std::io::IsTerminal;
 use std::path::PathBuf;

@@ -92,12 +92,15 @@ fn route_section(out: &mut String, r: &RouteReport) {
         let _ = writeln!(
             out,
             "<p>drift: 95 % radial error at each leg end if localization is lost from leg {}, {} Monte Carlo \
-             samples, seed {}, {} odometry.</p>",
+             samples, seed {}, {}.</p>",
             d.lost_from_leg,
             d.samples,
             d.seed,
-            escape(d.odometry)
+            escape(&d.sources)
         );
+        for w in &d.warnings {
+            let _ = writeln!(out, "<p>drift warning: {}</p>", escape(w));
+        }
     } else {
         out.push_str("<p>drift not computed (check --drift adds it).</p>\n");
     }

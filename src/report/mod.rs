@@ -16,6 +16,8 @@ pub mod jsonl;
 pub mod plot;
 pub mod predicted;
 pub mod relaxed;
+pub mod replay_plot;
+pub mod replay_report;
 pub mod table;
 pub mod trace_csv;
 
