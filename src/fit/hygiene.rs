@@ -107,7 +107,8 @@ pub fn check_log(log: &DriveLog) -> Result<(DriveLog, LogCheck), FitError> {
     if let Some(h) = &held {
         notes.push(format!(
             "side speeds repeat on {:.0} % of moving rows and change every {:.2} s (log period {:.3} s): the \
-             encoders update slower than the log; each update was spread back over the {} rows it was held for",
+             encoders update slower than the log; each new value was spread back over the rows before it since the \
+             previous change ({} rows resampled)",
             100.0 * h.repeated_fraction,
             h.update_period_s,
             log.period_s,

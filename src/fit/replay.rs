@@ -72,6 +72,9 @@ pub struct TerrainReplay {
     /// Replayed paths of every other window (those do not overlap), from their logged start poses.
     #[serde(skip)]
     pub replayed_paths: Vec<Vec<[f64; 2]>>,
+    /// Every window's logged and replayed end, for the plot.
+    #[serde(skip)]
+    pub end_points: Vec<WindowError>,
 }
 
 /// The result of a replay.
@@ -209,6 +212,7 @@ fn replay_terrain(s: &Series, model: &Model, horizon_s: f64, calibration_error: 
         warnings,
         logged_paths: logged_paths(s),
         replayed_paths,
+        end_points: errors,
     }
 }
 

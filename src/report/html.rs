@@ -124,7 +124,8 @@ fn route_section(out: &mut String, r: &RouteReport) {
 fn ranking_section(out: &mut String, c: &Comparison) {
     let on = if c.fell_back_to_time { "time" } else { c.by.name() };
     let seed = c.seed.map_or(String::new(), |s| {
-        format!("; drift: CEP95 at the route end if localization is lost at the start, seed {s}")
+        let sources = c.drift_sources.as_deref().map_or(String::new(), |d| format!(", {}", escape(d)));
+        format!("; drift: CEP95 at the route end if localization is lost at the start, seed {s}{sources}")
     });
     let _ = writeln!(out, "<h2>ranking (verdict first, then {on})</h2>");
     if !seed.is_empty() {
