@@ -372,7 +372,14 @@ pub fn fit_logs(
         base.terrain_names().into_iter().filter(|n| !fitted.contains(n)).map(String::from).collect();
     let mut profile = base.clone();
     profile.vehicle.name = calibrated_name(&base.vehicle.name, settings.profile_name.as_deref());
-    let files: Vec<&str> = inputs.iter().map(|i| i.file.as_str()).collect();
+    // The logs each terrain came from.
+    let files_of = |terrain: &str| -> Vec<String> {
+        logs.iter()
+            .chain(&validation_logs)
+            .filter(|l| l.terrains.iter().any(|n| n == terrain))
+            .map(|l| l.source.display().to_string())
+            .collect()
+    };
     for t in &terrains {
         let Some(spec) = profile.terrain.get_mut(&t.terrain) else { continue };
         let (TerrainOutcome::Fitted { noise, .. }, Some(f)) = (&t.outcome, t.chosen()) else {
@@ -396,7 +403,7 @@ pub fn fit_logs(
             source: Some(format!(
                 "{} fitted by skidroute fit on {}: {} training and {} validation windows of {} s",
                 f.family,
-                files.join(", "),
+                files_of(&t.terrain).join(", "),
                 t.training_windows,
                 t.validation_windows,
                 settings.horizon_s
@@ -486,7 +493,7 @@ fn data_problem(train: usize, validation: usize, turning: usize, horizon_s: f64)
     }
     if validation == 0 {
         return Some(
-            "no validation windows: the logs are too short to hold out a time block; drive longer or give --validate"
+            "no validation windows: the logs are too short to hold out a block of moving time; drive longer or give --validate"
                 .to_string(),
         );
     }
