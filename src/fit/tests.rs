@@ -10,6 +10,9 @@ use super::testdata::{noisy_log, Manoeuvres, Noise};
 use super::windows::{build_series, cut_windows};
 use crate::kinematics::Family;
 
+/// Per seed, per parameter: within one standard error with the sandwich and with the naive covariance.
+type Hits = (Vec<bool>, Vec<bool>);
+
 /// Seeds of the coverage test and its band (see the test).
 const COVERAGE_SEEDS: u64 = 200;
 
@@ -17,7 +20,7 @@ const COVERAGE_SEEDS: u64 = 200;
 /// truth: with the sandwich covariance the fit reports, and with the naive s^2 (J^T J)^-1.
 fn one_se_hits(par: &Parametrisation, truth: &[f64], noise: Noise, seeds: u64) -> (Vec<usize>, Vec<usize>) {
     let m = Manoeuvres::mixed_at(300.0, 0.05);
-    let per_seed: Vec<(Vec<bool>, Vec<bool>)> = (0..seeds)
+    let per_seed: Vec<Hits> = (0..seeds)
         .into_par_iter()
         .map(|seed| {
             let s = build_series(&[noisy_log(par, truth, &m, noise, 1000 + seed)], &[]).remove(0);
@@ -33,7 +36,7 @@ fn one_se_hits(par: &Parametrisation, truth: &[f64], noise: Noise, seeds: u64) -
             (within(&cov), within(&naive))
         })
         .collect();
-    let count = |pick: fn(&(Vec<bool>, Vec<bool>)) -> &Vec<bool>| {
+    let count = |pick: fn(&Hits) -> &Vec<bool>| {
         (0..truth.len()).map(|i| per_seed.iter().filter(|r| pick(r)[i]).count()).collect()
     };
     (count(|r| &r.0), count(|r| &r.1))
