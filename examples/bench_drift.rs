@@ -2,11 +2,11 @@
 //! arcs, plan points every metre, four terrains of the demo profile) at the demo's 20 Hz
 //! control rate, with 1 and 2 rayon threads.
 //!
-//! Run with `cargo run --release --example bench_drift [SAMPLES]`.
+//! Run with `cargo run --release --example bench_drift [SAMPLES] [gyro]`.
 
 use std::time::Instant;
 
-use skidroute::drift::{run_drift, DriftSettings, Odometry};
+use skidroute::drift::{run_drift, DriftSettings, HeadingSource, Odometry};
 use skidroute::progress::NoProgress;
 use skidroute::route::{Leg, Route, SourcePosition};
 use skidroute::vehicle::Profile;
@@ -48,7 +48,14 @@ fn main() {
     let samples: usize = std::env::args().nth(1).and_then(|s| s.parse().ok()).unwrap_or(2000);
     let route = synthetic_route();
     let profile = Profile::demo();
-    let settings = DriftSettings { samples, seed: 7, lost_from_leg: 1, odometry: Odometry::Calibrated, paths_kept: 50 };
+    // Heading from odometry: the same work as before the gyro existed (the demo profile's [imu]
+    // would make the gyro the default); pass `gyro` as the second argument to time that.
+    let heading = match std::env::args().nth(2).as_deref() {
+        Some("gyro") => HeadingSource::Gyro,
+        _ => HeadingSource::Odometry,
+    };
+    let settings =
+        DriftSettings { samples, seed: 7, lost_from_leg: 1, odometry: Odometry::Calibrated, heading, paths_kept: 50 };
     println!(
         "drift benchmark: {samples} samples, {:.0} m route, {} legs, {:.0} Hz control",
         route

@@ -1,6 +1,8 @@
 //! Writes the example drive logs into a folder: eight minutes at 50 Hz on each of asphalt,
 //! grass and packed-snow, driven by an invented vehicle whose behaviour no model family
-//! captures exactly (see `common/truth.rs`). Deterministic: the same output every run.
+//! captures exactly (see `common/truth.rs`), and in `defective/` a five-minute grass log with the
+//! defects of real logs (4 Hz encoders in a 20 Hz log, pose dropouts, irregular time steps, a
+//! minute of standing, CR LF line endings). Deterministic: the same output every run.
 //!
 //! `cargo run --release --example gen_logs -- example-logs/`
 
@@ -26,5 +28,16 @@ fn main() -> std::io::Result<()> {
         std::fs::write(&path, truth::csv(&rows, terrain.name, true))?;
         println!("{}: {} rows on {}", path.display(), rows.len(), terrain.name);
     }
+    // Five minutes on grass at 100 Hz with a minute of standing after the first two, then thinned
+    // to about 20 Hz with the defects.
+    let mut programme = truth::programme(240.0, 14);
+    programme.insert(programme.len() / 2, (0.0, 0.0, 60.0));
+    let rows = truth::drive_at(&truth::GRASS, &programme, Pose::new(0.0, 0.0, 0.0), 0.0, 14, 100.0);
+    let dropouts = [(40.0, 2.0), (95.0, 1.5), (200.0, 0.8)];
+    let defective = dir.join("defective");
+    std::fs::create_dir_all(&defective)?;
+    let path = defective.join("meadow-grass-20hz-defects.csv");
+    std::fs::write(&path, truth::defective_csv(&rows, truth::GRASS.name, &dropouts, 14))?;
+    println!("{}: defective grass log", path.display());
     Ok(())
 }

@@ -217,7 +217,10 @@ pub fn add_drift(
             samples: settings.samples,
             seed: settings.seed,
             odometry: settings.odometry.name(),
+            heading: settings.heading.name(),
+            sources: drift.sources,
             lost_from_leg: settings.lost_from_leg,
+            warnings: drift.warnings,
         });
     }
     progress.finish();

@@ -92,6 +92,10 @@ pub struct Comparison {
     pub fell_back_to_time: bool,
     /// Seed of the drift Monte Carlo, when ranked by drift.
     pub seed: Option<u64>,
+    /// The drift's odometry and heading source in words, when ranked by drift.
+    pub drift_sources: Option<String>,
+    /// What the drift figures leave out, when ranked by drift (one line per terrain, deduplicated).
+    pub warnings: Vec<String>,
     pub ranking: Vec<Ranked>,
 }
 
@@ -119,25 +123,48 @@ fn criterion(r: &RouteReport, by: RankBy, drift_cep95_m: Option<f64>) -> Option<
 pub const DRIFT_RANKING_SAMPLES: usize = 500;
 
 /// Ranks by drift: for every alternative, the CEP95 at its last leg end when localization is
-/// lost at its start (docs/method.md, Drift, calibrated odometry, [`DRIFT_RANKING_SAMPLES`] samples with
-/// the given `seed`, so the ranking is reproducible).
+/// lost at its start (docs/method.md, Drift, [`DRIFT_RANKING_SAMPLES`] samples with the given
+/// `seed`, so the ranking is reproducible), with the profile's default odometry and heading
+/// source, the same as `drift` and `check --drift` ([`crate::drift::DriftSettings::for_profile`]).
 pub fn rank_by_drift(run: CheckRun, profile: &crate::vehicle::Profile, seed: u64) -> Result<Comparison, crate::Error> {
+    let defaults = crate::drift::DriftSettings::for_profile(profile);
+    rank_by_drift_with(run, profile, seed, defaults.odometry, defaults.heading)
+}
+
+/// [`rank_by_drift`] with the odometry and heading source given.
+pub fn rank_by_drift_with(
+    run: CheckRun,
+    profile: &crate::vehicle::Profile,
+    seed: u64,
+    odometry: crate::drift::Odometry,
+    heading: crate::drift::HeadingSource,
+) -> Result<Comparison, crate::Error> {
     let settings = crate::drift::DriftSettings {
         samples: DRIFT_RANKING_SAMPLES,
         seed,
         paths_kept: 0,
+        odometry,
+        heading,
         ..crate::drift::DriftSettings::default()
     };
+    let mut warnings: Vec<String> = Vec::new();
     let drift = run
         .routes
         .iter()
         .map(|cr| {
             let report = crate::drift::run_drift(&cr.route, profile, &settings, &crate::progress::NoProgress)?;
+            for w in &report.warnings {
+                if !warnings.contains(w) {
+                    warnings.push(w.clone());
+                }
+            }
             Ok(report.legs.last().and_then(|l| l.cep95_m()))
         })
         .collect::<Result<Vec<_>, crate::drift::DriftError>>()?;
     let mut cmp = rank_on(run, RankBy::Drift, &drift)?;
     cmp.seed = Some(seed);
+    cmp.drift_sources = Some(crate::drift::sources_text(odometry, heading, profile.imu.as_ref()));
+    cmp.warnings = warnings;
     Ok(cmp)
 }
 
@@ -200,7 +227,7 @@ fn rank_on(run: CheckRun, by: RankBy, drift: &[Option<f64>]) -> Result<Compariso
             }
         })
         .collect();
-    Ok(Comparison { run, by, fell_back_to_time, seed: None, ranking })
+    Ok(Comparison { run, by, fell_back_to_time, seed: None, drift_sources: None, warnings: Vec::new(), ranking })
 }
 
 /// Plan and predicted path of one route in the common frame of a comparison, metres.

@@ -27,6 +27,8 @@ enum Command {
     Drift(cli::drift::DriftArgs),
     /// Calibrate per-terrain motion models from drive logs and write a profile.
     Fit(cli::fit::FitArgs),
+    /// Score a profile on new drive logs without refitting: does the calibration still hold?
+    Replay(cli::replay::ReplayArgs),
     /// Print the built-in demo profile, or validate a profile file.
     Profile(cli::profile::ProfileArgs),
     /// Print a shell completion script (bash, zsh, fish, elvish, powershell).
@@ -45,6 +47,7 @@ fn main() -> ExitCode {
         Command::Check(a) => cli::check::run_check(a),
         Command::Drift(a) => cli::drift::run_drift_command(a),
         Command::Fit(a) => cli::fit::run_fit(a),
+        Command::Replay(a) => cli::replay::run_replay(a),
         Command::Profile(a) => cli::profile::run_profile(a),
         Command::Compare(a) => cli::compare::run_compare(a),
         Command::Relax(a) => cli::relax::run_relax(a),

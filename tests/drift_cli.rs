@@ -134,3 +134,62 @@ fn bad_input_exits_with_code_2_and_a_clear_message() {
     }
     assert!(!dir.path().join("e.geojson").exists() && !dir.path().join("p.pdf").exists());
 }
+
+#[test]
+fn heading_source_defaults_to_the_gyro_and_every_table_says_which() {
+    // The demo profile has an [imu]: drift, check --drift and compare --by drift all default to
+    // the gyro heading and the profile's inverse_model (ideal) odometry, and say so.
+    let dir = tempfile::tempdir().expect("tempdir");
+    let route = example("supply-run.geojson");
+    let route = route.to_str().expect("path");
+    let o = drift(dir.path(), &[route, "--samples", "6", "--json"], "2");
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).expect("json");
+    assert_eq!((v["odometry"].as_str(), v["heading"].as_str()), (Some("ideal"), Some("gyro")));
+    // supply-run crosses deep snow, which has no covariance in the demo: named, not hidden.
+    let warnings = v["warnings"].as_array().expect("warnings");
+    assert!(warnings.iter().any(|w| w.as_str().unwrap_or("").starts_with("terrain 'deep-snow' has no covariance")));
+    let o = drift(dir.path(), &[route, "--samples", "6", "--heading", "odometry"], "2");
+    let table = String::from_utf8_lossy(&o.stdout);
+    assert!(table.contains("dead reckoning: ideal odometry, heading from odometry"), "{table}");
+    assert!(table.contains("warning: terrain 'deep-snow'"), "{table}");
+    let check = Command::new(env!("CARGO_BIN_EXE_skidroute"))
+        .args(["check", route, "--drift", "--samples", "6"])
+        .output()
+        .expect("run");
+    let table = String::from_utf8_lossy(&check.stdout);
+    assert!(table.contains("ideal odometry, heading from the gyro (bias sd 10 deg/h"), "{table}");
+    let alternatives = example("store-alternatives.geojson");
+    let cmp = Command::new(env!("CARGO_BIN_EXE_skidroute"))
+        .args(["compare", alternatives.to_str().expect("path"), "--by", "drift", "--heading", "odometry"])
+        .output()
+        .expect("run");
+    let table = String::from_utf8_lossy(&cmp.stdout);
+    assert!(
+        table.contains("drift: CEP95 at the route end") && table.contains("ideal odometry, heading from odometry"),
+        "{table}"
+    );
+}
+
+#[test]
+fn gyro_heading_needs_an_imu_section() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let mut p = skidroute::vehicle::Profile::demo();
+    p.imu = None;
+    let profile = dir.path().join("no-imu.toml");
+    std::fs::write(&profile, skidroute::vehicle::profile_to_toml(&p, "")).expect("write");
+    let route = example("yard-lap.csv");
+    let args = [route.to_str().expect("path"), "--vehicle", profile.to_str().expect("path"), "--samples", "3"];
+    let o = drift(dir.path(), &args, "2");
+    assert_eq!(o.status.code(), Some(0), "without --heading the default is odometry: {}", stderr(&o));
+    assert!(String::from_utf8_lossy(&o.stdout).contains("heading from odometry"));
+    let mut gyro = args.to_vec();
+    gyro.extend(["--heading", "gyro"]);
+    let o = drift(dir.path(), &gyro, "2");
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        stderr(&o).contains("[imu] section with gyro_bias_sd_deg_per_h and gyro_arw_deg_per_sqrt_h"),
+        "{}",
+        stderr(&o)
+    );
+}

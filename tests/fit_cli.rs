@@ -119,8 +119,12 @@ fn too_little_data_exits_1_and_keeps_the_base_entry() {
     assert!(out.contains("NOT FITTED: too little data"), "{out}");
     let fitted = skidroute::vehicle::Profile::read(&dir.path().join("out.toml")).unwrap();
     let demo = skidroute::vehicle::Profile::demo();
-    assert_eq!(fitted.terrain["gravel"], demo.terrain["gravel"], "gravel must keep the base entry");
-    assert_ne!(fitted.terrain["grass"], demo.terrain["grass"], "grass must be fitted");
+    let mut gravel = fitted.terrain["gravel"].clone();
+    let mark = gravel.calibration.take().expect("gravel is marked");
+    assert_eq!(gravel, demo.terrain["gravel"], "gravel must keep the base entry");
+    assert!(!mark.calibrated);
+    assert!(mark.source.is_some_and(|s| s.starts_with("not fitted: too little data")));
+    assert_ne!(fitted.terrain["grass"].model, demo.terrain["grass"].model, "grass must be fitted");
 }
 
 #[test]
@@ -131,4 +135,69 @@ fn an_output_naming_an_input_is_refused() {
     let o = run(dir.path(), &["fit", "grass.csv", "--out", "grass.csv"]);
     assert_eq!(o.status.code(), Some(2));
     assert_eq!(std::fs::read(dir.path().join("grass.csv")).unwrap(), before);
+}
+
+#[test]
+fn the_fitted_profile_says_what_it_is() {
+    let dir = tempfile::tempdir().unwrap();
+    write(dir.path(), "grass.csv", &format!("{HEADER}{}", rows("grass", 0.0, 240.0, 7)));
+    let o = run(dir.path(), &["fit", "grass.csv", "--out", "a.toml", "--quiet"]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o).1);
+    let a = skidroute::vehicle::Profile::read(&dir.path().join("a.toml")).unwrap();
+    assert_eq!(a.vehicle.name, "Tarnwick demo carrier (calibrated)");
+    let grass = a.terrain["grass"].calibration.clone().expect("grass calibration");
+    assert!(grass.calibrated);
+    assert!(grass.source.as_deref().is_some_and(|s| s.contains("fitted by skidroute fit on grass.csv")), "{grass:?}");
+    assert!(grass.translation_error.is_some_and(|e| e > 0.0 && e < 0.2), "{grass:?}");
+    assert_eq!(grass.horizon_s, Some(2.0));
+    let gravel = a.terrain["gravel"].calibration.clone().expect("gravel is marked");
+    assert!(!gravel.calibrated);
+    assert!(gravel.source.is_some_and(|s| s.starts_with("not fitted: no drive-log data on this terrain")));
+    let o = run(dir.path(), &["fit", "grass.csv", "--out", "b.toml", "--name", "Quarry carrier, June", "--quiet"]);
+    assert_eq!(o.status.code(), Some(0));
+    let b = skidroute::vehicle::Profile::read(&dir.path().join("b.toml")).unwrap();
+    assert_eq!(b.vehicle.name, "Quarry carrier, June");
+    let o = run(dir.path(), &["fit", "grass.csv", "--out", "c.toml", "--name", " "]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(text(&o).1.contains("--name must not be empty"));
+}
+
+#[test]
+fn validate_logs_leave_the_training_logs_whole() {
+    let dir = tempfile::tempdir().unwrap();
+    write(dir.path(), "train.csv", &format!("{HEADER}{}", rows("grass", 0.0, 240.0, 8)));
+    write(dir.path(), "check.csv", &format!("{HEADER}{}", rows("grass", 0.0, 120.0, 9)));
+    let o = run(dir.path(), &["fit", "train.csv", "--validate", "check.csv", "--out", "v.toml", "--json"]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o).1);
+    let doc: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let t = &doc["terrains"][0];
+    // 240 s at 25 Hz = 6000 training samples, none held out.
+    assert_eq!(t["training_samples"], 6000, "{t}");
+    assert_eq!(t["samples"], 9000);
+    assert!(doc["holdout"].as_str().unwrap().contains("training logs are used whole"));
+}
+
+#[test]
+fn logs_with_real_defects_are_checked_and_dead_encoders_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let log = Path::new(env!("CARGO_MANIFEST_DIR")).join("example-logs/defective/meadow-grass-20hz-defects.csv");
+    let o = run(dir.path(), &["fit", log.to_str().unwrap(), "--out", "d.toml"]);
+    let (out, err) = text(&o);
+    assert!(matches!(o.status.code(), Some(0 | 1)), "{out}{err}");
+    assert!(out.contains("encoders update slower than the log"), "{out}");
+    assert!(out.contains("rows without a pose"), "{out}");
+    assert!(out.contains("time steps are irregular"), "{out}");
+    assert!(out.contains("s moving ("), "{out}");
+    // Side speeds of 0 while the poses drive 48 m: dead or unmapped encoders, exit 2.
+    let dead: String =
+        (0..1200).map(|i| format!("{:.2},0,0,{:.3},0,0,grass\n", 0.04 * i as f64, 0.04 * i as f64)).collect();
+    write(dir.path(), "dead.csv", &format!("{HEADER}{dead}"));
+    let o = run(dir.path(), &["fit", "dead.csv", "--out", "x.toml"]);
+    assert_eq!(o.status.code(), Some(2));
+    let err = text(&o).1;
+    assert!(
+        err.contains("dead.csv: the poses move") && err.contains("columns left_mps and right_mps stay near zero"),
+        "{err}"
+    );
+    assert!(!dir.path().join("x.toml").exists());
 }

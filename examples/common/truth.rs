@@ -129,11 +129,23 @@ pub fn drive(
     dropout_s: f64,
     seed: u64,
 ) -> Vec<Row> {
+    drive_at(terrain, programme, start, dropout_s, seed, RATE_HZ)
+}
+
+/// [`drive`] logging at `rate_hz` (the pose latency stays two samples).
+pub fn drive_at(
+    terrain: &TruthTerrain,
+    programme: &[(f64, f64, f64)],
+    start: Pose,
+    dropout_s: f64,
+    seed: u64,
+    rate_hz: f64,
+) -> Vec<Row> {
     let mut rng = ChaCha8Rng::seed_from_u64(seed ^ 0x5eed);
     let encoder = Normal::new(0.0, 0.02).expect("valid sd");
     let position = Normal::new(0.0, 0.015).expect("valid sd");
     let heading = Normal::new(0.0, 0.3f64.to_radians()).expect("valid sd");
-    let dt = 1.0 / RATE_HZ;
+    let dt = 1.0 / rate_hz;
     let h = dt / SUBSTEPS as f64;
     let (mut left, mut right) = (0.0f64, 0.0f64);
     let mut pose = start;
@@ -150,7 +162,7 @@ pub fn drive(
             cl /= over;
             cr /= over;
         }
-        for _ in 0..(dur * RATE_HZ).round() as usize {
+        for _ in 0..(dur * rate_hz).round() as usize {
             let t_s = k as f64 * dt;
             if !(t_s >= dropout.0 && t_s < dropout.1) {
                 let seen = history[0];
@@ -205,6 +217,49 @@ pub fn csv(rows: &[Row], terrain: &str, header: bool) -> String {
             wrap(r.pose.yaw_rad),
             terrain
         ));
+    }
+    s
+}
+
+/// A log with the defects of real logs, from rows logged at 100 Hz: rows picked every 0.05 s
+/// but 0.03 s or 0.07 s apart on two rows in five (irregular time steps around 20 Hz); side
+/// speeds from encoders that difference their counts at 4 Hz and hold the value in between;
+/// poses held at the last value through each of `pose_dropouts_s` (start s, duration s), as a
+/// logger sampling a silent localization topic writes them; CR LF line endings.
+pub fn defective_csv(rows: &[Row], terrain: &str, pose_dropouts_s: &[(f64, f64)], seed: u64) -> String {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    let mut s = String::from("t_s,left_mps,right_mps,x_m,y_m,yaw_rad,terrain\r\n");
+    let (mut k, mut last_update, mut held) = (0usize, 0usize, (0.0, 0.0));
+    let mut pose = rows.first().map_or(Pose::default(), |r| r.pose);
+    // 100 Hz rows: an encoder update every 25 rows (4 Hz).
+    let update_every = 25;
+    while k < rows.len() {
+        let r = &rows[k];
+        if k == 0 || k >= last_update + update_every {
+            let span = if k == 0 { &rows[..1] } else { &rows[last_update..k] };
+            let n = span.len() as f64;
+            held =
+                (span.iter().map(|x| x.left_mps).sum::<f64>() / n, span.iter().map(|x| x.right_mps).sum::<f64>() / n);
+            last_update = k;
+        }
+        if !pose_dropouts_s.iter().any(|(a, d)| r.t_s >= *a && r.t_s < a + d) {
+            pose = r.pose;
+        }
+        s.push_str(&format!(
+            "{:.2},{:.4},{:.4},{:.4},{:.4},{:.5},{}\r\n",
+            r.t_s,
+            held.0,
+            held.1,
+            pose.x_m,
+            pose.y_m,
+            wrap(pose.yaw_rad),
+            terrain
+        ));
+        k += match rng.random_range(0..5) {
+            0 => 3,
+            1 => 7,
+            _ => 5,
+        };
     }
     s
 }

@@ -134,7 +134,13 @@ pub struct DriftNote {
     pub samples: usize,
     pub seed: u64,
     pub odometry: &'static str,
+    /// Where the believed heading comes from: "odometry" or "gyro".
+    pub heading: &'static str,
+    /// The odometry and heading source in words.
+    pub sources: String,
     pub lost_from_leg: usize,
+    /// What the drift figures leave out (terrains without covariance or noise intensities).
+    pub warnings: Vec<String>,
 }
 
 /// Battery reserve below which a route earns a caution.

@@ -16,9 +16,17 @@ use super::progress::Bar;
 use super::{color_wanted, emit, load_profile};
 
 #[derive(Args)]
-#[command(mut_arg("json", |a| {
-    a.help("Print the JSON report to stdout instead of the table (the same as --format json)").conflicts_with("format")
-}))]
+#[command(
+    mut_arg("json", |a| {
+        a.help("Print the JSON report to stdout instead of the table (the same as --format json)").conflicts_with("format")
+    }),
+    mut_arg("odometry", |a| {
+        a.requires("drift").help("Odometry model for --drift; default: the profile's follower `inverse_model`")
+    }),
+    mut_arg("heading", |a| {
+        a.requires("drift").help("Heading source for --drift; default: the gyro when the profile has an [imu] section")
+    }),
+)]
 pub struct CheckArgs {
     /// Route files (.geojson, .json or .csv) or folders of them (taken sorted by name); `-` reads
     /// one route file from standard input (GeoJSON when it starts with `{`, CSV otherwise).
@@ -57,9 +65,8 @@ pub struct CheckArgs {
     /// Leg (from 1) at whose start localization is lost, for --drift.
     #[arg(long, default_value_t = 1, requires = "drift", value_parser = clap::value_parser!(u64).range(1..))]
     pub lost_from_leg: u64,
-    /// Odometry model for --drift; default: the profile's follower `inverse_model`.
-    #[arg(long, value_enum, requires = "drift")]
-    pub odometry: Option<super::drift::OdometryArg>,
+    #[command(flatten)]
+    pub drift_sources: super::drift::DriftSourceArgs,
     /// Go on past route files that cannot be read: report each (stderr, and a JSON line with
     /// --format jsonl), check the others, and exit 2 at the end.
     #[arg(long)]
@@ -99,7 +106,8 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
             samples: a.samples as usize,
             seed: a.seed,
             lost_from_leg: a.lost_from_leg as usize,
-            odometry: super::drift::odometry(a.odometry, &profile),
+            odometry: a.drift_sources.odometry(&profile),
+            heading: a.drift_sources.heading(&profile),
             paths_kept: 0,
         };
         skidroute::check::add_drift(&mut run, &profile, &settings, &Bar::new(quiet || json))?;

@@ -26,6 +26,8 @@ pub enum By {
     mut_arg("json", |a| a.help("Print the JSON document to stdout instead of the table")),
     mut_arg("report", |a| a.help("Write the JSON document to this file")),
     mut_arg("plot", |a| a.help("Write an overlay plot of all alternatives (.svg or .png)")),
+    mut_arg("odometry", |a| a.help("Odometry model of the drift (with --by drift); default: the profile's follower `inverse_model`")),
+    mut_arg("heading", |a| a.help("Heading source of the drift (with --by drift); default: the gyro when the profile has an [imu] section")),
 )]
 pub struct CompareArgs {
     /// Route files (or folders of them); every `route` group is one alternative.
@@ -39,6 +41,8 @@ pub struct CompareArgs {
     /// Seed of the drift Monte Carlo (with --by drift).
     #[arg(long, default_value_t = 7)]
     pub seed: u64,
+    #[command(flatten)]
+    pub drift_sources: super::drift::DriftSourceArgs,
     /// Write a self-contained HTML report.
     #[arg(long, value_name = "FILE")]
     pub html: Option<PathBuf>,
@@ -81,7 +85,13 @@ pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
     let mut run = skidroute::check::check_routes_with(routes, &profile, demo, &limits);
     run.terrain_map = site.terrain_map.clone();
     let cmp = match by {
-        RankBy::Drift => skidroute::compare::rank_by_drift(run, &profile, a.seed)?,
+        RankBy::Drift => skidroute::compare::rank_by_drift_with(
+            run,
+            &profile,
+            a.seed,
+            a.drift_sources.odometry(&profile),
+            a.drift_sources.heading(&profile),
+        )?,
         _ => skidroute::compare::rank(run, by)?,
     };
     if let Some(p) = &report_json {

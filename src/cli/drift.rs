@@ -6,11 +6,11 @@ use std::process::ExitCode;
 
 use anyhow::{bail, Result};
 use clap::{Args, ValueEnum};
-use skidroute::drift::{run_drift, DriftSettings, Odometry, DEFAULT_PATHS_KEPT, MAX_SAMPLES};
+use skidroute::drift::{run_drift, DriftSettings, HeadingSource, Odometry, DEFAULT_PATHS_KEPT, MAX_SAMPLES};
 use skidroute::report::drift_report::{self, DriftOutputs};
 use skidroute::report::{self};
 use skidroute::route::Route;
-use skidroute::vehicle::{InverseChoice, Profile};
+use skidroute::vehicle::Profile;
 
 use super::common::{check_outputs, CommonArgs};
 use super::progress::Bar;
@@ -23,6 +23,48 @@ pub enum OdometryArg {
     Ideal,
     /// The profile's calibrated model of each terrain.
     Calibrated,
+}
+
+/// Where the believed heading comes from while localization is lost.
+#[derive(Clone, Copy, Debug, ValueEnum)]
+pub enum HeadingArg {
+    /// The odometry model's yaw rate.
+    Odometry,
+    /// The gyro of the profile's [imu] section.
+    Gyro,
+}
+
+/// The odometry model and heading source of a drift estimate, flattened into `drift`,
+/// `check` (with `--drift`) and `compare` (with `--by drift`). Each defaults to the profile's
+/// choice, the same in all three.
+#[derive(Args, Debug, Clone, Default)]
+pub struct DriftSourceArgs {
+    /// Odometry model; default: the profile's follower `inverse_model`.
+    #[arg(long, value_enum)]
+    pub odometry: Option<OdometryArg>,
+    /// Heading source; default: the gyro when the profile has an [imu] section, else odometry.
+    #[arg(long, value_enum)]
+    pub heading: Option<HeadingArg>,
+}
+
+impl DriftSourceArgs {
+    /// The odometry from the flag, or the profile's default.
+    pub fn odometry(&self, profile: &Profile) -> Odometry {
+        match self.odometry {
+            Some(OdometryArg::Ideal) => Odometry::Ideal,
+            Some(OdometryArg::Calibrated) => Odometry::Calibrated,
+            None => skidroute::drift::default_odometry(profile),
+        }
+    }
+
+    /// The heading source from the flag, or the profile's default.
+    pub fn heading(&self, profile: &Profile) -> HeadingSource {
+        match self.heading {
+            Some(HeadingArg::Odometry) => HeadingSource::Odometry,
+            Some(HeadingArg::Gyro) => HeadingSource::Gyro,
+            None => skidroute::drift::default_heading(profile),
+        }
+    }
 }
 
 #[derive(Args)]
@@ -43,9 +85,8 @@ pub struct DriftArgs {
     /// Leg (1-based) at whose start localization is lost.
     #[arg(long, default_value_t = 1, value_parser = clap::value_parser!(u64).range(1..))]
     pub lost_from_leg: u64,
-    /// Odometry model; default: the profile's follower `inverse_model`.
-    #[arg(long, value_enum)]
-    pub odometry: Option<OdometryArg>,
+    #[command(flatten)]
+    pub sources: DriftSourceArgs,
     /// Write the 95 % ellipses and CEP95 circles as GeoJSON polygons (GeoJSON routes only).
     #[arg(long, value_name = "FILE")]
     pub ellipses: Option<PathBuf>,
@@ -70,17 +111,6 @@ fn pick_route(mut routes: Vec<Route>, name: Option<&str>, file: &std::path::Path
             routes.len(),
             names()
         ),
-    }
-}
-
-pub fn odometry(arg: Option<OdometryArg>, profile: &Profile) -> Odometry {
-    match arg {
-        Some(OdometryArg::Ideal) => Odometry::Ideal,
-        Some(OdometryArg::Calibrated) => Odometry::Calibrated,
-        None => match profile.follower.inverse_model {
-            InverseChoice::Ideal => Odometry::Ideal,
-            InverseChoice::Calibrated => Odometry::Calibrated,
-        },
     }
 }
 
@@ -112,7 +142,8 @@ pub fn run_drift_command(a: DriftArgs) -> Result<ExitCode> {
         samples: usize::try_from(a.samples)?,
         seed: a.seed,
         lost_from_leg: usize::try_from(a.lost_from_leg)?,
-        odometry: odometry(a.odometry, &profile),
+        odometry: a.sources.odometry(&profile),
+        heading: a.sources.heading(&profile),
         paths_kept: if outputs.plot.is_some() { DEFAULT_PATHS_KEPT } else { 0 },
     };
     let route_name = skidroute::limits::clip(&route.name).into_owned();

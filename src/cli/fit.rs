@@ -6,7 +6,6 @@ use std::process::ExitCode;
 use anyhow::Result;
 use clap::Args;
 use skidroute::fit::{fit_logs, FitSettings};
-use skidroute::recording::{is_recording, read_drive_log, RecordingError, RecordingMap};
 use skidroute::report::{self, FitOutputs};
 
 use super::common::{check_outputs, CommonArgs};
@@ -39,6 +38,9 @@ pub struct FitArgs {
     /// Validate on these logs instead of held-out time blocks of the training logs.
     #[arg(long, value_name = "LOG")]
     pub validate: Vec<PathBuf>,
+    /// Name of the calibrated profile (default: the base profile's name with " (calibrated)").
+    #[arg(long, value_name = "NAME")]
+    pub name: Option<String>,
     /// Horizon sweep: train and evaluate at each of these horizons (seconds, comma-separated).
     #[arg(long, value_delimiter = ',', value_name = "SECONDS")]
     pub sweep: Vec<f64>,
@@ -48,19 +50,14 @@ pub struct FitArgs {
 
 pub fn run_fit(a: FitArgs) -> Result<ExitCode> {
     let CommonArgs { vehicle, json, report: report_json, plot, quiet } = a.common;
-    let settings = FitSettings::new(a.horizon_s, &a.sweep)?;
+    let mut settings = FitSettings::new(a.horizon_s, &a.sweep)?;
+    if let Some(name) = &a.name {
+        settings = settings.with_profile_name(name)?;
+    }
     let outputs = FitOutputs { profile: a.out.clone(), plot };
     let limits = a.limits.resolve()?;
-    let map = match &a.recording_map {
-        Some(p) => Some(RecordingMap::read(p, &limits)?),
-        None => {
-            if let Some(file) = a.logs.iter().chain(&a.validate).find(|p| is_recording(p)) {
-                return Err(RecordingError::MapNeeded { file: file.clone() }.into());
-            }
-            None
-        }
-    };
-    let map_files = map.as_ref().map(RecordingMap::files).unwrap_or_default();
+    let map = super::logs::recording_map(a.recording_map.as_ref(), a.logs.iter().chain(&a.validate), &limits)?;
+    let map_files = super::logs::map_files(map.as_ref());
     let inputs: Vec<PathBuf> =
         a.logs.iter().chain(&a.validate).chain(vehicle.iter()).chain(&map_files).cloned().collect();
     let output_paths: Vec<&PathBuf> =
@@ -72,13 +69,9 @@ pub fn run_fit(a: FitArgs) -> Result<ExitCode> {
         Some(p) => p.display().to_string(),
         None => "built-in demo profile".to_string(),
     };
-    // CSV logs and recordings alike; a recording's side speeds from a twist use the profile's track width.
-    let read = |p: &PathBuf| {
-        let bar = Bar::new(quiet || json || !is_recording(p));
-        read_drive_log(p, map.as_ref(), base.vehicle.track_width_m, &limits, &bar)
-    };
-    let logs = a.logs.iter().map(read).collect::<Result<Vec<_>, _>>()?;
-    let validation = a.validate.iter().map(read).collect::<Result<Vec<_>, _>>()?;
+    let width_m = base.vehicle.track_width_m;
+    let logs = super::logs::load_drive_logs(&a.logs, map.as_ref(), width_m, &limits, quiet || json)?;
+    let validation = super::logs::load_drive_logs(&a.validate, map.as_ref(), width_m, &limits, quiet || json)?;
     let bar = Bar::new(quiet || json);
     let run = fit_logs(&logs, &validation, &base, &base_name, demo, &settings, &bar)?;
     report::write_fit_outputs(&run, &outputs)?;
@@ -90,7 +83,8 @@ pub fn run_fit(a: FitArgs) -> Result<ExitCode> {
     } else if json {
         emit(&report::fit_json::fit_json(&run))?;
     } else if !quiet {
-        emit(&format!("{}profile written to {}\n", report::fit_table::fit_table(&run), a.out.display()))?;
+        let table = report::fit_table::fit_table(&run);
+        emit(&format!("{table}profile '{}' written to {}\n", run.profile.vehicle.name, a.out.display()))?;
     }
     Ok(if run.failed() { ExitCode::from(1) } else { ExitCode::SUCCESS })
 }

@@ -9,9 +9,11 @@ pub mod compare;
 pub mod drift;
 pub mod fit;
 pub mod limits;
+pub mod logs;
 pub mod profile;
 pub mod progress;
 pub mod relax;
+pub mod replay;
 pub mod shell;
 pub mod site;
 

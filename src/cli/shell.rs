@@ -19,7 +19,7 @@ pub struct CompletionsArgs {
 
 #[derive(Args)]
 pub struct ManArgs {
-    /// A command's own page (check, compare, relax, drift, fit, profile) instead of the main one.
+    /// A command's own page (check, compare, relax, drift, fit, replay, profile) instead of the main one.
     pub command: Option<String>,
 }
 

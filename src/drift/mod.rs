@@ -12,6 +12,19 @@
 //! (semi-axes sqrt(5.991 lambda_i), chi-square 2 dof), CEP50 and CEP95 as empirical quantiles of
 //! |error|, and the distance along the plan since localization was lost.
 //!
+//! **Heading source.** With [`HeadingSource::Odometry`] the believed heading follows the odometry
+//! model's yaw rate; with [`HeadingSource::Gyro`] it follows the profile's gyro (`[imu]`, see
+//! [`gyro`]): the true yaw rate plus the run's bias and angle random walk. Positions are dead
+//! reckoned through the odometry model either way.
+//!
+//! **Defaults** ([`DriftSettings::for_profile`]): odometry from the profile's
+//! `inverse_model` and heading from the gyro when the profile has an `[imu]`; `drift`,
+//! `check --drift` and `compare --by drift` all start from these, and every report says which.
+//!
+//! **Warnings.** A terrain on the route without a covariance, or with noise intensities absent or
+//! 0, contributes no spread of its own; the report names the missing keys ([`DriftReport::warnings`])
+//! instead of showing a CEP that looks precise.
+//!
 //! Determinism: sample i uses ChaCha8 seeded with the run's seed on stream i, and results are
 //! combined in sample order, so output is identical whatever the number of threads.
 //!
@@ -19,6 +32,7 @@
 //! reported heading error.
 
 mod draw;
+pub mod gyro;
 mod sample;
 pub mod stats;
 
@@ -32,6 +46,7 @@ use crate::route::Route;
 use crate::vehicle::Profile;
 
 pub use draw::{psd_factor, ParamSampler};
+pub use gyro::{Gyro, HeadingSource};
 pub use sample::Noise;
 pub use stats::{ellipse95, error_stats, Ellipse, ErrorStats, CHI2_2DOF_95};
 
@@ -68,6 +83,8 @@ pub struct DriftSettings {
     /// Leg (1-based) at whose start localization is lost; 1 = from the start of the route.
     pub lost_from_leg: usize,
     pub odometry: Odometry,
+    /// Where the believed heading comes from.
+    pub heading: HeadingSource,
     /// True paths of the first samples kept for plots.
     pub paths_kept: usize,
 }
@@ -79,9 +96,50 @@ impl Default for DriftSettings {
             seed: 7,
             lost_from_leg: 1,
             odometry: Odometry::Calibrated,
+            heading: HeadingSource::Odometry,
             paths_kept: DEFAULT_PATHS_KEPT,
         }
     }
+}
+
+impl DriftSettings {
+    /// The defaults every command uses with `profile`: odometry from its follower's
+    /// `inverse_model`, heading from the gyro when it has an `[imu]`, otherwise from odometry.
+    pub fn for_profile(profile: &Profile) -> DriftSettings {
+        DriftSettings { odometry: default_odometry(profile), heading: default_heading(profile), ..Default::default() }
+    }
+}
+
+/// The odometry a vehicle with this profile dead-reckons with by default: the model its
+/// controller inverts (`[follower] inverse_model`).
+pub fn default_odometry(profile: &Profile) -> Odometry {
+    match profile.follower.inverse_model {
+        crate::vehicle::InverseChoice::Ideal => Odometry::Ideal,
+        crate::vehicle::InverseChoice::Calibrated => Odometry::Calibrated,
+    }
+}
+
+/// The heading source by default: the gyro when the profile has an `[imu]`.
+pub fn default_heading(profile: &Profile) -> HeadingSource {
+    if profile.imu.is_some() {
+        HeadingSource::Gyro
+    } else {
+        HeadingSource::Odometry
+    }
+}
+
+/// The odometry and heading source in words, for every report ("ideal odometry, heading from
+/// the gyro (bias 10 deg/h, angle random walk 0.3 deg/sqrt(h))").
+pub fn sources_text(odometry: Odometry, heading: HeadingSource, imu: Option<&crate::vehicle::ImuSpec>) -> String {
+    let heading = match (heading, imu) {
+        (HeadingSource::Gyro, Some(i)) => format!(
+            "heading from the gyro (bias sd {} deg/h, angle random walk {} deg/sqrt(h))",
+            i.gyro_bias_sd_deg_per_h, i.gyro_arw_deg_per_sqrt_h
+        ),
+        (HeadingSource::Gyro, None) => "heading from the gyro".to_string(),
+        (HeadingSource::Odometry, _) => "heading from odometry".to_string(),
+    };
+    format!("{} odometry, {heading}", odometry.name())
 }
 
 /// A drift run that cannot start.
@@ -97,6 +155,10 @@ pub enum DriftError {
     UnknownTerrain { route: String, leg: usize, terrain: String },
     #[error("terrain '{terrain}': {what}")]
     Covariance { terrain: String, what: String },
+    #[error(
+        "--heading gyro needs the profile's [imu] section with gyro_bias_sd_deg_per_h and gyro_arw_deg_per_sqrt_h"
+    )]
+    NoImu,
 }
 
 /// The drift at one leg end.
@@ -141,6 +203,9 @@ pub struct DriftReport {
     pub seed: u64,
     pub samples: usize,
     pub odometry: Odometry,
+    pub heading: HeadingSource,
+    /// The odometry and heading source in words.
+    pub sources: String,
     pub lost_from_leg: usize,
     /// Arc length where localization is lost.
     pub loss_start_m: f64,
@@ -149,6 +214,8 @@ pub struct DriftReport {
     /// Control steps simulated over all samples.
     pub steps: u64,
     pub legs: Vec<LegDrift>,
+    /// What the figures leave out: terrains without covariance or noise intensities.
+    pub warnings: Vec<String>,
     /// True paths of the first samples, for plots (local frame).
     #[serde(skip)]
     pub sample_paths: Vec<Vec<[f64; 2]>>,
@@ -206,6 +273,9 @@ fn validate(route: &Route, profile: &Profile, settings: &DriftSettings) -> Resul
     if route.legs.is_empty() {
         return Err(DriftError::NoLegs { route: route.name.clone() });
     }
+    if settings.heading == HeadingSource::Gyro && profile.imu.is_none() {
+        return Err(DriftError::NoImu);
+    }
     if !(1..=route.legs.len()).contains(&settings.lost_from_leg) {
         return Err(DriftError::LostFromLeg { leg: settings.lost_from_leg, legs: route.legs.len() });
     }
@@ -256,8 +326,13 @@ fn setup(route: &Route, profile: &Profile, settings: &DriftSettings) -> Result<s
     let loss_start_m = drive.plan.leg_bounds_m(settings.lost_from_leg - 1).0;
     let time_limit_s = drive.time_limit_s();
     let path_spacing_m = (drive.plan.length_m() / 1500.0).max(0.25);
+    let gyro = match settings.heading {
+        HeadingSource::Gyro => profile.imu.as_ref().map(Gyro::from_spec),
+        HeadingSource::Odometry => None,
+    };
     Ok(sample::SampleSetup {
         drive,
+        gyro,
         samplers,
         leg_terrain,
         odometry,
@@ -309,13 +384,71 @@ fn summarise(
         seed: settings.seed,
         samples: settings.samples,
         odometry: settings.odometry,
+        heading: settings.heading,
+        sources: sources_text(settings.odometry, settings.heading, profile.imu.as_ref()),
         lost_from_leg: settings.lost_from_leg,
         loss_start_m: setup.loss_start_m,
         timed_out,
         steps,
         legs,
+        warnings: drift_warnings(route, profile, settings),
         sample_paths,
     }
+}
+
+/// The keys a terrain lacks for its drift to have a spread: `covariance` (absent or all 0) and
+/// the noise intensities (absent or 0).
+pub fn missing_noise_keys(t: &crate::vehicle::TerrainSpec) -> Vec<&'static str> {
+    let mut out = Vec::new();
+    if t.covariance.as_ref().is_none_or(|c| c.iter().flatten().all(|x| *x == 0.0)) {
+        out.push("covariance");
+    }
+    for (key, value) in [
+        ("noise_heading_rad_per_sqrt_m", t.noise_heading_rad_per_sqrt_m),
+        ("noise_along_m_per_sqrt_m", t.noise_along_m_per_sqrt_m),
+        ("noise_cross_m_per_sqrt_m", t.noise_cross_m_per_sqrt_m),
+    ] {
+        if value == 0.0 {
+            out.push(key);
+        }
+    }
+    out
+}
+
+/// One warning per terrain driven after the loss that lacks noise keys, in route order; a
+/// heading walk the gyro measures does not need `noise_heading_rad_per_sqrt_m`.
+pub fn drift_warnings(route: &Route, profile: &Profile, settings: &DriftSettings) -> Vec<String> {
+    let mut seen: Vec<&str> = Vec::new();
+    let mut out = Vec::new();
+    for leg in route.legs.iter().skip(settings.lost_from_leg.saturating_sub(1)) {
+        if seen.contains(&leg.terrain.as_str()) {
+            continue;
+        }
+        seen.push(&leg.terrain);
+        let Some(t) = profile.terrain.get(&leg.terrain) else { continue };
+        let missing: Vec<&str> = missing_noise_keys(t)
+            .into_iter()
+            .filter(|k| !(settings.heading == HeadingSource::Gyro && *k == "noise_heading_rad_per_sqrt_m"))
+            .collect();
+        if missing.is_empty() {
+            continue;
+        }
+        let all = missing.len() == 4 || (missing.len() == 3 && settings.heading == HeadingSource::Gyro);
+        let effect = if all {
+            "its drift shows only the difference between the odometry and the terrain model, with no spread (a CEP \
+             near 0 m here means nothing was simulated, not that the vehicle stays on track)"
+        } else if missing == ["covariance"] {
+            "the uncertainty of its model parameters is left out of the spread"
+        } else {
+            "the random-walk noise these keys describe is left out of the spread"
+        };
+        out.push(format!(
+            "terrain '{}' has no {} (absent or 0): {effect}; calibrate it with skidroute fit",
+            leg.terrain,
+            missing.join(", ")
+        ));
+    }
+    out
 }
 
 #[cfg(test)]

@@ -20,6 +20,7 @@ use rand::SeedableRng;
 use rand_distr::{Distribution, StandardNormal};
 
 use super::draw::ParamSampler;
+use super::gyro::Gyro;
 use crate::follow::Follower;
 use crate::kinematics::{Model, MotionModel, Pose, Twist};
 use crate::rollout::{ground_twist, RouteDrive};
@@ -42,6 +43,8 @@ impl Noise {
 #[derive(Debug, Clone)]
 pub struct SampleSetup {
     pub drive: RouteDrive,
+    /// The gyro the believed heading follows, when the heading source is the gyro.
+    pub gyro: Option<Gyro>,
     /// One sampler per distinct terrain of the route, in order of first appearance.
     pub samplers: Vec<ParamSampler>,
     /// Index into `samplers` of each leg's terrain.
@@ -120,6 +123,7 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
     let mut rng = ChaCha8Rng::seed_from_u64(seed);
     rng.set_stream(index);
     let drawn: Vec<Model> = setup.samplers.iter().map(|s| s.draw(&mut rng)).collect();
+    let gyro_bias_radps = setup.gyro.map_or(0.0, |g| g.draw_bias(&mut rng));
     let actual: Vec<&Model> = setup.leg_terrain.iter().map(|&t| &drawn[t]).collect();
     let single_terrain = setup.samplers.len() <= 1;
 
@@ -179,8 +183,15 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
         let ds_m = twist.vx_mps.hypot(twist.vy_mps) * dt;
         add_noise(&mut twist, &setup.noise[true_leg], ds_m, dt, &mut rng);
         truth = truth.step(twist, dt);
-        believed =
-            if localized { truth } else { believed.step(setup.odometry[leg].twist(cmd.left_mps, cmd.right_mps), dt) };
+        believed = if localized {
+            truth
+        } else {
+            let mut odo = setup.odometry[leg].twist(cmd.left_mps, cmd.right_mps);
+            if let Some(g) = &setup.gyro {
+                odo.omega_radps = g.measure(twist.omega_radps, gyro_bias_radps, dt, &mut rng);
+            }
+            believed.step(odo, dt)
+        };
         if let Some(p) = path.as_mut() {
             since_point_m += ds_m;
             if since_point_m >= setup.path_spacing_m && p.len() < p.capacity() {

@@ -37,6 +37,7 @@ fn terrain(model: Model, covariance: Option<Vec<Vec<f64>>>, noise: [f64; 3]) -> 
         noise_heading_rad_per_sqrt_m: noise[0],
         noise_along_m_per_sqrt_m: noise[1],
         noise_cross_m_per_sqrt_m: noise[2],
+        calibration: None,
     }
 }
 
@@ -53,7 +54,7 @@ fn slip(alpha: f64) -> Model {
 }
 
 fn settings(samples: usize, odometry: Odometry) -> DriftSettings {
-    DriftSettings { samples, seed: 7, lost_from_leg: 1, odometry, paths_kept: 0 }
+    DriftSettings { samples, seed: 7, lost_from_leg: 1, odometry, heading: HeadingSource::Odometry, paths_kept: 0 }
 }
 
 fn stats(r: &DriftReport, leg: usize) -> &ErrorStats {
@@ -188,4 +189,120 @@ fn bad_settings_are_refused() {
     let bad = route(vec![leg("lava", vec![[0.0, 0.0], [5.0, 0.0]])]);
     let e = run_drift(&bad, &p, &settings(2, Odometry::Ideal), &NoProgress).expect_err("terrain");
     assert!(e.to_string().contains("unknown terrain 'lava'"), "{e}");
+}
+
+/// The profile of `profile_with` with a gyro.
+fn with_imu(mut p: Profile, bias_deg_per_h: f64, arw_deg_per_sqrt_h: f64) -> Profile {
+    p.imu = Some(crate::vehicle::ImuSpec {
+        gyro_bias_sd_deg_per_h: bias_deg_per_h,
+        gyro_arw_deg_per_sqrt_h: arw_deg_per_sqrt_h,
+    });
+    p
+}
+
+#[test]
+fn a_gyro_bias_on_a_straight_gives_the_closed_form_cross_track_error() {
+    // Gyro error model (Groves 2013, "Principles of GNSS, Inertial, and Multisensor Integrated
+    // Navigation Systems", ch. 4): a run's constant bias b turns the believed heading by b t, and
+    // on a straight at speed v the position error across the track grows as the integral of
+    // v(t) b t, which is v b t^2 / 2 at constant speed. Derived here for the drive as simulated:
+    // the vehicle speeds up from rest and slows to a stop, and for any speed profile symmetric in
+    // time the integral of v(t) t over the drive is d T / 2 (d distance, T duration). With only
+    // the bias random (no noise, no covariance, odometry = the true model), every sample's
+    // cross-track error is b d T / 2 and its heading error b T, so across samples
+    // sd(cross) / sd(heading) = d / 2 exactly, whatever the bias draws were: 30 m here. The end
+    // of the drive is not quite symmetric (the final creep onto the end point), hence 1 %.
+    let d = 60.0;
+    let quiet = terrain(Model::ideal(0.9), None, [0.0; 3]);
+    let p = with_imu(profile_with(quiet.clone(), quiet), 20.0, 0.0);
+    let mut s = settings(400, Odometry::Calibrated);
+    s.heading = HeadingSource::Gyro;
+    let r = run_drift(&route(vec![leg("a", vec![[0.0, 0.0], [d, 0.0]])]), &p, &s, &NoProgress).expect("run");
+    let st = stats(&r, 0);
+    let cross_sd = st.covariance_m2[1][1].sqrt();
+    let heading_sd_rad = st.heading_sd_deg.to_radians();
+    assert_relative_eq!(cross_sd / heading_sd_rad, d / 2.0, max_relative = 0.01);
+    // The bias itself: sd of b T over 400 draws within 20 % of 20 deg/h times the drive's
+    // duration, about d / v + v / a = 61 s for a trapezoidal speed profile at 1 m/s and 1 m/s^2
+    // (relative standard error of a sample sd: 1 / sqrt(2 * 400) = 3.5 %).
+    let t_s = d / 1.0 + 1.0 / 1.0;
+    assert_relative_eq!(heading_sd_rad, crate::drift::gyro::deg_per_h_to_radps(20.0) * t_s, max_relative = 0.2);
+    assert_eq!(r.heading, HeadingSource::Gyro);
+    assert!(r.sources.contains("heading from the gyro (bias sd 20 deg/h"), "{}", r.sources);
+}
+
+#[test]
+fn a_gyro_keeps_the_heading_that_odometry_loses() {
+    // A slipping terrain whose odometry yaw is off (track expansion 1.6 against an ideal
+    // odometry model) turns the believed heading on every curve; a gyro of 10 deg/h does not.
+    let chi = Model::ExtendedSymmetric(ExtendedSymmetric { track_width_m: 0.9, alpha: 0.95, track_expansion: 1.6 });
+    let t = terrain(chi, None, [0.0; 3]);
+    let p = with_imu(profile_with(t.clone(), t), 10.0, 0.1);
+    let rt = route(vec![leg("a", vec![[0.0, 0.0], [20.0, 0.0], [20.0, 20.0]])]);
+    let mut s = settings(50, Odometry::Ideal);
+    let odometry = run_drift(&rt, &p, &s, &NoProgress).expect("run");
+    s.heading = HeadingSource::Gyro;
+    let gyro = run_drift(&rt, &p, &s, &NoProgress).expect("run");
+    let (a, b) = (stats(&odometry, 0), stats(&gyro, 0));
+    assert!(b.cep95_m < 0.5 * a.cep95_m, "gyro {} m against odometry {} m", b.cep95_m, a.cep95_m);
+    assert!(b.heading_bias_deg.abs() < 0.2 * a.heading_bias_deg.abs());
+}
+
+#[test]
+fn gyro_heading_without_an_imu_is_refused() {
+    let quiet = terrain(Model::ideal(0.9), None, [0.0; 3]);
+    let mut p = profile_with(quiet.clone(), quiet);
+    p.imu = None;
+    let mut s = settings(4, Odometry::Ideal);
+    s.heading = HeadingSource::Gyro;
+    let e = run_drift(&route(vec![leg("a", vec![[0.0, 0.0], [5.0, 0.0]])]), &p, &s, &NoProgress).expect_err("no imu");
+    assert!(e.to_string().contains("[imu] section with gyro_bias_sd_deg_per_h and gyro_arw_deg_per_sqrt_h"), "{e}");
+}
+
+#[test]
+fn defaults_are_shared_and_follow_the_profile() {
+    let mut p = Profile::demo();
+    let d = DriftSettings::for_profile(&p);
+    assert_eq!((d.odometry, d.heading), (Odometry::Ideal, HeadingSource::Gyro), "the demo has an [imu]");
+    p.imu = None;
+    p.follower.inverse_model = crate::vehicle::InverseChoice::Calibrated;
+    let d = DriftSettings::for_profile(&p);
+    assert_eq!((d.odometry, d.heading), (Odometry::Calibrated, HeadingSource::Odometry));
+}
+
+#[test]
+fn terrains_without_noise_or_covariance_are_named_not_hidden() {
+    // No covariance and no noise: a CEP near 0 would look precise, so the report names the keys.
+    let p = profile_with(
+        terrain(slip(0.9), None, [0.0; 3]),
+        terrain(slip(0.8), Some(vec![vec![1e-4, 0.0], vec![0.0, 1e-4]]), [0.01, 0.0, 0.0]),
+    );
+    let rt = route(vec![leg("a", vec![[0.0, 0.0], [15.0, 0.0]]), leg("b", vec![[15.0, 0.0], [15.0, 12.0]])]);
+    let r = run_drift(&rt, &p, &settings(8, Odometry::Calibrated), &NoProgress).expect("run");
+    assert_eq!(r.warnings.len(), 2, "{:?}", r.warnings);
+    assert!(r.warnings[0].starts_with(
+        "terrain 'a' has no covariance, noise_heading_rad_per_sqrt_m, noise_along_m_per_sqrt_m, noise_cross_m_per_sqrt_m"
+    ));
+    assert!(r.warnings[0].contains("no spread"), "{}", r.warnings[0]);
+    assert!(r.warnings[1].starts_with("terrain 'b' has no noise_along_m_per_sqrt_m, noise_cross_m_per_sqrt_m"));
+    // Legs before the loss do not count.
+    let mut s = settings(8, Odometry::Calibrated);
+    s.lost_from_leg = 2;
+    let r = run_drift(&rt, &p, &s, &NoProgress).expect("run");
+    assert_eq!(r.warnings.len(), 1);
+    // The demo's deep snow has noise but no covariance.
+    let demo = Profile::demo();
+    let r = run_drift(
+        &route(vec![leg("deep-snow", vec![[0.0, 0.0], [5.0, 0.0]])]),
+        &demo,
+        &settings(4, Odometry::Ideal),
+        &NoProgress,
+    )
+    .expect("run");
+    assert_eq!(r.warnings.len(), 1);
+    assert!(
+        r.warnings[0].contains("has no covariance (absent or 0): the uncertainty of its model parameters"),
+        "{:?}",
+        r.warnings
+    );
 }

@@ -35,7 +35,7 @@ pub fn velocity_samples(s: &Series) -> Vec<VelocitySample> {
         let mut k = run.start + h;
         while k + h < run.end {
             let (a, b) = (k - h, k + h);
-            if (a..=b).any(|i| s.held_out[i]) {
+            if (a..=b).any(|i| s.held_out[i]) || !(s.pose_ok[a] && s.pose_ok[b] && s.pose_ok[k]) {
                 k += h;
                 continue;
             }

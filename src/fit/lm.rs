@@ -4,11 +4,35 @@
 //! For every window the measured side speeds are integrated through the model from the measured
 //! start pose (exact SE(2) steps with the speeds held over each sample interval, docs/method.md, Integration); the
 //! residual is the measured end pose minus the predicted one, in the start pose's body frame
-//! (forward m, left m, yaw change times `yaw_scale_m_per_rad`). Levenberg-Marquardt (the
-//! `levenberg-marquardt` crate, a port of MINPACK's lmder) minimises the sum of squares with an
-//! analytic Jacobian: the pose sensitivities d(pose)/d(parameters) are propagated through every
-//! step alongside the pose. Windows are integrated in parallel (rayon); results do not depend on
-//! the thread count. The parameter covariance is s^2 (J^T J)^-1 with s^2 = SSR / (m - n).
+//! (forward m, left m, yaw change rad), each component divided by its own noise scale.
+//! Levenberg-Marquardt (the `levenberg-marquardt` crate, a port of MINPACK's lmder) minimises the
+//! sum of squares with an analytic Jacobian: the pose sensitivities d(pose)/d(parameters) are
+//! propagated through every step alongside the pose. Windows are integrated in parallel (rayon);
+//! results do not depend on the thread count.
+//!
+//! **Weights** ([`fit_weighted`]): a first pass weighs forward and left errors 1 per metre and
+//! yaw `yaw_scale_m_per_rad`; each component's noise scale is then estimated from its residuals
+//! robustly (1.4826 times the median absolute deviation, the normal-consistent scale of Huber
+//! 1981, "Robust Statistics"), and a second pass from the first one's estimate weighs each
+//! component by the inverse of its scale, so forward, lateral and yaw errors count by their own
+//! noise instead of one pooled variance.
+//!
+//! **Covariance** ([`sandwich_covariance`]): the windows overlap by half and share end samples,
+//! so their residuals are correlated, and their noise differs from window to window. The
+//! covariance is the sandwich A^-1 B A^-1 (Huber 1967; White 1980, "A heteroskedasticity-
+//! consistent covariance matrix estimator", Econometrica 48(4)) with A = J^T J and B the
+//! autocorrelation-consistent sum of Newey & West 1987 ("A simple, positive semi-definite,
+//! heteroskedasticity and autocorrelation consistent covariance matrix", Econometrica 55(3)):
+//! B = sum_i g_i g_i^T + sum over later windows k of the same run at lag l <= L of
+//! w_l (g_i g_k^T + g_k g_i^T), with g_i = J_i^T r_i the window's score and Bartlett weights
+//! w_l = 1 - l / (L + 1), which keep B positive semi-definite. Noise of the vehicle itself (a
+//! heading random walk) and of the poses at shared samples correlates windows that share a sample
+//! (Hansen & Hodrick 1980, "Forward exchange rates as optimal predictors of future spot rates",
+//! Journal of Political Economy 88(5), for overlapping horizons); the bandwidth L is
+//! [`BANDWIDTH_PER_OVERLAP`] times the overlap depth (the most later windows sharing a sample with
+//! one window: 2 for half-overlapping windows, so L = 8, weighing lags 1 and 2 by 0.89 and 0.78).
+//! Windows of different runs share nothing. The result is scaled by W / (W - n) for W windows and
+//! n parameters.
 
 use std::cell::Cell;
 
@@ -94,7 +118,8 @@ pub struct IpemProblem<'a> {
     series: &'a Series,
     windows: &'a [Window],
     measured: Vec<[f64; 3]>,
-    yaw_scale_m_per_rad: f64,
+    /// Multiplies the forward, left and yaw errors (1/m, 1/m, 1/rad, or m/rad for a yaw scale).
+    weights: [f64; 3],
     p: DVector<f64>,
     residuals: Option<DVector<f64>>,
     /// Jacobian evaluations, one per LM iteration.
@@ -109,7 +134,7 @@ impl<'a> IpemProblem<'a> {
         par: &'a Parametrisation,
         series: &'a Series,
         windows: &'a [Window],
-        yaw_scale_m_per_rad: f64,
+        weights: [f64; 3],
         start: &[f64],
     ) -> Self {
         let measured = windows.iter().map(|w| series.measured_delta(*w)).collect();
@@ -118,7 +143,7 @@ impl<'a> IpemProblem<'a> {
             series,
             windows,
             measured,
-            yaw_scale_m_per_rad,
+            weights,
             p: DVector::from_column_slice(start),
             residuals: None,
             jacobians: Cell::new(0),
@@ -128,7 +153,16 @@ impl<'a> IpemProblem<'a> {
     }
 
     fn residual_of(&self, meas: &[f64; 3], pred: &[f64; 3]) -> [f64; 3] {
-        [meas[0] - pred[0], meas[1] - pred[1], self.yaw_scale_m_per_rad * (meas[2] - pred[2])]
+        let w = &self.weights;
+        [w[0] * (meas[0] - pred[0]), w[1] * (meas[1] - pred[1]), w[2] * (meas[2] - pred[2])]
+    }
+
+    /// Unweighted errors (measured minus predicted: forward m, left m, yaw rad) at the current
+    /// parameters, one per window.
+    pub fn errors(&self) -> Option<Vec<[f64; 3]>> {
+        let r = self.residuals.as_ref()?;
+        let w = &self.weights;
+        Some(r.as_slice().chunks_exact(3).map(|e| [e[0] / w[0], e[1] / w[1], e[2] / w[2]]).collect())
     }
 
     fn compute_residuals(&self) -> Option<DVector<f64>> {
@@ -197,9 +231,9 @@ impl LeastSquaresProblem<f64, Dyn, Dyn> for IpemProblem<'_> {
         for (i, s) in sens.iter().enumerate() {
             for c in 0..n {
                 // residual = measured - predicted, so its derivative is minus the sensitivity.
-                j[(3 * i, c)] = -s[0][c];
-                j[(3 * i + 1, c)] = -s[1][c];
-                j[(3 * i + 2, c)] = -self.yaw_scale_m_per_rad * s[2][c];
+                j[(3 * i, c)] = -self.weights[0] * s[0][c];
+                j[(3 * i + 1, c)] = -self.weights[1] * s[1][c];
+                j[(3 * i + 2, c)] = -self.weights[2] * s[2][c];
             }
         }
         j.iter().all(|x| x.is_finite()).then_some(j)
@@ -210,8 +244,10 @@ impl LeastSquaresProblem<f64, Dyn, Dyn> for IpemProblem<'_> {
 #[derive(Debug, Clone)]
 pub struct Estimate {
     pub params: Vec<f64>,
-    /// s^2 (J^T J)^-1 in the order of the free parameters; `None` when J^T J is singular.
+    /// The sandwich covariance in the order of the free parameters; `None` when J^T J is singular.
     pub covariance: Option<DMatrix<f64>>,
+    /// Noise scales of the forward (m), left (m) and yaw (rad) errors the final pass weighed by.
+    pub noise_scales: [f64; 3],
     pub converged: bool,
     /// The optimiser's termination reason in words.
     pub termination: String,
@@ -219,7 +255,7 @@ pub struct Estimate {
     pub iterations: usize,
     /// Residual evaluations.
     pub evaluations: usize,
-    /// Sum of squared residuals at the estimate (m^2).
+    /// Sum of squared weighted residuals at the estimate.
     pub cost: f64,
 }
 
@@ -235,15 +271,16 @@ fn describe(t: &TerminationReason) -> String {
     }
 }
 
-/// Minimises the integrated prediction error of `par` over `windows` from `start`.
+/// Minimises the integrated prediction error of `par` over `windows` from `start`, with the
+/// forward, left and yaw errors multiplied by `weights`.
 pub fn minimise(
     par: &Parametrisation,
     series: &Series,
     windows: &[Window],
-    yaw_scale_m_per_rad: f64,
+    weights: [f64; 3],
     start: &[f64],
 ) -> Estimate {
-    let problem = IpemProblem::new(par, series, windows, yaw_scale_m_per_rad, start);
+    let problem = IpemProblem::new(par, series, windows, weights, start);
     let (problem, converged, termination, evaluations) = if par.is_empty() {
         (problem, true, "nothing to fit".to_string(), 1)
     } else {
@@ -253,10 +290,11 @@ pub fn minimise(
     };
     let iterations = problem.jacobian_evaluations();
     let cost = problem.cost().unwrap_or(f64::NAN);
-    let covariance = if par.is_empty() { None } else { covariance(&problem, cost) };
+    let covariance = if par.is_empty() { None } else { sandwich_covariance(&problem) };
     Estimate {
         params: problem.p.iter().copied().collect(),
         covariance,
+        noise_scales: [1.0 / weights[0], 1.0 / weights[1], 1.0 / weights[2]],
         converged: converged && cost.is_finite(),
         termination,
         iterations,
@@ -265,18 +303,99 @@ pub fn minimise(
     }
 }
 
-/// s^2 (J^T J)^-1 at the problem's parameters, s^2 = SSR / (m - n).
-fn covariance(problem: &IpemProblem, cost: f64) -> Option<DMatrix<f64>> {
+/// Smallest noise scale a component may get (m or rad): noise-free synthetic data would
+/// otherwise give weights of 1e15.
+const MIN_NOISE_SCALE: f64 = 1e-6;
+
+/// 1.4826 times the median absolute deviation from the median: the standard deviation for
+/// normal errors, unmoved by the largest half (Huber 1981, "Robust Statistics").
+pub fn robust_scale(values: impl Iterator<Item = f64>) -> Option<f64> {
+    let mut v: Vec<f64> = values.filter(|x| x.is_finite()).collect();
+    v.sort_by(f64::total_cmp);
+    let median = super::stats::quantile_sorted(&v, 0.5)?;
+    let mut dev: Vec<f64> = v.iter().map(|x| (x - median).abs()).collect();
+    dev.sort_by(f64::total_cmp);
+    Some(1.4826 * super::stats::quantile_sorted(&dev, 0.5)?)
+}
+
+/// Two passes (see the module text): weights 1, 1, `yaw_scale_m_per_rad`, then each component
+/// weighed by the inverse of its robust noise scale, started from the first pass's estimate.
+pub fn fit_weighted(
+    par: &Parametrisation,
+    series: &Series,
+    windows: &[Window],
+    yaw_scale_m_per_rad: f64,
+    start: &[f64],
+) -> Estimate {
+    let first = minimise(par, series, windows, [1.0, 1.0, yaw_scale_m_per_rad], start);
+    if par.is_empty() || !first.converged {
+        return first;
+    }
+    let problem = IpemProblem::new(par, series, windows, [1.0; 3], &first.params);
+    let Some(errors) = problem.errors() else { return first };
+    let mut weights = [1.0; 3];
+    for (c, w) in weights.iter_mut().enumerate() {
+        let scale = robust_scale(errors.iter().map(|e| e[c])).unwrap_or(1.0);
+        *w = 1.0 / scale.max(MIN_NOISE_SCALE);
+    }
+    let mut second = minimise(par, series, windows, weights, &first.params);
+    second.iterations += first.iterations;
+    second.evaluations += first.evaluations;
+    second
+}
+
+/// How many lags the Bartlett kernel spans, in multiples of the overlap depth.
+pub const BANDWIDTH_PER_OVERLAP: usize = 4;
+
+/// The sandwich covariance A^-1 B A^-1 W / (W - n) at the problem's parameters (module text);
+/// `None` when J^T J is singular or there are no more windows than parameters.
+pub fn sandwich_covariance(problem: &IpemProblem) -> Option<DMatrix<f64>> {
     let j = problem.jacobian()?;
-    let (m, n) = j.shape();
-    if m <= n {
+    let r = problem.residuals.as_ref()?;
+    let n = j.ncols();
+    let windows = problem.windows;
+    let w = windows.len();
+    if w <= n {
         return None;
     }
-    let s2 = cost / (m - n) as f64;
-    let jtj = j.transpose() * &j;
-    let inv = jtj.cholesky()?.inverse();
-    let cov = inv * s2;
-    cov.iter().all(|x| x.is_finite()).then_some(cov)
+    let a_inv = (j.transpose() * &j).cholesky()?.inverse();
+    let scores: Vec<DVector<f64>> = (0..w).map(|i| j.rows(3 * i, 3).transpose() * r.rows(3 * i, 3)).collect();
+    // Windows are sorted by start within each run and runs follow each other.
+    let runs = &problem.series.runs;
+    let run_of: Vec<usize> = windows.iter().map(|x| runs.partition_point(|r| r.end <= x.start)).collect();
+    // Overlap depth: the most later windows of the same run that share a sample with one window.
+    let depth = (0..w)
+        .map(|i| (i + 1..w).take_while(|&k| run_of[k] == run_of[i] && windows[k].start <= windows[i].end).count())
+        .max()
+        .unwrap_or(0);
+    let bandwidth = (BANDWIDTH_PER_OVERLAP * depth).max(1);
+    let mut b = DMatrix::<f64>::zeros(n, n);
+    for i in 0..w {
+        b += &scores[i] * scores[i].transpose();
+        for lag in 1..=bandwidth {
+            let k = i + lag;
+            if k >= w || run_of[k] != run_of[i] {
+                break;
+            }
+            let weight = 1.0 - lag as f64 / (bandwidth + 1) as f64;
+            let cross = &scores[i] * scores[k].transpose() * weight;
+            b += &cross + cross.transpose();
+        }
+    }
+    let cov = &a_inv * b * &a_inv * (w as f64 / (w - n) as f64);
+    let ok = cov.iter().all(|x| x.is_finite()) && (0..n).all(|i| cov[(i, i)] >= 0.0);
+    ok.then_some(cov)
+}
+
+/// s^2 (J^T J)^-1 with s^2 = SSR / (m - n): the textbook covariance for independent residuals
+/// of one variance, kept to show in tests what ignoring the overlap costs.
+#[cfg(test)]
+pub fn naive_covariance(problem: &IpemProblem) -> Option<DMatrix<f64>> {
+    let j = problem.jacobian()?;
+    let (m, n) = j.shape();
+    let cost = problem.cost()?;
+    let inv = (j.transpose() * &j).cholesky()?.inverse();
+    Some(inv * (cost / (m - n) as f64))
 }
 
 #[cfg(test)]
@@ -303,7 +422,7 @@ mod tests {
             // a handful of windows over straights, arcs and pivots is enough.
             let train: Vec<Window> = train.into_iter().step_by(3).take(10).collect();
             let start: Vec<f64> = truth.iter().map(|x| x * 1.07 + 0.01).collect();
-            let mut problem = IpemProblem::new(&par, &s, &train, 1.0, &start);
+            let mut problem = IpemProblem::new(&par, &s, &train, [1.0, 1.0, 1.0], &start);
             let analytic = problem.jacobian().expect("jacobian");
             let numeric = differentiate_numerically(&mut problem).expect("numeric jacobian");
             assert_relative_eq!(analytic, numeric, epsilon = 1e-6, max_relative = 1e-5);
@@ -340,7 +459,7 @@ mod tests {
             let s = synthetic_series(&par, &truth, &Manoeuvres::mixed(120.0), 0.0, 11);
             let (train, _) = crate::fit::windows::cut_windows(&s, 2.0);
             let start: Vec<f64> = truth.iter().map(|x| x * 1.1 + 0.02).collect();
-            let est = minimise(&par, &s, &train, 1.0, &start);
+            let est = minimise(&par, &s, &train, [1.0, 1.0, 1.0], &start);
             assert!(est.converged, "{:?}: {}", par.family, est.termination);
             for (got, want) in est.params.iter().zip(&truth) {
                 assert_relative_eq!(*got, *want, max_relative = 1e-6, epsilon = 1e-9);

@@ -5,7 +5,12 @@
 //!
 //! A `lat_deg,lon_deg` log is projected once, here, to east-north metres about its first sample
 //! with the exact WGS 84 transform of [`crate::route::GeoOrigin`]; nothing downstream sees degrees.
-//! Every problem is an error naming the file, the line (the header is line 1) and the column.
+//! Every problem is an error naming the file, the line (the header is line 1) and the column;
+//! CRLF line endings are read as LF first, so line numbers are the ones an editor shows.
+//!
+//! A row whose pose cells (`x_m,y_m,yaw_rad` or `lat_deg,lon_deg,yaw_rad`) are all empty is a
+//! row without a pose (a localization dropout): its side speeds are kept and it is flagged
+//! [`LogSample::pose_missing`]. A row with only some pose cells empty is an error.
 
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
@@ -16,8 +21,9 @@ use super::FitError;
 use crate::limits::{read_text_limited, show_number, Limits, ReadLimitedError, MAX_ABS_COORDINATE_M};
 use crate::route::GeoOrigin;
 
-/// One validated row of a drive log, in local metres.
-#[derive(Debug, Clone, Copy, PartialEq)]
+/// One validated row of a drive log, in local metres. `Default` gives a zero row with a pose,
+/// so readers of other formats can write `LogSample { t_s, .., ..LogSample::default() }`.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct LogSample {
     /// 1-based line in the file, for messages.
     pub line: usize,
@@ -29,6 +35,10 @@ pub struct LogSample {
     pub yaw_rad: f64,
     /// Index into [`DriveLog::terrains`].
     pub terrain: usize,
+    /// True when the row has no pose (a localization dropout, or a pose the log repeated while
+    /// the vehicle moved, see `fit::hygiene`). Its `x_m, y_m, yaw_rad` then hold the last pose
+    /// before it and must not be used as a measurement.
+    pub pose_missing: bool,
 }
 
 /// A whole drive log.
@@ -91,6 +101,15 @@ pub fn parse_log(path: &Path, text: &str) -> Result<DriveLog, FitError> {
 pub fn parse_log_with(path: &Path, text: &str, limits: &Limits) -> Result<DriveLog, FitError> {
     let file_error = |what: &str| FitError::File { file: path.to_path_buf(), what: what.to_string() };
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+    // The CSV reader counts a CR LF pair as a line end only after the CR, which puts the line of
+    // an error in a CRLF file one too low; reading LF text keeps line numbers what an editor shows.
+    let lf: String;
+    let text = if text.contains('\r') {
+        lf = text.replace("\r\n", "\n");
+        lf.as_str()
+    } else {
+        text
+    };
     if text.trim().is_empty() {
         return Err(file_error("file is empty"));
     }
@@ -125,21 +144,30 @@ pub fn parse_log_with(path: &Path, text: &str, limits: &Limits) -> Result<DriveL
                 return Err(at("t_s", what));
             }
         }
-        let (x_m, y_m) = match (columns.lat_deg, columns.lon_deg) {
-            (Some(_), Some(_)) => {
-                let lat = get("lat_deg", columns.lat_deg)?;
-                let lon = get("lon_deg", columns.lon_deg)?;
-                if !(-90.0..=90.0).contains(&lat) {
-                    return Err(at("lat_deg", format!("latitude {} is outside [-90, 90]", show_number(lat))));
-                }
-                if !(-180.0..=180.0).contains(&lon) {
-                    return Err(at("lon_deg", format!("longitude {} is outside [-180, 180]", show_number(lon))));
-                }
-                let o = *origin.get_or_insert_with(|| GeoOrigin::new(lat, lon, 0.0));
-                let [e, n, _] = o.to_local(lon, lat, 0.0);
-                (e, n)
+        let geographic = columns.lat_deg.is_some() && columns.lon_deg.is_some();
+        let pose_cells: [(&str, Option<usize>); 3] = if geographic {
+            [("lat_deg", columns.lat_deg), ("lon_deg", columns.lon_deg), ("yaw_rad", columns.yaw_rad)]
+        } else {
+            [("x_m", columns.x_m), ("y_m", columns.y_m), ("yaw_rad", columns.yaw_rad)]
+        };
+        let empty = |index: Option<usize>| index.and_then(|i| record.get(i)).unwrap_or("").is_empty();
+        let pose_missing = pose_cells.iter().all(|(_, i)| empty(*i));
+        let (x_m, y_m, yaw_rad) = if pose_missing {
+            samples.last().map_or((0.0, 0.0, 0.0), |p| (p.x_m, p.y_m, p.yaw_rad))
+        } else if geographic {
+            let lat = get("lat_deg", columns.lat_deg)?;
+            let lon = get("lon_deg", columns.lon_deg)?;
+            if !(-90.0..=90.0).contains(&lat) {
+                return Err(at("lat_deg", format!("latitude {} is outside [-90, 90]", show_number(lat))));
             }
-            _ => (get("x_m", columns.x_m)?, get("y_m", columns.y_m)?),
+            if !(-180.0..=180.0).contains(&lon) {
+                return Err(at("lon_deg", format!("longitude {} is outside [-180, 180]", show_number(lon))));
+            }
+            let o = *origin.get_or_insert_with(|| GeoOrigin::new(lat, lon, 0.0));
+            let [e, n, _] = o.to_local(lon, lat, 0.0);
+            (e, n, get("yaw_rad", columns.yaw_rad)?)
+        } else {
+            (get("x_m", columns.x_m)?, get("y_m", columns.y_m)?, get("yaw_rad", columns.yaw_rad)?)
         };
         for (column, value) in [("x_m", x_m), ("y_m", y_m)] {
             if value.abs() > MAX_ABS_COORDINATE_M {
@@ -175,12 +203,16 @@ pub fn parse_log_with(path: &Path, text: &str, limits: &Limits) -> Result<DriveL
             right_mps: get("right_mps", columns.right_mps)?,
             x_m,
             y_m,
-            yaw_rad: get("yaw_rad", columns.yaw_rad)?,
+            yaw_rad,
             terrain,
+            pose_missing,
         });
     }
     if samples.len() < 2 {
         return Err(file_error("has fewer than 2 data rows; a drive log needs a time series"));
+    }
+    if samples.iter().all(|s| s.pose_missing) {
+        return Err(file_error("no row has a pose (the pose columns are empty on every row)"));
     }
     let mut dts: Vec<f64> = samples.windows(2).map(|w| w[1].t_s - w[0].t_s).collect();
     dts.sort_by(f64::total_cmp);
@@ -302,6 +334,32 @@ mod tests {
     fn time_must_increase() {
         let e = err(&format!("{HEADER}0,1,1,0,0,0,grass\n0,1,1,0,0,0,grass\n"));
         assert!(e.contains("line 3, column t_s") && e.contains("strictly increase"), "{e}");
+    }
+
+    #[test]
+    fn crlf_logs_report_the_line_an_editor_shows() {
+        // Line 1 is the header; the bad cell is on line 4 in both endings.
+        let lf = format!("{HEADER}0,1,1,0,0,0,grass\n0.1,1,1,0,0,0,grass\n0.2,1,x,0,0,0,grass\n");
+        let crlf = lf.replace('\n', "\r\n");
+        assert_eq!(err(&lf), "drive.csv: line 4, column right_mps: 'x' is not a number");
+        assert_eq!(err(&crlf), "drive.csv: line 4, column right_mps: 'x' is not a number");
+        let short = format!("{HEADER}0,1,1,0,0,0,grass\n0.1,1,1,0,0,0\n").replace('\n', "\r\n");
+        assert!(err(&short).starts_with("drive.csv: line 3: has 6 fields"), "{}", err(&short));
+        let ok = parse_log(Path::new("a.csv"), &crlf.replace(",x,", ",1,")).expect("valid CRLF log");
+        assert_eq!(ok.samples[2].line, 4);
+        assert_eq!(ok.terrains, vec!["grass"], "no CR left in the terrain name");
+    }
+
+    #[test]
+    fn empty_pose_cells_mark_a_dropout_and_half_a_pose_is_an_error() {
+        let text = format!("{HEADER}0,1,1,0,0,0,grass\n0.1,1,1,,,,grass\n0.2,1,1,0.2,0,0,grass\n");
+        let log = parse_log(Path::new("a.csv"), &text).expect("valid");
+        assert!(!log.samples[0].pose_missing && log.samples[1].pose_missing && !log.samples[2].pose_missing);
+        assert_eq!(log.samples[1].left_mps, 1.0);
+        let e = err(&format!("{HEADER}0,1,1,0,0,0,grass\n0.1,1,1,0.1,,0,grass\n"));
+        assert_eq!(e, "drive.csv: line 3, column y_m: is empty");
+        let e = err(&format!("{HEADER}0,1,1,,,,grass\n0.1,1,1,,,,grass\n"));
+        assert!(e.contains("no row has a pose"), "{e}");
     }
 
     #[test]

@@ -1,20 +1,28 @@
 //! Identification of per-terrain motion models from drive logs (`skidroute fit`, docs/method.md, Calibration).
 //!
-//! Logs ([`log`]) are split into runs and windows ([`windows`]); every family of docs/method.md, Model families, is
-//! started from a velocity-level least-squares fit ([`initial`]) and refined by integrated
-//! prediction error minimisation (Seegmiller, Rogers-Marcovitz, Miller & Kelly 2013, "Vehicle
-//! model identification by integrated prediction error minimization", IJRR 32(8); [`lm`]),
-//! validated on held-out time blocks ([`validate`], medians and quartiles by Hyndman & Fan 1996
-//! type 7, [`stats`]), and one family is chosen per terrain ([`select`]). The result is a complete
-//! profile for `check`, plus everything the reports show. Units: SI, local frame of the logs.
+//! Logs ([`log`]) are checked and repaired ([`hygiene`]), split into runs and moving windows
+//! ([`windows`]); every family of docs/method.md, Model families, is started from a
+//! velocity-level least-squares fit ([`initial`]) and refined by integrated prediction error
+//! minimisation (Seegmiller, Rogers-Marcovitz, Miller & Kelly 2013, "Vehicle model
+//! identification by integrated prediction error minimization", IJRR 32(8); [`lm`], with each
+//! error component weighed by its own noise and a covariance that survives overlapping windows),
+//! validated on held-out blocks of moving time ([`validate`], medians and quartiles by Hyndman &
+//! Fan 1996 type 7, [`stats`]; intervals by a paired block bootstrap, [`bootstrap`]), and the
+//! simplest family not credibly worse than the best is chosen per terrain ([`select`]). The
+//! result is a complete profile for `check` that says where each terrain's model came from, plus
+//! everything the reports show. [`replay`] scores an existing profile on new logs. Units: SI,
+//! local frame of the logs.
 //!
 //! A terrain that cannot be fitted (too few windows, no turning, no convergence) is a value in
 //! the result, not an error: it keeps the base profile's entry and [`FitRun::failed`] is true.
 
+pub mod bootstrap;
+pub mod hygiene;
 pub mod initial;
 pub mod lm;
 pub mod log;
 pub mod params;
+pub mod replay;
 pub mod select;
 pub mod stats;
 pub mod sweep;
@@ -32,7 +40,8 @@ use serde::Serialize;
 
 use crate::kinematics::{Family, Model};
 use crate::progress::Progress;
-use crate::vehicle::{profile_to_toml, Profile};
+use crate::vehicle::{profile_to_toml, Profile, TerrainCalibration};
+use hygiene::{check_logs, LogCheck};
 use log::DriveLog;
 use params::Parametrisation;
 use select::{choose, Candidate};
@@ -74,6 +83,11 @@ pub const TURN_RAD: f64 = 0.1;
 pub const DEFAULT_YAW_SCALE_M_PER_RAD: f64 = 1.0;
 /// Validation windows kept per terrain for the end-point plot.
 pub const PLOTTED_END_POINTS: usize = 400;
+/// Fewest validation windows counting for translation error before the report warns: below 30
+/// the median's own scatter is a sizeable part of the differences between families.
+pub const MIN_VALIDATION_WINDOWS: usize = 30;
+/// Fewest validation blocks before the report warns that the bootstrap interval is rough.
+pub const MIN_VALIDATION_BLOCKS: usize = 5;
 
 /// Validated settings of a fit.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -82,6 +96,8 @@ pub struct FitSettings {
     /// Horizons of the sweep; empty for no sweep.
     pub sweep_horizons_s: Vec<f64>,
     pub yaw_scale_m_per_rad: f64,
+    /// Name of the calibrated profile; `None`: the base profile's name with " (calibrated)".
+    pub profile_name: Option<String>,
 }
 
 impl FitSettings {
@@ -97,7 +113,31 @@ impl FitSettings {
         let mut sweep = sweep_horizons_s.to_vec();
         sweep.sort_by(f64::total_cmp);
         sweep.dedup();
-        Ok(FitSettings { horizon_s, sweep_horizons_s: sweep, yaw_scale_m_per_rad: DEFAULT_YAW_SCALE_M_PER_RAD })
+        Ok(FitSettings {
+            horizon_s,
+            sweep_horizons_s: sweep,
+            yaw_scale_m_per_rad: DEFAULT_YAW_SCALE_M_PER_RAD,
+            profile_name: None,
+        })
+    }
+
+    /// The same settings with the calibrated profile named `name` (non-empty after trimming).
+    pub fn with_profile_name(mut self, name: &str) -> Result<FitSettings, FitError> {
+        let name = name.trim();
+        if name.is_empty() {
+            return Err(FitError::Settings("--name must not be empty".to_string()));
+        }
+        self.profile_name = Some(name.to_string());
+        Ok(self)
+    }
+}
+
+/// The calibrated profile's name: `explicit`, or the base name with " (calibrated)".
+pub fn calibrated_name(base: &str, explicit: Option<&str>) -> String {
+    match explicit {
+        Some(n) => n.to_string(),
+        None if base.ends_with("(calibrated)") => base.to_string(),
+        None => format!("{base} (calibrated)"),
     }
 }
 
@@ -116,6 +156,8 @@ pub struct FamilyFit {
     /// Covariance in the profile's parameter order.
     #[serde(skip)]
     pub covariance: Option<Vec<Vec<f64>>>,
+    /// Noise scales of the forward (m), left (m) and yaw (rad) errors that weighed the fit.
+    pub noise_scales: [f64; 3],
     pub converged: bool,
     pub termination: String,
     /// Why the family cannot be used although it converged (parameters out of range), if so.
@@ -164,10 +206,19 @@ pub struct TerrainFit {
     pub terrain: String,
     pub samples: usize,
     pub training_samples: usize,
+    /// Time covered by the terrain's runs, and the part of it that moved (s).
+    pub duration_s: f64,
+    pub moving_s: f64,
     pub training_windows: usize,
     pub validation_windows: usize,
+    /// Validation windows long enough (0.5 m) for the translation error.
+    pub translation_windows: usize,
+    /// Validation blocks (bootstrap units) the validation windows come from.
+    pub validation_blocks: usize,
     pub turning_windows: usize,
     pub outcome: TerrainOutcome,
+    /// What the reader should know about this terrain's fit (too few windows, a noise floor).
+    pub warnings: Vec<String>,
     pub families: Vec<FamilyFit>,
     pub sweep: Option<SweepTable>,
     #[serde(skip)]
@@ -184,7 +235,7 @@ impl TerrainFit {
 }
 
 /// One input log in the summary.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct InputSummary {
     pub file: String,
     pub samples: usize,
@@ -196,6 +247,8 @@ pub struct InputSummary {
 #[derive(Debug, Clone, Serialize)]
 pub struct FitRun {
     pub inputs: Vec<InputSummary>,
+    /// What the log checks found in each input (training logs first, then `--validate` logs).
+    pub log_checks: Vec<LogCheck>,
     pub settings: FitSettings,
     /// The base profile's file, or "built-in demo profile".
     pub base_profile: String,
@@ -227,9 +280,15 @@ impl FitRun {
             s += &format!("  {} ({} samples, {})\n", i.file, i.samples, i.role);
         }
         s += &format!(
-            "horizon {} s, windows overlapping by half, yaw weighted {} m per rad; validation: {}\n",
-            self.settings.horizon_s, self.settings.yaw_scale_m_per_rad, self.holdout
+            "horizon {} s, moving windows overlapping by half, each error component weighed by its own noise; \
+             validation: {}\n",
+            self.settings.horizon_s, self.holdout
         );
+        for c in &self.log_checks {
+            for note in &c.notes {
+                s += &format!("log check, {}: {note}\n", c.file);
+            }
+        }
         s += &format!("geometry, limits, follower and traction coefficients from: {}\n", self.base_profile);
         for t in &self.terrains {
             match t.chosen() {
@@ -238,8 +297,11 @@ impl FitRun {
                         .validation
                         .translation_rel
                         .map_or("n/a".to_string(), |e| format!("{:.1} %", 100.0 * e.median));
+                    let interval = f.validation.translation_interval95.map_or(String::new(), |i| {
+                        format!(" (95 % interval {:.1} to {:.1} %)", 100.0 * i.lo, 100.0 * i.hi)
+                    });
                     s += &format!(
-                        "terrain {}: {} from {} samples, {} training and {} validation windows, median translation error {err}\n",
+                        "terrain {}: {} from {} samples, {} training and {} validation windows, median translation error {err}{interval}\n",
                         t.terrain, f.family, t.samples, t.training_windows, t.validation_windows
                     );
                 }
@@ -278,30 +340,54 @@ pub fn fit_logs(
     settings: &FitSettings,
     progress: &dyn Progress,
 ) -> Result<FitRun, FitError> {
-    for log in logs.iter().chain(validation_logs) {
-        for s in &log.samples {
-            let name = &log.terrains[s.terrain];
-            if !base.terrain.contains_key(name) {
-                let known = base.terrain_names().join(", ");
-                return Err(FitError::UnknownTerrain {
-                    file: log.source.clone(),
-                    line: s.line,
-                    terrain: name.clone(),
-                    known,
-                });
-            }
-        }
-    }
-    let series = build_series(logs, validation_logs);
+    check_terrains(logs, base)?;
+    check_terrains(validation_logs, base)?;
+    let (logs, mut log_checks) = check_logs(logs)?;
+    let (validation_logs, validation_checks) = check_logs(validation_logs)?;
+    log_checks.extend(validation_checks);
+    let series = build_series(&logs, &validation_logs);
     let per_terrain = Family::ALL.len() + settings.sweep_horizons_s.len();
     progress.start((series.len() * per_terrain) as u64, "fitting");
     let terrains: Vec<TerrainFit> = series.iter().map(|s| fit_terrain(s, base, settings, progress)).collect();
     progress.finish();
+    let summary =
+        |l: &DriveLog, role| InputSummary { file: l.source.display().to_string(), samples: l.samples.len(), role };
+    let inputs: Vec<InputSummary> = logs
+        .iter()
+        .map(|l| summary(l, "training"))
+        .chain(validation_logs.iter().map(|l| summary(l, "validation")))
+        .collect();
+    let holdout = if validation_logs.is_empty() {
+        format!(
+            "held-out blocks of moving time (block {} of every {} blocks of {} s of moving time on each terrain)",
+            windows::HELD_OUT_BLOCK + 1,
+            windows::BLOCK_CYCLE,
+            windows::BLOCK_S
+        )
+    } else {
+        "the --validate logs (the training logs are used whole)".to_string()
+    };
+    let fitted: Vec<&str> = terrains.iter().map(|t| t.terrain.as_str()).collect();
+    let kept_from_base: Vec<String> =
+        base.terrain_names().into_iter().filter(|n| !fitted.contains(n)).map(String::from).collect();
     let mut profile = base.clone();
+    profile.vehicle.name = calibrated_name(&base.vehicle.name, settings.profile_name.as_deref());
+    // The logs each terrain came from.
+    let files_of = |terrain: &str| -> Vec<String> {
+        logs.iter()
+            .chain(&validation_logs)
+            .filter(|l| l.terrains.iter().any(|n| n == terrain))
+            .map(|l| l.source.display().to_string())
+            .collect()
+    };
     for t in &terrains {
-        let (TerrainOutcome::Fitted { noise, .. }, Some(f), Some(spec)) =
-            (&t.outcome, t.chosen(), profile.terrain.get_mut(&t.terrain))
-        else {
+        let Some(spec) = profile.terrain.get_mut(&t.terrain) else { continue };
+        let (TerrainOutcome::Fitted { noise, .. }, Some(f)) = (&t.outcome, t.chosen()) else {
+            let reason = match &t.outcome {
+                TerrainOutcome::Failed { reason } => reason.as_str(),
+                TerrainOutcome::Fitted { .. } => "no usable family",
+            };
+            spec.calibration = Some(not_fitted(&format!("{reason}; values from {base_name}")));
             continue;
         };
         let Some(model) = f.model.clone() else { continue };
@@ -312,28 +398,28 @@ pub fn fit_logs(
             spec.noise_along_m_per_sqrt_m = q.along_m_per_sqrt_m;
             spec.noise_cross_m_per_sqrt_m = q.cross_m_per_sqrt_m;
         }
+        spec.calibration = Some(TerrainCalibration {
+            calibrated: true,
+            source: Some(format!(
+                "{} fitted by skidroute fit on {}: {} training and {} validation windows of {} s",
+                f.family,
+                files_of(&t.terrain).join(", "),
+                t.training_windows,
+                t.validation_windows,
+                settings.horizon_s
+            )),
+            translation_error: f.validation.translation_rel.map(|e| e.median),
+            horizon_s: Some(settings.horizon_s),
+        });
     }
-    let fitted: Vec<&str> = terrains.iter().map(|t| t.terrain.as_str()).collect();
-    let kept_from_base = base.terrain_names().into_iter().filter(|n| !fitted.contains(n)).map(String::from).collect();
-    let summary =
-        |l: &DriveLog, role| InputSummary { file: l.source.display().to_string(), samples: l.samples.len(), role };
-    let inputs = logs
-        .iter()
-        .map(|l| summary(l, "training"))
-        .chain(validation_logs.iter().map(|l| summary(l, "validation")))
-        .collect();
-    let holdout = if validation_logs.is_empty() {
-        format!(
-            "held-out time blocks (block {} of every {} blocks of {} s of driving on each terrain)",
-            windows::HELD_OUT_BLOCK + 1,
-            windows::BLOCK_CYCLE,
-            windows::BLOCK_S
-        )
-    } else {
-        "the --validate logs".to_string()
-    };
+    for k in &kept_from_base {
+        if let Some(spec) = profile.terrain.get_mut(k) {
+            spec.calibration = Some(not_fitted(&format!("no drive-log data on this terrain; values from {base_name}")));
+        }
+    }
     Ok(FitRun {
         inputs,
+        log_checks,
         settings: settings.clone(),
         base_profile: base_name.to_string(),
         demo_base,
@@ -342,6 +428,35 @@ pub fn fit_logs(
         holdout,
         profile,
     })
+}
+
+/// The calibration record of a terrain `fit` did not fit.
+fn not_fitted(why: &str) -> TerrainCalibration {
+    TerrainCalibration {
+        calibrated: false,
+        source: Some(format!("not fitted: {why}")),
+        translation_error: None,
+        horizon_s: None,
+    }
+}
+
+/// An error for the first log row whose terrain `profile` does not know.
+pub fn check_terrains(logs: &[DriveLog], profile: &Profile) -> Result<(), FitError> {
+    for log in logs {
+        for s in &log.samples {
+            let name = &log.terrains[s.terrain];
+            if !profile.terrain.contains_key(name) {
+                let known = profile.terrain_names().join(", ");
+                return Err(FitError::UnknownTerrain {
+                    file: log.source.clone(),
+                    line: s.line,
+                    terrain: name.clone(),
+                    known,
+                });
+            }
+        }
+    }
+    Ok(())
 }
 
 /// Windows that turn by at least [`TURN_RAD`].
@@ -366,7 +481,7 @@ fn turn_points(s: &Series, windows: &[Window], track_width_m: f64) -> Vec<TurnPo
 fn data_problem(train: usize, validation: usize, turning: usize, horizon_s: f64) -> Option<String> {
     if train < MIN_WINDOWS {
         return Some(format!(
-            "too little data: {train} training windows of {horizon_s} s, at least {MIN_WINDOWS} are needed (drive about {:.0} s more on this terrain)",
+            "too little data: {train} moving training windows of {horizon_s} s, at least {MIN_WINDOWS} are needed (drive about {:.0} s more on this terrain)",
             (MIN_WINDOWS - train) as f64 * horizon_s / 2.0 * 1.25
         ));
     }
@@ -378,7 +493,7 @@ fn data_problem(train: usize, validation: usize, turning: usize, horizon_s: f64)
     }
     if validation == 0 {
         return Some(
-            "no validation windows: the logs are too short to hold out a time block; drive longer or give --validate"
+            "no validation windows: the logs are too short to hold out a block of moving time; drive longer or give --validate"
                 .to_string(),
         );
     }
@@ -391,14 +506,20 @@ fn fit_terrain(s: &Series, base: &Profile, settings: &FitSettings, progress: &dy
     let turning = turning_windows(s, &train);
     let mut all = train.clone();
     all.extend_from_slice(&val);
+    let val_blocks: Vec<u32> = val.iter().map(|w| s.block_of(*w)).collect();
     let mut t = TerrainFit {
         terrain: s.terrain.clone(),
         samples: s.len(),
         training_samples: s.training_samples(),
+        duration_s: s.duration_s(),
+        moving_s: s.moving_s(),
         training_windows: train.len(),
         validation_windows: val.len(),
+        translation_windows: 0,
+        validation_blocks: count_distinct(&val_blocks),
         turning_windows: turning,
         outcome: TerrainOutcome::Failed { reason: String::new() },
+        warnings: Vec::new(),
         families: Vec::new(),
         sweep: None,
         turn_points: turn_points(s, &all, b),
@@ -416,18 +537,23 @@ fn fit_terrain(s: &Series, base: &Profile, settings: &FitSettings, progress: &dy
         t.families.push(fit_family(&par, s, &train, &val, &velocities, settings));
         progress.advance(1);
     }
-    let candidates: Vec<Candidate> = t
-        .families
+    t.translation_windows = val
         .iter()
-        .filter(|f| f.usable())
-        .filter_map(|f| {
-            Some(Candidate { family: f.family, params: f.params.len(), error: f.validation.translation_rel?.median })
+        .filter(|w| {
+            let d = s.measured_delta(**w);
+            d[0].hypot(d[1]) >= validate::MIN_TRANSLATION_M
         })
-        .collect();
+        .count();
+    let candidates = bootstrap_families(&mut t.families, &val_blocks);
+    t.warnings.extend(data_warnings(&t));
     t.outcome = match choose(&candidates) {
         Some(choice) => {
             let chosen = t.families.iter().find(|f| f.family == choice.family);
             let noise = chosen.and_then(|f| noise_intensities(&f.errors));
+            let noise = noise.map(|(q, notes)| {
+                t.warnings.extend(notes);
+                q
+            });
             if !settings.sweep_horizons_s.is_empty() {
                 if let Some(f) = chosen {
                     let par = Parametrisation::new(f.family, b, &f.nodes_per_m);
@@ -456,7 +582,56 @@ fn fit_terrain(s: &Series, base: &Profile, settings: &FitSettings, progress: &dy
     t
 }
 
-/// Fits one family: start, minimise, check ranges, validate.
+fn count_distinct(ids: &[u32]) -> usize {
+    let mut v = ids.to_vec();
+    v.sort_unstable();
+    v.dedup();
+    v.len()
+}
+
+/// Warnings about thin validation data (thresholds [`MIN_VALIDATION_WINDOWS`], [`MIN_VALIDATION_BLOCKS`]).
+fn data_warnings(t: &TerrainFit) -> Vec<String> {
+    let mut out = Vec::new();
+    if t.translation_windows < MIN_VALIDATION_WINDOWS {
+        out.push(format!(
+            "only {} of {} validation windows move far enough (0.5 m) for a translation error, fewer than {}: the \
+             medians and intervals are rough; drive longer on this terrain or give --validate",
+            t.translation_windows, t.validation_windows, MIN_VALIDATION_WINDOWS
+        ));
+    }
+    if t.validation_blocks < MIN_VALIDATION_BLOCKS {
+        out.push(format!(
+            "validation comes from {} block{} of moving time, fewer than {}: the bootstrap intervals are rough",
+            t.validation_blocks,
+            if t.validation_blocks == 1 { "" } else { "s" },
+            MIN_VALIDATION_BLOCKS
+        ));
+    }
+    out
+}
+
+/// Paired block bootstrap over the usable families' validation errors: fills each family's
+/// interval and block count, and returns the candidates for the choice.
+fn bootstrap_families(families: &mut [FamilyFit], blocks: &[u32]) -> Vec<Candidate> {
+    let usable: Vec<usize> = (0..families.len())
+        .filter(|&i| families[i].usable() && families[i].validation.translation_rel.is_some())
+        .collect();
+    let values: Vec<Vec<Option<f64>>> =
+        usable.iter().map(|&i| families[i].errors.iter().map(WindowError::translation_rel).collect()).collect();
+    let resampled = bootstrap::resample_medians(&values, blocks);
+    let mut candidates = Vec::new();
+    for (column, &i) in usable.iter().enumerate() {
+        let f = &mut families[i];
+        f.validation.blocks = resampled.as_ref().map_or(0, |r| r.blocks);
+        f.validation.translation_interval95 = resampled.as_ref().and_then(|r| r.interval(column));
+        let Some(error) = f.validation.translation_rel.map(|e| e.median) else { continue };
+        let column_medians = resampled.as_ref().map_or(Vec::new(), |r| r.medians.iter().map(|m| m[column]).collect());
+        candidates.push(Candidate { family: f.family, params: f.params.len(), error, resampled: column_medians });
+    }
+    candidates
+}
+
+/// Fits one family: start, minimise (two passes, own weights per component), check ranges, validate.
 fn fit_family(
     par: &Parametrisation,
     s: &Series,
@@ -466,7 +641,7 @@ fn fit_family(
     settings: &FitSettings,
 ) -> FamilyFit {
     let start = initial::initial_params(par, velocities);
-    let est = lm::minimise(par, s, train, settings.yaw_scale_m_per_rad, &start);
+    let est = lm::fit_weighted(par, s, train, settings.yaw_scale_m_per_rad, &start);
     let problem = par.physical_problem(&est.params);
     let model = if est.converged && problem.is_none() { par.model(&est.params) } else { None };
     let errors = if model.is_some() { window_errors(par, &est.params, s, val) } else { Vec::new() };
@@ -478,6 +653,7 @@ fn fit_family(
         std_errors,
         nodes_per_m: par.nodes_per_m.clone(),
         covariance: est.covariance.as_ref().map(|c| par.profile_covariance(c)),
+        noise_scales: est.noise_scales,
         converged: est.converged,
         termination: est.termination,
         problem,

@@ -6,7 +6,7 @@
 
 use serde::Serialize;
 
-use super::lm::minimise;
+use super::lm::fit_weighted;
 use super::params::Parametrisation;
 use super::validate::{summarise, window_errors};
 use super::windows::{cut_windows, Series};
@@ -30,7 +30,7 @@ pub fn sweep(par: &Parametrisation, s: &Series, start: &[f64], horizons_s: &[f64
     let mut training_windows = Vec::new();
     for (train, _) in &cuts {
         training_windows.push(train.len());
-        let est = (!train.is_empty()).then(|| minimise(par, s, train, yaw_scale, start));
+        let est = (!train.is_empty()).then(|| fit_weighted(par, s, train, yaw_scale, start));
         let row = cuts
             .iter()
             .map(|(_, val)| {

@@ -1,25 +1,50 @@
 //! From drive logs to identification windows (README, Calibrating from drive logs; docs/method.md, Calibration).
 //!
-//! Each log is split into runs at gaps longer than [`GAP_PERIODS`] sample periods and at terrain
-//! changes. A terrain's runs are gathered into one [`Series`] with the yaw unwrapped inside each
-//! run. Windows of horizon H seconds start every H/2 (overlapping by half) and never span a run
-//! boundary. Validation data are held-out time blocks: the terrain's driving time is cut into
-//! blocks of [`BLOCK_S`] seconds and every fifth block (the third of each five) is held out, so
-//! training and validation come from the same day and manoeuvres but never share a sample.
-//! With `--validate` logs, those logs are the validation data and the others all train.
-//! Units: seconds, metres, radians; local frame as in the logs.
+//! Each log is split into runs at gaps longer than [`GAP_PERIODS`] sample periods, at pose
+//! dropouts longer than [`MAX_POSE_GAP_S`] and at terrain changes. A terrain's runs are gathered
+//! into one [`Series`] with the yaw unwrapped inside each run.
+//!
+//! **Moving data.** A sample interval is *moving* when the tracks' mean surface speed
+//! (|vl| + |vr|) / 2 is at least [`MOVING_SPEED_MPS`] (pivot turns move the tracks, so they
+//! count). Windows of horizon H seconds are cut by time (each ends at the first sample at least
+//! H after its start, the next starts H/2 later, so they overlap by half even when the log's time
+//! steps are irregular), never span a run boundary, need a measured pose at both ends, and count
+//! only when at least [`MIN_MOVING_FRACTION`] of their time is moving: standing windows are
+//! neither trained on nor validated. Validation data are held-out time blocks counted in
+//! *moving* time: the terrain's moving time is cut into blocks of [`BLOCK_S`] seconds and every
+//! fifth block (the third of each five) is held out, so a fifth of the moving data is held out
+//! however long the vehicle stood. Standing samples belong to the block they fall in. Training
+//! and validation come from the same day and manoeuvres but never share a sample. With
+//! `--validate` logs, those logs are the validation data (cut into blocks the same way, for the
+//! bootstrap) and the training logs are used whole. Units: seconds, metres, radians; local frame
+//! as in the logs.
 
 use super::log::DriveLog;
 use crate::kinematics::se2::wrap_angle;
 
 /// A gap longer than this many sample periods splits a log into runs (README, Inputs).
 pub const GAP_PERIODS: f64 = 5.0;
-/// Length of the held-out time blocks, seconds of driving on the terrain.
-pub const BLOCK_S: f64 = 30.0;
+/// Length of the held-out (and bootstrap) time blocks, seconds of moving time on the terrain.
+pub const BLOCK_S: f64 = 20.0;
 /// One block in this many is held out for validation.
 pub const BLOCK_CYCLE: usize = 5;
 /// Which block of each cycle is held out (0-based).
 pub const HELD_OUT_BLOCK: usize = 2;
+/// Tracks' mean surface speed (m/s) from which a sample interval counts as moving: a slow walk
+/// is 1 m/s; encoder noise on a standing vehicle stays far below.
+pub const MOVING_SPEED_MPS: f64 = 0.1;
+/// Fraction of a window's time that must be moving for the window to count.
+pub const MIN_MOVING_FRACTION: f64 = 0.5;
+/// Pose dropouts up to this long are bridged by the side speeds (windows may span them; the yaw
+/// is unwrapped across them, which holds while the vehicle turns less than half a turn in the
+/// dropout); longer ones split the run.
+pub const MAX_POSE_GAP_S: f64 = 2.5;
+
+/// True when side speeds (m/s) move the tracks at [`MOVING_SPEED_MPS`] or more.
+#[inline]
+pub fn is_moving(left_mps: f64, right_mps: f64) -> bool {
+    0.5 * (left_mps.abs() + right_mps.abs()) >= MOVING_SPEED_MPS
+}
 
 /// A contiguous stretch of samples on one terrain without gaps: indices `start..end` of a [`Series`].
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -30,7 +55,8 @@ pub struct Run {
 }
 
 /// All samples of one terrain, as parallel arrays. `dt_s[k]` is the time from sample k to k+1
-/// (0 at the last sample of a run); `yaw_rad` is continuous within each run.
+/// (0 at the last sample of a run); `yaw_rad` is continuous within each run. Where `pose_ok` is
+/// false the pose holds the last measured one and is not used.
 #[derive(Debug, Clone, Default)]
 pub struct Series {
     pub terrain: String,
@@ -41,11 +67,17 @@ pub struct Series {
     pub x_m: Vec<f64>,
     pub y_m: Vec<f64>,
     pub yaw_rad: Vec<f64>,
+    /// True where the sample has a measured pose.
+    pub pose_ok: Vec<bool>,
     /// True for samples used only for validation.
     pub held_out: Vec<bool>,
+    /// Block of moving time ([`BLOCK_S`]) each sample falls in, counted over the whole series.
+    pub block: Vec<u32>,
     pub runs: Vec<Run>,
-    /// Driving time so far on this terrain, for the held-out blocks.
-    driven_s: f64,
+    /// Moving time so far on this terrain, for the blocks.
+    moving_s: f64,
+    /// Whether time blocks of the training logs are held out (no `--validate` logs).
+    hold_out_blocks: bool,
 }
 
 /// A window: the poses at samples `start` and `end`, and the side speeds of the steps between.
@@ -69,6 +101,22 @@ impl Series {
         self.held_out.iter().filter(|h| !**h).count()
     }
 
+    /// Moving time over the whole series, seconds.
+    pub fn moving_s(&self) -> f64 {
+        self.moving_s
+    }
+
+    /// Total time covered by the runs, seconds.
+    pub fn duration_s(&self) -> f64 {
+        self.dt_s.iter().sum()
+    }
+
+    /// Whether the interval from sample k to k+1 is moving.
+    #[inline]
+    pub fn moving_at(&self, k: usize) -> bool {
+        is_moving(self.left_mps[k], self.right_mps[k])
+    }
+
     /// The measured motion over a window, in the body frame of its start pose:
     /// (forward m, left m, yaw change rad).
     #[inline]
@@ -89,18 +137,29 @@ impl Series {
         (w.start..w.end).map(|k| (self.right_mps[k] - self.left_mps[k]) / track_width_m * self.dt_s[k]).sum()
     }
 
+    /// The validation block of a window (the block of its first sample).
+    pub fn block_of(&self, w: Window) -> u32 {
+        self.block[w.start]
+    }
+
     fn push_run(&mut self, log: &DriveLog, range: std::ops::Range<usize>, from_validation_log: bool) {
         let start = self.len();
         let samples = &log.samples[range];
         let mut yaw = 0.0;
+        // The last sample with a measured pose: its logged yaw and its unwrapped yaw.
+        let mut last_pose: Option<(f64, f64)> = None;
         for (k, s) in samples.iter().enumerate() {
-            yaw = if k == 0 { s.yaw_rad } else { yaw + wrap_angle(s.yaw_rad - samples[k - 1].yaw_rad) };
+            let pose_ok = !s.pose_missing;
+            if pose_ok {
+                yaw = match last_pose {
+                    None => s.yaw_rad,
+                    Some((logged, unwrapped)) => unwrapped + wrap_angle(s.yaw_rad - logged),
+                };
+                last_pose = Some((s.yaw_rad, yaw));
+            }
             let dt = samples.get(k + 1).map_or(0.0, |n| n.t_s - s.t_s);
-            let held_out = if from_validation_log {
-                true
-            } else {
-                (self.driven_s / BLOCK_S) as usize % BLOCK_CYCLE == HELD_OUT_BLOCK
-            };
+            let block = (self.moving_s / BLOCK_S) as usize;
+            let held_out = from_validation_log || (self.hold_out_blocks && block % BLOCK_CYCLE == HELD_OUT_BLOCK);
             self.t_s.push(s.t_s);
             self.left_mps.push(s.left_mps);
             self.right_mps.push(s.right_mps);
@@ -108,61 +167,122 @@ impl Series {
             self.x_m.push(s.x_m);
             self.y_m.push(s.y_m);
             self.yaw_rad.push(yaw);
+            self.pose_ok.push(pose_ok);
             self.held_out.push(held_out);
-            self.driven_s += dt;
+            self.block.push(u32::try_from(block).unwrap_or(u32::MAX));
+            if is_moving(s.left_mps, s.right_mps) {
+                self.moving_s += dt;
+            }
         }
         self.runs.push(Run { start, end: self.len(), period_s: log.period_s });
     }
 }
 
+/// Where a log splits into runs: before sample k when the terrain changes, the time step is
+/// longer than [`GAP_PERIODS`] periods, or the pose has been missing for longer than
+/// [`MAX_POSE_GAP_S`] (measured from the last pose before the dropout to the next one).
+fn split_points(log: &DriveLog) -> Vec<usize> {
+    let mut out = Vec::new();
+    let mut last_pose_t: Option<f64> = None;
+    for (k, b) in log.samples.iter().enumerate() {
+        if k > 0 {
+            let a = &log.samples[k - 1];
+            let pose_gap = !b.pose_missing && last_pose_t.is_some_and(|t| b.t_s - t > MAX_POSE_GAP_S);
+            if a.terrain != b.terrain || b.t_s - a.t_s > GAP_PERIODS * log.period_s || pose_gap {
+                out.push(k);
+                last_pose_t = None;
+            }
+        }
+        if !b.pose_missing {
+            last_pose_t = Some(b.t_s);
+        }
+    }
+    out.push(log.samples.len());
+    out
+}
+
 /// Splits the logs into runs and gathers them per terrain (sorted by terrain name). Samples of
 /// `validation_logs` are all held out; when there are none, time blocks of the training logs are.
 pub fn build_series(logs: &[DriveLog], validation_logs: &[DriveLog]) -> Vec<Series> {
+    let hold_out_blocks = validation_logs.is_empty();
     let mut by_terrain: std::collections::BTreeMap<String, Series> = Default::default();
     let all = logs.iter().map(|l| (l, false)).chain(validation_logs.iter().map(|l| (l, true)));
     for (log, validation) in all {
         let mut start = 0;
-        for k in 1..=log.samples.len() {
-            let split = match (log.samples.get(k - 1), log.samples.get(k)) {
-                (Some(a), Some(b)) => a.terrain != b.terrain || b.t_s - a.t_s > GAP_PERIODS * log.period_s,
-                _ => true,
-            };
-            if split {
-                let name = &log.terrains[log.samples[start].terrain];
-                let series = by_terrain
-                    .entry(name.clone())
-                    .or_insert_with(|| Series { terrain: name.clone(), ..Default::default() });
-                series.push_run(log, start..k, validation);
-                start = k;
+        for end in split_points(log) {
+            if end <= start {
+                continue;
             }
+            let name = &log.terrains[log.samples[start].terrain];
+            let series = by_terrain.entry(name.clone()).or_insert_with(|| Series {
+                terrain: name.clone(),
+                hold_out_blocks,
+                ..Default::default()
+            });
+            series.push_run(log, start..end, validation);
+            start = end;
         }
     }
     by_terrain.into_values().collect()
 }
 
+/// Windows of horizon `horizon_s` in one run, cut by time: `(start, end)` pairs. A window ends at
+/// the first sample at least `horizon_s` after its start and the next starts at the first sample
+/// at least `horizon_s / 2` after it (a quarter period of slack absorbs rounding of logged times).
+fn run_windows(s: &Series, run: &Run, horizon_s: f64) -> Vec<Window> {
+    let slack = 0.25 * run.period_s;
+    let mut out = Vec::new();
+    let (mut start, mut end) = (run.start, run.start);
+    while start < run.end {
+        let t0 = s.t_s[start];
+        while end < run.end && s.t_s[end] - t0 < horizon_s - slack {
+            end += 1;
+        }
+        if end >= run.end {
+            break;
+        }
+        if end > start {
+            out.push(Window { start, end });
+        }
+        let next = t0 + 0.5 * horizon_s - slack;
+        start += 1;
+        while start < run.end && s.t_s[start] < next {
+            start += 1;
+        }
+    }
+    out
+}
+
 /// Training and validation windows of horizon `horizon_s`. A training window touches no
-/// held-out sample; a validation window lies wholly in held-out samples; others are dropped.
+/// held-out sample; a validation window lies wholly in held-out samples; windows without a pose
+/// at either end, or moving for less than [`MIN_MOVING_FRACTION`] of their time, and windows
+/// across the boundary of a held-out block are dropped.
 pub fn cut_windows(s: &Series, horizon_s: f64) -> (Vec<Window>, Vec<Window>) {
-    // held[k] = number of held-out samples before k, to classify a window in O(1).
+    // Prefix counts of held-out samples and of moving time, to classify a window in O(1).
     let mut held = Vec::with_capacity(s.len() + 1);
+    let mut moving = Vec::with_capacity(s.len() + 1);
     held.push(0usize);
-    for (k, h) in s.held_out.iter().enumerate() {
-        held.push(held[k] + usize::from(*h));
+    moving.push(0.0f64);
+    for k in 0..s.len() {
+        held.push(held[k] + usize::from(s.held_out[k]));
+        moving.push(moving[k] + if s.moving_at(k) { s.dt_s[k] } else { 0.0 });
     }
     let (mut training, mut validation) = (Vec::new(), Vec::new());
     for run in &s.runs {
-        let steps = ((horizon_s / run.period_s).round() as usize).max(1);
-        let stride = (steps / 2).max(1);
-        let mut start = run.start;
-        while start + steps < run.end {
-            let w = Window { start, end: start + steps };
+        for w in run_windows(s, run, horizon_s) {
+            if !(s.pose_ok[w.start] && s.pose_ok[w.end]) {
+                continue;
+            }
+            let duration = s.t_s[w.end] - s.t_s[w.start];
+            if moving[w.end] - moving[w.start] < MIN_MOVING_FRACTION * duration {
+                continue;
+            }
             let held_in = held[w.end + 1] - held[w.start];
             if held_in == 0 {
                 training.push(w);
-            } else if held_in == steps + 1 {
+            } else if held_in == w.end - w.start + 1 {
                 validation.push(w);
             }
-            start += stride;
         }
     }
     (training, validation)
@@ -225,20 +345,102 @@ mod tests {
         }
         for w in &val {
             assert!((w.start..=w.end).all(|k| s.held_out[k]));
-            // The third block of five: 60 s to 90 s or 210 s to 240 s of driving.
+            // The third block of five: 40 s to 60 s or 140 s to 160 s of moving time.
             let t = s.t_s[w.start];
-            assert!((60.0..90.0).contains(&t) || (210.0..240.0).contains(&t), "{t}");
+            assert!((40.0..60.0).contains(&t) || (140.0..160.0).contains(&t), "{t}");
+            assert_eq!(s.block_of(*w), if t < 100.0 { 2 } else { 7 });
+        }
+    }
+
+    /// A log of `(t_s, left_mps, right_mps)` rows on grass moving east.
+    fn speeds_log(rows: &[(f64, f64, f64)]) -> DriveLog {
+        let mut text = String::from("t_s,left_mps,right_mps,x_m,y_m,yaw_rad,terrain\n");
+        let mut x = 0.0;
+        for (i, (t, l, r)) in rows.iter().enumerate() {
+            if i > 0 {
+                x += 0.5 * (l + r) * (t - rows[i - 1].0);
+            }
+            text.push_str(&format!("{t},{l},{r},{x},0,0,grass\n"));
+        }
+        parse_log(Path::new("s.csv"), &text).expect("valid log")
+    }
+
+    #[test]
+    fn blocks_count_moving_time_and_standing_windows_are_dropped() {
+        // 60 s driving, 100 s standing, 60 s driving at 10 Hz: moving time 120 s, six blocks of
+        // 20 s. Held out: block 2 (40 s to 60 s of moving time = 40 s to 60 s of the log) and
+        // none of the standing time counts towards a block.
+        let mut rows = Vec::new();
+        for i in 0..2200 {
+            let t = 0.1 * i as f64;
+            let v = if (60.0..160.0).contains(&t) { 0.0 } else { 1.0 };
+            rows.push((t, v, v));
+        }
+        let s = build_series(&[speeds_log(&rows)], &[]).remove(0);
+        approx::assert_relative_eq!(s.moving_s(), 120.0, epsilon = 0.15);
+        let (train, val) = cut_windows(&s, 2.0);
+        for w in train.iter().chain(&val) {
+            let t = s.t_s[w.start];
+            assert!(!(60.0..158.0).contains(&t), "a standing window at {t} s was kept");
+        }
+        // Every held-out window lies in 40 s to 60 s; the second driving stretch (moving time
+        // 60 s to 120 s = blocks 3, 4, 5) holds nothing out.
+        assert!(!val.is_empty());
+        assert!(val.iter().all(|w| (40.0..60.0).contains(&s.t_s[w.start])), "{val:?}");
+        assert_eq!(s.block[s.len() - 1], 5);
+    }
+
+    #[test]
+    fn validation_logs_are_all_held_out_and_training_logs_stay_whole() {
+        let rows: Vec<(f64, &str)> = (0..1000).map(|i| (0.1 * i as f64, "grass")).collect();
+        let series = build_series(&[log(&rows)], &[log(&rows)]);
+        let s = &series[0];
+        assert_eq!(s.runs.len(), 2);
+        assert_eq!(s.training_samples(), 1000, "no block of the training log is held out");
+        let (train, val) = cut_windows(s, 1.0);
+        assert_eq!(train.len(), val.len());
+    }
+
+    #[test]
+    fn irregular_time_steps_give_windows_of_the_horizon() {
+        // Steps alternate 0.04 s and 0.06 s (mean 0.05 s): windows still span 2 s of time.
+        let mut t = 0.0;
+        let mut rows = Vec::new();
+        for i in 0..1200 {
+            rows.push((t, 1.0, 1.0));
+            t += if i % 2 == 0 { 0.04 } else { 0.06 };
+        }
+        let s = build_series(&[speeds_log(&rows)], &[]).remove(0);
+        let (train, _) = cut_windows(&s, 2.0);
+        assert!(train.len() > 30, "{}", train.len());
+        for w in &train {
+            let span = s.t_s[w.end] - s.t_s[w.start];
+            assert!((2.0 - 0.02..2.0 + 0.06).contains(&span), "{span}");
         }
     }
 
     #[test]
-    fn validation_logs_are_all_held_out() {
-        let rows: Vec<(f64, &str)> = (0..100).map(|i| (0.1 * i as f64, "grass")).collect();
-        let series = build_series(&[log(&rows)], &[log(&rows)]);
-        let s = &series[0];
-        assert_eq!(s.runs.len(), 2);
-        assert_eq!(s.training_samples(), 100);
-        let (train, val) = cut_windows(s, 1.0);
-        assert_eq!(train.len(), val.len());
+    fn pose_dropouts_are_bridged_or_split() {
+        // Poses missing for 1.2 s (bridged: windows may span it, none may end in it) and for
+        // 3 s (longer than MAX_POSE_GAP_S: the run splits).
+        let mut text = String::from("t_s,left_mps,right_mps,x_m,y_m,yaw_rad,terrain\n");
+        for i in 0..600 {
+            let t = 0.1 * i as f64;
+            let gap = (10.2..11.4).contains(&t) || (30.0..33.0).contains(&t);
+            if gap {
+                text.push_str(&format!("{t},1,1,,,,grass\n"));
+            } else {
+                text.push_str(&format!("{t},1,1,{t},0,0,grass\n"));
+            }
+        }
+        let log = parse_log(Path::new("g.csv"), &text).expect("valid");
+        let s = build_series(&[log], &[]).remove(0);
+        assert_eq!(s.runs.len(), 2, "{:?}", s.runs);
+        let (train, _) = cut_windows(&s, 2.0);
+        assert!(train.iter().all(|w| s.pose_ok[w.start] && s.pose_ok[w.end]));
+        assert!(
+            train.iter().any(|w| s.t_s[w.start] <= 10.2 && s.t_s[w.end] >= 11.4),
+            "a window spans the short dropout"
+        );
     }
 }

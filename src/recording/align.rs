@@ -168,6 +168,9 @@ pub fn assemble(
             y_m: p.y_m,
             yaw_rad: p.yaw_rad,
             terrain,
+            // Samples are taken at the pose times, so every sample has a measured pose; a pose
+            // the recording repeats while moving is marked by the log checks (`fit::hygiene`).
+            pose_missing: false,
         });
     }
     if samples.len() < 2 {

@@ -32,6 +32,12 @@ struct CompareDocument<'a> {
     /// Seed of the drift Monte Carlo, when ranked by drift.
     #[serde(skip_serializing_if = "Option::is_none")]
     seed: Option<u64>,
+    /// The drift's odometry and heading source, when ranked by drift.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    drift_sources: Option<&'a str>,
+    /// What the drift figures leave out, when ranked by drift.
+    #[serde(skip_serializing_if = "<[String]>::is_empty")]
+    warnings: &'a [String],
     caution: &'static str,
     ranking: &'a [Ranked],
 }
@@ -53,6 +59,8 @@ pub fn compare_json(c: &Comparison) -> String {
         ranked_by: c.by.name(),
         ranked_on: ranked_on(c),
         seed: c.seed,
+        drift_sources: c.drift_sources.as_deref(),
+        warnings: &c.warnings,
         caution: CAUTION,
         ranking: &c.ranking,
     };
@@ -96,6 +104,16 @@ pub fn compare_table(c: &Comparison, opts: &TableOptions) -> String {
     let profile = if c.run.demo_profile { " (built-in demo profile; pass --vehicle FILE for your own)" } else { "" };
     let _ = writeln!(out, "vehicle: {}{profile}", c.run.vehicle_name);
     let _ = writeln!(out, "ranked by verdict, then {}", ranked_on(c));
+    if let (Some(sources), Some(seed)) = (&c.drift_sources, c.seed) {
+        let _ = writeln!(
+            out,
+            "drift: CEP95 at the route end if localization is lost at its start; {sources}; {} samples, seed {seed}",
+            crate::compare::DRIFT_RANKING_SAMPLES
+        );
+    }
+    for w in &c.warnings {
+        let _ = writeln!(out, "drift warning: {w}");
+    }
     if c.fell_back_to_time {
         let _ = writeln!(out, "({} is not available for every route; ranked by time instead)", c.by.name());
     }

@@ -232,8 +232,13 @@ mod tests {
             legs: vec![leg("gravel", vec![[0.0, 0.0], [12.0, 0.0]]), leg("asphalt", vec![[12.0, 0.0], [12.0, 8.0]])],
             warnings: Vec::new(),
         };
-        let settings =
-            DriftSettings { samples: 12, seed: 1, lost_from_leg: 1, odometry: Odometry::Calibrated, paths_kept: 4 };
+        let settings = DriftSettings {
+            samples: 12,
+            seed: 1,
+            odometry: Odometry::Calibrated,
+            paths_kept: 4,
+            ..DriftSettings::default()
+        };
         let report = run_drift(&route, &Profile::demo(), &settings, &NoProgress).expect("run");
         let dir = tempfile::tempdir().expect("tempdir");
         let svg = dir.path().join("d.svg");

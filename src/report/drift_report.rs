@@ -114,12 +114,8 @@ pub fn drift_table(report: &DriftReport, demo_profile: bool) -> String {
     let _ = writeln!(out, "route '{}' from {}", report.route, crate::limits::printable(&report.source));
     let _ = writeln!(
         out,
-        "localization lost at the start of leg {} ({:.0} m along the route); {} odometry; {} samples, seed {}",
-        report.lost_from_leg,
-        report.loss_start_m,
-        report.odometry.name(),
-        report.samples,
-        report.seed
+        "localization lost at the start of leg {} ({:.0} m along the route); dead reckoning: {}; {} samples, seed {}",
+        report.lost_from_leg, report.loss_start_m, report.sources, report.samples, report.seed
     );
     let mut t = Table::new();
     t.load_style(presets::UTF8_FULL_CONDENSED).set_content_arrangement(ContentArrangement::Disabled);
@@ -146,6 +142,9 @@ pub fn drift_table(report: &DriftReport, demo_profile: bool) -> String {
          reached the leg end;\nalong is positive ahead, across positive to the left; CEP50/CEP95: half / 95 % \
          of samples lie within this distance."
     );
+    for w in &report.warnings {
+        let _ = writeln!(out, "warning: {w}");
+    }
     if report.timed_out > 0 {
         let _ = writeln!(
             out,
@@ -283,8 +282,13 @@ mod tests {
             legs: vec![leg("gravel", vec![[0.0, 0.0], [15.0, 0.0]]), leg("grass", vec![[15.0, 0.0], [15.0, 10.0]])],
             warnings: Vec::new(),
         };
-        let settings =
-            DriftSettings { samples: 30, seed: 3, lost_from_leg: 1, odometry: Odometry::Ideal, paths_kept: 5 };
+        let settings = DriftSettings {
+            samples: 30,
+            seed: 3,
+            odometry: Odometry::Ideal,
+            paths_kept: 5,
+            ..DriftSettings::default()
+        };
         let report = run_drift(&route, &Profile::demo(), &settings, &NoProgress).expect("run");
         (route, report)
     }

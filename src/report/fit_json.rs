@@ -3,6 +3,7 @@
 
 use serde::Serialize;
 
+use crate::fit::hygiene::LogCheck;
 use crate::fit::{FitRun, FitSettings, InputSummary, TerrainFit};
 use crate::CAUTION;
 
@@ -19,6 +20,7 @@ struct FitDocument<'a> {
     settings: &'a FitSettings,
     holdout: &'a str,
     inputs: &'a [InputSummary],
+    log_checks: &'a [LogCheck],
     terrains: &'a [TerrainFit],
     kept_from_base: &'a [String],
     caution: &'static str,
@@ -35,6 +37,7 @@ pub fn fit_json(run: &FitRun) -> String {
         settings: &run.settings,
         holdout: &run.holdout,
         inputs: &run.inputs,
+        log_checks: &run.log_checks,
         terrains: &run.terrains,
         kept_from_base: &run.kept_from_base,
         caution: CAUTION,

@@ -16,6 +16,7 @@ use plotters::prelude::*;
 use super::plot::terrain_color;
 use super::ReportError;
 use crate::fit::stats::Spread;
+use crate::fit::validate::WindowError;
 use crate::fit::{plotted_end_points, FitRun, TerrainFit, TerrainOutcome, TurnPoint};
 
 const PANEL_W_PX: u32 = 620;
@@ -188,7 +189,22 @@ where
     DB::ErrorType: 'static,
 {
     let Some(chosen) = t.chosen() else { return Ok(()) };
-    let ends: Vec<_> = plotted_end_points(&chosen.errors).collect();
+    let ends: Vec<&WindowError> = plotted_end_points(&chosen.errors).collect();
+    let caption = format!("{}: validation window ends, {} ({} windows)", t.terrain, chosen.family, ends.len());
+    end_points_panel(area, &caption, &ends, "predicted end")
+}
+
+/// Measured against model-predicted window ends in each window's start frame (forward, left),
+/// joined by a line, equal scales: the panel `fit` and `replay` share.
+pub(crate) fn end_points_panel<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    caption: &str,
+    ends: &[&WindowError],
+    predicted_label: &str,
+) -> DrawResult<()>
+where
+    DB::ErrorType: 'static,
+{
     let xs = ends.iter().flat_map(|e| [e.measured[0], e.predicted[0]]);
     let ys = ends.iter().flat_map(|e| [e.measured[1], e.predicted[1]]);
     let (x0, x1) = robust_range(xs.chain(std::iter::once(0.0)));
@@ -199,9 +215,8 @@ where
     let m_per_px = ((x1 - x0) / pw).max((y1 - y0) / ph);
     let (cx, cy) = (0.5 * (x0 + x1), 0.5 * (y0 + y1));
     let (hx, hy) = (0.5 * m_per_px * pw, 0.5 * m_per_px * ph);
-    let caption = format!("{}: validation window ends, {} ({} windows)", t.terrain, chosen.family, ends.len());
     let axes = ("forward from the window start, m", "left, m");
-    let mut chart = panel_chart(area, &caption, (cx - hx)..(cx + hx), (cy - hy)..(cy + hy), axes)?;
+    let mut chart = panel_chart(area, caption, (cx - hx)..(cx + hx), (cy - hy)..(cy + hy), axes)?;
     chart.draw_series(ends.iter().map(|e| {
         PathElement::new(
             vec![(e.measured[0], e.measured[1]), (e.predicted[0], e.predicted[1])],
@@ -216,7 +231,7 @@ where
         .legend(move |(x, y)| Circle::new((x + 10, y), 4, measured.filled()));
     chart
         .draw_series(ends.iter().map(|e| Cross::new((e.predicted[0], e.predicted[1]), 3, predicted.stroke_width(2))))?
-        .label("predicted end")
+        .label(predicted_label.to_string())
         .legend(move |(x, y)| Cross::new((x + 10, y), 4, predicted.stroke_width(2)));
     super::plot::draw_series_labels(&mut chart, 13)?;
     Ok(())

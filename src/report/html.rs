@@ -92,12 +92,15 @@ fn route_section(out: &mut String, r: &RouteReport, warnings: &[String]) {
         let _ = writeln!(
             out,
             "<p>drift: 95 % radial error at each leg end if localization is lost from leg {}, {} Monte Carlo \
-             samples, seed {}, {} odometry.</p>",
+             samples, seed {}, {}.</p>",
             d.lost_from_leg,
             d.samples,
             d.seed,
-            escape(d.odometry)
+            escape(&d.sources)
         );
+        for w in &d.warnings {
+            let _ = writeln!(out, "<p>drift warning: {}</p>", escape(w));
+        }
     } else {
         out.push_str("<p>drift not computed (check --drift adds it).</p>\n");
     }
@@ -127,7 +130,8 @@ fn route_section(out: &mut String, r: &RouteReport, warnings: &[String]) {
 fn ranking_section(out: &mut String, c: &Comparison) {
     let on = if c.fell_back_to_time { "time" } else { c.by.name() };
     let seed = c.seed.map_or(String::new(), |s| {
-        format!("; drift: CEP95 at the route end if localization is lost at the start, seed {s}")
+        let sources = c.drift_sources.as_deref().map_or(String::new(), |d| format!(", {}", escape(d)));
+        format!("; drift: CEP95 at the route end if localization is lost at the start, seed {s}{sources}")
     });
     let _ = writeln!(out, "<h2>ranking (verdict first, then {on})</h2>");
     if !seed.is_empty() {

@@ -18,6 +18,8 @@ pub mod plot;
 pub mod predicted;
 mod preflight;
 pub mod relaxed;
+pub mod replay_plot;
+pub mod replay_report;
 pub mod table;
 pub mod trace_csv;
 

@@ -139,9 +139,12 @@ pub fn check_table(run: &CheckRun, opts: &TableOptions) -> String {
             let _ = writeln!(
                 out,
                 "  drift: CEP95 = 95 % of {} simulated drives end within this distance of where the vehicle believes \
-                 it is, localization lost from leg {}, {} odometry, seed {}",
-                d.samples, d.lost_from_leg, d.odometry, d.seed
+                 it is, localization lost from leg {}; {}; seed {}",
+                d.samples, d.lost_from_leg, d.sources, d.seed
             );
+            for w in &d.warnings {
+                let _ = writeln!(out, "  drift warning: {w}");
+            }
         }
         let battery = match r.battery_used_fraction {
             Some(f) => format!(" ({:.0} % of the battery)", 100.0 * f),

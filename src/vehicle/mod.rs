@@ -97,6 +97,32 @@ pub struct TerrainSpec {
     pub noise_heading_rad_per_sqrt_m: f64,
     pub noise_along_m_per_sqrt_m: f64,
     pub noise_cross_m_per_sqrt_m: f64,
+    /// Where the model came from, when `fit` wrote it (the `calibrat*` keys).
+    pub calibration: Option<TerrainCalibration>,
+}
+
+/// What `fit` records about a terrain's model (keys `calibrated`, `calibration_source`,
+/// `calibration_translation_error`, `calibration_horizon_s`).
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct TerrainCalibration {
+    /// True when the model was fitted to drive logs; false for a terrain `fit` kept unchanged.
+    pub calibrated: bool,
+    /// The data it came from, or why it was not fitted, in words.
+    pub source: Option<String>,
+    /// Median relative translation error on the validation windows (a fraction), what
+    /// `replay` compares new logs with.
+    pub translation_error: Option<f64>,
+    /// Horizon of the windows the model was fitted and validated on, seconds.
+    pub horizon_s: Option<f64>,
+}
+
+/// The vehicle's gyro (`[imu]`), for dead reckoning with gyro heading in `drift` (docs/drift.md).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ImuSpec {
+    /// Standard deviation of the gyro's bias over a run (turn-on to turn-on), degrees per hour.
+    pub gyro_bias_sd_deg_per_h: f64,
+    /// Angle random walk, degrees per square-root hour.
+    pub gyro_arw_deg_per_sqrt_h: f64,
 }
 
 /// A validated vehicle profile.
@@ -106,6 +132,8 @@ pub struct Profile {
     pub follower: FollowerSpec,
     /// Terrains by name, sorted.
     pub terrain: BTreeMap<String, TerrainSpec>,
+    /// The gyro, when the profile has an `[imu]` section.
+    pub imu: Option<ImuSpec>,
 }
 
 impl Profile {

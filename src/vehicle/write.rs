@@ -2,7 +2,7 @@
 //! profiles). Every key is written; floats use Rust's shortest round-trip representation, so
 //! `parse_profile(profile_to_toml(p))` gives back exactly `p`. SI units, as in the input format.
 
-use super::{FollowerSpec, InverseChoice, Profile, TerrainSpec, VehicleSpec};
+use super::{FollowerSpec, ImuSpec, InverseChoice, Profile, TerrainSpec, VehicleSpec};
 use crate::kinematics::{Model, MotionModel};
 
 /// The complete profile as TOML text. Each line of `header_comment` becomes a `# ` comment line
@@ -32,10 +32,20 @@ pub fn profile_to_toml(p: &Profile, header_comment: &str) -> String {
     }
     write_vehicle(&mut out, &p.vehicle);
     write_follower(&mut out, &p.follower);
+    if let Some(imu) = &p.imu {
+        write_imu(&mut out, imu);
+    }
     for (name, terrain) in &p.terrain {
         write_terrain(&mut out, name, terrain);
     }
     out
+}
+
+fn write_imu(out: &mut String, imu: &ImuSpec) {
+    out.push_str("[imu]\n");
+    assign(out, "gyro_bias_sd_deg_per_h", &float(imu.gyro_bias_sd_deg_per_h));
+    assign(out, "gyro_arw_deg_per_sqrt_h", &float(imu.gyro_arw_deg_per_sqrt_h));
+    out.push('\n');
 }
 
 /// A float as a TOML float that parses back to the same `f64` (integers keep their `.0`).
@@ -158,6 +168,18 @@ fn write_terrain(out: &mut String, name: &str, t: &TerrainSpec) {
     assign(out, "noise_heading_rad_per_sqrt_m", &float(t.noise_heading_rad_per_sqrt_m));
     assign(out, "noise_along_m_per_sqrt_m", &float(t.noise_along_m_per_sqrt_m));
     assign(out, "noise_cross_m_per_sqrt_m", &float(t.noise_cross_m_per_sqrt_m));
+    if let Some(c) = &t.calibration {
+        assign(out, "calibrated", if c.calibrated { "true" } else { "false" });
+        if let Some(source) = &c.source {
+            assign(out, "calibration_source", &string(source));
+        }
+        if let Some(e) = c.translation_error {
+            assign(out, "calibration_translation_error", &float(e));
+        }
+        if let Some(h) = c.horizon_s {
+            assign(out, "calibration_horizon_s", &float(h));
+        }
+    }
     out.push('\n');
 }
 
@@ -191,6 +213,12 @@ mod tests {
             noise_heading_rad_per_sqrt_m: 4.2e-3,
             noise_along_m_per_sqrt_m: 1e-7,
             noise_cross_m_per_sqrt_m: 0.0,
+            calibration: Some(crate::vehicle::TerrainCalibration {
+                calibrated: true,
+                source: Some("fit of \"quoted\" logs".to_string()),
+                translation_error: Some(0.1 + 0.2),
+                horizon_s: None,
+            }),
         }
     }
 
@@ -228,6 +256,7 @@ mod tests {
         p.vehicle.mass_kg = 480.0 + 0.1 + 0.2; // an awkward float within the plausible range
         p.follower.inverse_model = InverseChoice::Calibrated;
         p.follower.max_lateral_accel_mps2 = Some(0.65);
+        p.imu = Some(ImuSpec { gyro_bias_sd_deg_per_h: 1.0 / 3.0, gyro_arw_deg_per_sqrt_h: 0.0 });
         p.terrain.clear();
         for model in every_family(p.vehicle.track_width_m) {
             p.terrain.insert(format!("{}_t", model.family()), terrain(model));

@@ -12,10 +12,11 @@
 //! unknown array never reaches memory.
 //!
 //! One file per part of the profile: `vehicle.rs` (`[vehicle]`), `follower.rs` (`[follower]`),
-//! `terrain.rs` (`[terrain.NAME]`, models, schedules, covariances); `section.rs` holds the table
-//! walker and the number rules they share.
+//! `terrain.rs` (`[terrain.NAME]`, models, schedules, covariances, calibration marks), `imu.rs`
+//! (the optional `[imu]`); `section.rs` holds the table walker and the number rules they share.
 
 mod follower;
+mod imu;
 mod section;
 mod terrain;
 mod vehicle;
@@ -30,7 +31,7 @@ use toml::de::DeTable;
 use super::{Profile, VehicleError};
 use section::{Diagnostics, Section};
 
-const TOP_KEYS: &[&str] = &["vehicle", "follower", "terrain"];
+const TOP_KEYS: &[&str] = &["vehicle", "follower", "terrain", "imu"];
 
 /// Most TOML tokens (keys, values, punctuation, blanks, comments, line ends) a profile may hold.
 /// A complete profile has a few thousand; at this bound the parsed tree stays within a few tens
@@ -60,9 +61,11 @@ pub fn parse_profile_with_warnings(path: &Path, text: &str) -> Result<(Profile, 
     let follower = root.table("follower").map(|s| follower::parse_follower(&s));
     let track_width_m = vehicle.as_ref().map_or(1.0, |v| v.track_width_m);
     let terrain = root.table("terrain").map(|s| terrain::parse_terrains(&s, track_width_m));
+    // Optional: only a present `[imu]` is read (and must then be a table with both keys).
+    let imu = root.get("imu").and_then(|_| root.table("imu")).map(|s| imu::parse_imu(&s));
     let warnings = diag.finish()?;
     match (vehicle, follower, terrain) {
-        (Some(vehicle), Some(follower), Some(terrain)) => Ok((Profile { vehicle, follower, terrain }, warnings)),
+        (Some(vehicle), Some(follower), Some(terrain)) => Ok((Profile { vehicle, follower, terrain, imu }, warnings)),
         // A missing table is an error, and `finish` has returned it.
         _ => Err(VehicleError::File { file: path.to_path_buf(), what: "incomplete profile".to_string() }),
     }
@@ -142,6 +145,8 @@ fn unknown_key_suggestion(path: &str) -> Option<&'static str> {
     match parts.as_slice() {
         [top] => section::suggestion(top, TOP_KEYS),
         ["vehicle", key] => section::suggestion(key, vehicle::VEHICLE_KEYS),
+        ["follower", key] => section::suggestion(key, follower::FOLLOWER_KEYS),
+        ["imu", key] => section::suggestion(key, imu::IMU_KEYS),
         _ => None,
     }
 }
@@ -245,6 +250,7 @@ impl KeyTracker {
             [top] => TOP_KEYS.contains(top),
             ["vehicle", key] => vehicle::VEHICLE_KEYS.contains(key),
             ["follower", key] => follower::FOLLOWER_KEYS.contains(key),
+            ["imu", key] => imu::IMU_KEYS.contains(key),
             ["terrain", _] => header,
             ["terrain", _, key] => {
                 terrain::TERRAIN_COMMON_KEYS.contains(key)

@@ -1,5 +1,6 @@
 //! `[terrain.NAME]`: one motion model per terrain (its family decides the parameter keys), the
-//! traction coefficients, an optional schedule, covariance and noise intensities.
+//! traction coefficients, an optional schedule, covariance and noise intensities, and the marks
+//! `fit` leaves on a terrain it calibrated (`calibrated`, `calibration_*`).
 
 use std::collections::BTreeMap;
 
@@ -8,7 +9,7 @@ use toml::de::DeValue;
 use super::section::{check_number, describe, Plausible, Rule, Section};
 use crate::kinematics::{ExtendedScheduled, Family, Model, MotionModel, ScheduleRow};
 use crate::limits::{clip, show_number};
-use crate::vehicle::TerrainSpec;
+use crate::vehicle::{TerrainCalibration, TerrainSpec};
 
 /// Keys every terrain table may hold, whatever its family.
 pub(super) const TERRAIN_COMMON_KEYS: &[&str] = &[
@@ -20,7 +21,15 @@ pub(super) const TERRAIN_COMMON_KEYS: &[&str] = &[
     "noise_heading_rad_per_sqrt_m",
     "noise_along_m_per_sqrt_m",
     "noise_cross_m_per_sqrt_m",
+    "calibrated",
+    "calibration_source",
+    "calibration_translation_error",
+    "calibration_horizon_s",
 ];
+
+/// The keys of a terrain's calibration marks.
+const CALIBRATION_KEYS: [&str; 4] =
+    ["calibrated", "calibration_source", "calibration_translation_error", "calibration_horizon_s"];
 
 /// Relative tolerance for covariance symmetry.
 const SYMMETRY_REL_TOL: f64 = 1e-9;
@@ -33,6 +42,11 @@ const COEFFICIENT: Plausible = Plausible { unit: "", max: 10.0, usual: (0.0, 2.0
 /// Dimensionless model parameters (slip factors, track expansion) and ICR offsets, in metres.
 const PARAMETER: Plausible = Plausible { unit: "", max: 1e3, usual: (-1e3, 1e3), hint: "" };
 const NOISE: Plausible = Plausible { unit: "", max: 1e3, usual: (0.0, 1.0), hint: "per square-root metre" };
+/// Median relative translation error of the validation windows: a fraction (0.04 is 4 %).
+const TRANSLATION_ERROR: Plausible =
+    Plausible { unit: "", max: 100.0, usual: (0.0, 1.0), hint: "a fraction, not percent" };
+/// Horizon of the identification windows: `fit` takes seconds to minutes.
+const HORIZON: Plausible = Plausible { unit: "s", max: 1e5, usual: (0.05, 600.0), hint: "is it in seconds?" };
 
 pub(crate) fn valid_terrain_name(name: &str) -> bool {
     !name.is_empty() && name.chars().all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_')
@@ -88,6 +102,7 @@ fn parse_terrain(s: &Section, track_width_m: f64) -> Option<TerrainSpec> {
     let covariance = s.get("covariance").and_then(|v| parse_covariance(s, v.get_ref(), &model));
     let (rolling_resistance, traction_coefficient, lateral_resistance_max) = coefficients;
     let (noise_heading_rad_per_sqrt_m, noise_along_m_per_sqrt_m, noise_cross_m_per_sqrt_m) = noises;
+    let calibration = parse_calibration(s);
     Some(TerrainSpec {
         model,
         rolling_resistance,
@@ -97,6 +112,25 @@ fn parse_terrain(s: &Section, track_width_m: f64) -> Option<TerrainSpec> {
         noise_heading_rad_per_sqrt_m,
         noise_along_m_per_sqrt_m,
         noise_cross_m_per_sqrt_m,
+        calibration,
+    })
+}
+
+/// The optional calibration marks `fit` writes; `None` when the terrain has none of them.
+/// `calibrated` defaults to false (a terrain `fit` kept as it was).
+fn parse_calibration(s: &Section) -> Option<TerrainCalibration> {
+    if CALIBRATION_KEYS.iter().all(|k| s.get(k).is_none()) {
+        return None;
+    }
+    Some(TerrainCalibration {
+        calibrated: s.get("calibrated").is_some() && s.boolean("calibrated"),
+        source: s.get("calibration_source").map(|_| s.string("calibration_source").to_string()),
+        translation_error: s.optional_plausible_number(
+            "calibration_translation_error",
+            Rule::NonNegative,
+            &TRANSLATION_ERROR,
+        ),
+        horizon_s: s.optional_plausible_number("calibration_horizon_s", Rule::Positive, &HORIZON),
     })
 }
 

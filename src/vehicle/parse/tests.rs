@@ -86,6 +86,15 @@ fn demo_parses_with_all_terrains() {
 }
 
 #[test]
+fn demo_has_a_gyro_and_the_fuzz_seed_is_a_copy_of_it() {
+    let imu = parse(DEMO_PROFILE_TOML).expect("demo profile").imu.expect("the demo profile has an [imu]");
+    assert_relative_eq!(imu.gyro_bias_sd_deg_per_h, 10.0);
+    assert_relative_eq!(imu.gyro_arw_deg_per_sqrt_h, 0.3);
+    // The fuzz target's seed profile must stay the demo, section for section.
+    assert_eq!(include_str!("../../../fuzz/seeds/profile_toml/demo.toml"), DEMO_PROFILE_TOML);
+}
+
+#[test]
 fn demo_constructor_works() {
     let p = Profile::demo();
     assert_relative_eq!(p.vehicle.track_width_m, 0.9);
@@ -309,4 +318,75 @@ fn rejects_an_implausible_control_rate() {
         let e = parse_profile(Path::new("p.toml"), &text).expect_err(bad).to_string();
         assert!(e.starts_with("p.toml: follower.control_rate_hz: must be between 0.1 and 10000 Hz"), "{e}");
     }
+}
+
+#[test]
+fn imu_section_is_optional_and_checked() {
+    assert_eq!(parse(BASE).expect("base").imu, None);
+    let with = |body: &str| format!("{BASE}\n[imu]\n{body}\n");
+    let p = parse(&with("gyro_bias_sd_deg_per_h = 10\ngyro_arw_deg_per_sqrt_h = 0.3")).expect("imu");
+    let imu = p.imu.expect("imu present");
+    assert_relative_eq!(imu.gyro_bias_sd_deg_per_h, 10.0);
+    assert_relative_eq!(imu.gyro_arw_deg_per_sqrt_h, 0.3);
+    // `lateral_resistance_max` ends the base text on line 30, so `[imu]` is on line 32.
+    let e = error_of(&with("gyro_bias_sd_deg_per_h = 10"));
+    assert!(e.contains("imu: missing required key gyro_arw_deg_per_sqrt_h (a number >= 0) (line 32)"), "{e}");
+    let e = error_of(&with("gyro_bias_sd_deg_per_h = -1\ngyro_arw_deg_per_sqrt_h = 0.3"));
+    assert!(e.contains("imu.gyro_bias_sd_deg_per_h: must be a number >= 0, got -1 (line 33)"), "{e}");
+    let e = error_of(&with("gyro_bias_sd_deg_per_hr = 1\ngyro_arw_deg_per_sqrt_h = 0.3"));
+    assert!(e.contains("imu.gyro_bias_sd_deg_per_hr: unknown key (did you mean gyro_bias_sd_deg_per_h?)"), "{e}");
+    // Several problems are listed together.
+    let e = error_of(&with("gyro_bias_sd_deg_per_h = -1\ngyro_arw_deg_per_sqrt_h = \"0.3\""));
+    assert!(
+        e.contains("gyro_bias_sd_deg_per_h") && e.contains("gyro_arw_deg_per_sqrt_h: must be a number >= 0"),
+        "{e}"
+    );
+    let e = error_of(&format!("imu = 3\n{BASE}"));
+    assert!(e.contains("test.toml: imu: must be a table, got 3 (line 1)"), "{e}");
+    // Degrees per second mistaken for per hour is beyond any gyro that measures a heading;
+    // an unusual value is a warning.
+    let e = error_of(&with("gyro_bias_sd_deg_per_h = 2e5\ngyro_arw_deg_per_sqrt_h = 0.3"));
+    assert!(e.contains("imu.gyro_bias_sd_deg_per_h: 200000 deg/h is beyond the possible 100000 deg/h"), "{e}");
+    let (_, warnings) = super::parse_profile_with_warnings(
+        Path::new("test.toml"),
+        &with("gyro_bias_sd_deg_per_h = 10\ngyro_arw_deg_per_sqrt_h = 30"),
+    )
+    .expect("unusual, kept");
+    assert!(
+        warnings.iter().any(|w| w.contains("imu.gyro_arw_deg_per_sqrt_h") && w.contains("(line 34)")),
+        "{warnings:?}"
+    );
+}
+
+#[test]
+fn calibration_keys_are_optional_and_checked() {
+    let with =
+        |extra: &str| replaced("lateral_resistance_max = 0.35", &format!("lateral_resistance_max = 0.35\n{extra}"));
+    assert_eq!(parse(BASE).expect("base").terrain["packed-snow"].calibration, None);
+    let p = parse(&with(
+        "calibrated = true\ncalibration_source = \"fit of a.csv\"\ncalibration_translation_error = 0.043\ncalibration_horizon_s = 2.0",
+    ))
+    .expect("calibrated");
+    let c = p.terrain["packed-snow"].calibration.clone().expect("calibration");
+    assert!(c.calibrated);
+    assert_eq!(c.source.as_deref(), Some("fit of a.csv"));
+    assert_eq!(c.translation_error, Some(0.043));
+    assert_eq!(c.horizon_s, Some(2.0));
+    // Any one key gives the marks; `calibrated` defaults to false.
+    let p = parse(&with("calibration_source = \"kept: no logs on this terrain\"")).expect("source only");
+    let c = p.terrain["packed-snow"].calibration.clone().expect("calibration");
+    assert!(!c.calibrated);
+    assert_eq!(c.horizon_s, None);
+    // `lateral_resistance_max` is on line 30 of the base text, so the new key is on line 31.
+    let e = error_of(&with("calibration_translation_error = -0.1"));
+    assert!(e.contains("terrain.packed-snow.calibration_translation_error: must be a number >= 0"), "{e}");
+    assert!(e.contains("(line 31)"), "{e}");
+    let e = error_of(&with("calibrated = \"yes\""));
+    assert!(e.contains("terrain.packed-snow.calibrated: must be true or false"), "{e}");
+    let e = error_of(&with("calibration_horizon_s = 0"));
+    assert!(e.contains("terrain.packed-snow.calibration_horizon_s: must be a positive number, got 0"), "{e}");
+    let e = error_of(&with("calibration_source = 3"));
+    assert!(e.contains("terrain.packed-snow.calibration_source: must be a string"), "{e}");
+    let e = error_of(&with("calibrated_on = 3"));
+    assert!(e.contains("calibrated_on: unknown key (did you mean calibrated?)"), "{e}");
 }
