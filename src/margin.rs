@@ -1,5 +1,7 @@
 //! Margins to failure per leg (docs/method.md, Verdicts: margins): the highest speed at which a
-//! leg does not fail, found by bisection over full simulations of the leg.
+//! leg does not fail, found by bisection over full simulations of the leg. A leg with a
+//! planner's speed profile is searched with the whole profile scaled: the speed reported is the
+//! profile's largest value at which the leg passes (the shape of the profile is kept).
 //!
 //! A leg fails at a speed when a turn needs more than the vehicle can drive there at that speed
 //! (checked on the plan, cheap), when its grades need more than traction gives (independent of
@@ -104,10 +106,12 @@ pub fn max_passing_speed(
     }
     let plan_top = if turns_pass(top) { top } else { bisect(MIN_TRIED_SPEED_MPS, top, 1e-4, turns_pass) };
     let mut steps = 0u64;
-    let mut speeds = drive.speeds_mps.clone();
+    let nominal = drive.legs[leg].speed_mps;
     let mut simulate_passes = |v: f64| {
-        speeds[leg] = v;
-        let (ok, n) = leg_passes(drive, &speeds, from, leg, max_steps);
+        // The leg's profile scaled so its largest value is v; the envelope is rebuilt from
+        // where the simulation resumes.
+        let scaled = drive.speeds.scaled(&drive.plan, leg, v / nominal, from.progress_m());
+        let (ok, n) = leg_passes(drive, drive.speeds.view_with(&scaled), from, leg, max_steps);
         steps += n;
         ok
     };

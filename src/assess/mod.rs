@@ -148,17 +148,42 @@ pub fn leg_steps(trace: &Trace, leg: usize) -> &[crate::rollout::Step] {
     &trace.steps[a..b.max(a)]
 }
 
-/// Deviation statistics of the steps on one leg: (max, rms, end, time).
-fn deviation_stats(trace: &Trace, leg: usize, dt_s: f64) -> (f64, f64, f64, f64) {
-    let (mut max, mut sum_sq, mut n, mut end) = (0.0_f64, 0.0, 0usize, 0.0);
+/// Deviation statistics of the steps on one leg.
+#[derive(Debug, Clone, Copy, Default)]
+struct Deviation {
+    max_m: f64,
+    rms_m: f64,
+    end_m: f64,
+    time_s: f64,
+    /// The step whose deviation is the largest share of the corridor where it is: that share,
+    /// the deviation, the corridor there and where.
+    worst_share: f64,
+    worst_m: f64,
+    worst_corridor_m: f64,
+    worst_at_m: f64,
+}
+
+/// Deviation statistics of the steps on leg `leg`, each deviation against the corridor at its
+/// progress point (the corridor profile, linear between the plan's points).
+fn deviation_stats(drive: &RouteDrive, trace: &Trace, leg: usize) -> Deviation {
+    let (mut d, mut sum_sq, mut n) = (Deviation::default(), 0.0, 0usize);
+    let speeds = drive.speeds.view();
+    let mut cursor = crate::route::Cursor::default();
     for s in leg_steps(trace, leg) {
-        max = max.max(s.deviation_m);
+        d.max_m = d.max_m.max(s.deviation_m);
         sum_sq += s.deviation_m * s.deviation_m;
         n += 1;
-        end = s.deviation_m;
+        d.end_m = s.deviation_m;
+        let corridor_m = speeds.corridor_at(&drive.plan, s.progress_m, &mut cursor);
+        let share = s.deviation_m / corridor_m;
+        if share > d.worst_share {
+            (d.worst_share, d.worst_m, d.worst_corridor_m, d.worst_at_m) =
+                (share, s.deviation_m, corridor_m, s.progress_m);
+        }
     }
-    let rms = if n > 0 { (sum_sq / n as f64).sqrt() } else { 0.0 };
-    (max, rms, end, n as f64 * dt_s)
+    d.rms_m = if n > 0 { (sum_sq / n as f64).sqrt() } else { 0.0 };
+    d.time_s = n as f64 * drive.limits.dt_s;
+    d
 }
 
 /// The speed-independent plan facts of every leg of a drive.
@@ -291,7 +316,8 @@ pub(crate) fn assess_leg(
     let (start_m, end_m) = drive.plan.leg_bounds_m(i);
     let turns = check_turns(drive, i, plan, speed_mps);
     let achievable = turns.achievable;
-    let (max_dev, rms_dev, end_dev, time_s) = deviation_stats(trace, i, drive.limits.dt_s);
+    let dev = deviation_stats(drive, trace, i);
+    let (max_dev, rms_dev, end_dev, time_s) = (dev.max_m, dev.rms_m, dev.end_m, dev.time_s);
     let mut failing_turns = turns.failing.clone();
     if let Some(origin) = &route.origin {
         for t in &mut failing_turns {
@@ -335,7 +361,8 @@ pub(crate) fn assess_leg(
         reasons: Vec::new(),
     };
     judge_turns(&mut leg, &turns, drive);
-    judge_motion(&mut leg, drive, trace, i);
+    let corridor_varies = route.legs.get(i).is_some_and(|l| l.corridors_m.is_some());
+    judge_motion(&mut leg, drive, trace, i, &dev, corridor_varies);
     judge_grades(&mut leg, plan, drive, i);
     judge_effort(&mut leg, &effort, plan, drive);
     leg
@@ -350,15 +377,15 @@ fn add(leg: &mut LegReport, v: Verdict, why: String) {
     leg.reasons.push(why);
 }
 
-/// The turn rules (docs/method.md, Verdicts): a turn the vehicle cannot drive at the leg's speed
-/// and the grade where it is fails the leg, each such turn named; a turn above 80 % of what it
+/// The turn rules (docs/method.md, Verdicts): a turn the vehicle cannot drive at the speed planned
+/// there and the grade where it is fails the leg, each such turn named; a turn above 80 % of what it
 /// can drive earns a caution.
 fn judge_turns(leg: &mut LegReport, turns: &TurnCheck, drive: &RouteDrive) {
     let scale_m = drive.curvature_scale_m;
-    let (speed, terrain) = (leg.speed_mps, leg.terrain.clone());
+    let (speed, terrain) = (turns.worst_speed_mps, leg.terrain.clone());
     let n = turns.failing.len();
     for t in turns.failing.iter().take(MAX_TURN_REASONS) {
-        add(leg, Verdict::Fail, t.reason(speed, &terrain, scale_m));
+        add(leg, Verdict::Fail, t.reason(&terrain, scale_m));
     }
     if n > MAX_TURN_REASONS {
         let more = n - MAX_TURN_REASONS;
@@ -393,17 +420,23 @@ fn judge_turns(leg: &mut LegReport, turns: &TurnCheck, drive: &RouteDrive) {
     }
 }
 
-/// The motion rules (docs/method.md, Verdicts): deviation against the corridor, planned speed
-/// above the top side speed, and a simulation that stalled, timed out or ran out of budget.
-fn judge_motion(leg: &mut LegReport, drive: &RouteDrive, trace: &Trace, i: usize) {
-    if leg.max_deviation_m > leg.corridor_m {
-        let why =
-            format!("predicted deviation {:.2} m leaves the {:.2} m corridor", leg.max_deviation_m, leg.corridor_m);
-        add(leg, Verdict::Fail, why);
-    } else if leg.max_deviation_m > CAUTION_CORRIDOR_SHARE * leg.corridor_m {
+/// The motion rules (docs/method.md, Verdicts): deviation against the corridor where it happens,
+/// planned speed above the top side speed, and a simulation that stalled, timed out or ran out of
+/// budget.
+fn judge_motion(leg: &mut LegReport, drive: &RouteDrive, trace: &Trace, i: usize, dev: &Deviation, varies: bool) {
+    // With a corridor profile the place and the corridor there are named.
+    let (at, there) =
+        if varies { (format!(" ({:.0} m along the route)", dev.worst_at_m), " there") } else { (String::new(), "") };
+    if dev.worst_share > 1.0 {
         let why = format!(
-            "predicted deviation {:.2} m is over half the {:.2} m corridor",
-            leg.max_deviation_m, leg.corridor_m
+            "predicted deviation {:.2} m{at} leaves the {:.2} m corridor{there}",
+            dev.worst_m, dev.worst_corridor_m
+        );
+        add(leg, Verdict::Fail, why);
+    } else if dev.worst_share > CAUTION_CORRIDOR_SHARE {
+        let why = format!(
+            "predicted deviation {:.2} m{at} is over half the {:.2} m corridor{there}",
+            dev.worst_m, dev.worst_corridor_m
         );
         add(leg, Verdict::Caution, why);
     }

@@ -250,3 +250,83 @@ fn the_speed_change_caution_quotes_the_table_s_thrust() {
     assert!(l.reasons.iter().any(|r| r.starts_with(&quoted)), "{quoted} not in {:?}", l.reasons);
     assert_eq!(l.verdict, Verdict::Caution, "{:?}", l.reasons);
 }
+
+/// `leg` on `terrain` with a per-point speed or corridor profile given by `f(point)`.
+fn with_profile(points: Vec<[f64; 2]>, terrain: &str, corridor_m: f64, speed: impl Fn([f64; 2]) -> f64) -> Leg {
+    let speeds = points.iter().map(|&p| speed(p)).collect();
+    let mut l = Leg { corridor_m: Some(corridor_m), ..Leg::new(terrain, points, SourcePosition::Line(2)) };
+    l.set_speed_profile(speeds);
+    l
+}
+
+#[test]
+fn turns_are_judged_at_the_speed_planned_there_and_the_margin_scales_the_profile() {
+    // Ideal kinematics with a yaw-rate clamp of 0.3 rad/s: the tightest curvature at speed v is
+    // 0.3 / v, so a 3 m arc passes up to v = 0.3 x 3 = 0.9 m/s (kinematics of the clamp). The
+    // planner drives the lead-in at 1.0 m/s, slows to 0.5 m/s from 3 m before the arc, and takes
+    // the arc at 0.5 m/s: the arc passes although the leg's nominal (largest) speed, 1.0 m/s,
+    // would not.
+    let mut p = profile();
+    p.vehicle.max_yaw_rate_radps = 0.3;
+    let speed = |q: [f64; 2]| {
+        if q[1] == 0.0 && q[0] <= -3.0 {
+            1.0
+        } else if q[1] == 0.0 && q[0] < -1.0 {
+            1.0 - 0.25 * (q[0] + 3.0)
+        } else {
+            0.5
+        }
+    };
+    let c = check_route(route(vec![with_profile(arc(3.0, 1.5), "asphalt", 5.0, speed)]), &p);
+    let l = &c.report.legs[0];
+    assert_relative_eq!(l.speed_mps, 1.0);
+    assert!(l.failing_turns.is_empty(), "{:?}", l.failing_turns);
+    assert_ne!(l.verdict, Verdict::Fail, "{:?}", l.reasons);
+    // The margin scales the whole profile: the arc reaches 0.9 m/s when the profile's largest
+    // value is 1.0 x 0.9 / 0.5 = 1.8 m/s, the speed reported.
+    let v = l.max_passing_speed_mps.expect("passes");
+    assert!((1.8 * 0.99..=1.8 + 1e-9).contains(&v), "{v}");
+    // One speed for the whole leg: judged at 1.0 m/s, the arc fails.
+    let flat = check_route(route(vec![leg(arc(3.0, 1.5), "asphalt", 1.0, 5.0)]), &p);
+    assert_eq!(flat.report.legs[0].verdict, Verdict::Fail);
+    assert_relative_eq!(flat.report.legs[0].failing_turns[0].speed_mps, 1.0);
+}
+
+#[test]
+fn deviation_is_judged_against_the_corridor_where_it_happens() {
+    // Track expansion 1.6 on a 6 m arc: a few centimetres of deviation on the arc (see the
+    // corridor test above) and none on the straight lead-in, which ideal sides drive exactly.
+    let mut p = profile();
+    p.terrain.get_mut("gravel").expect("gravel").model =
+        Model::ExtendedSymmetric(ExtendedSymmetric { track_width_m: 0.9, alpha: 1.0, track_expansion: 1.6 });
+    let pts = arc(6.0, 1.5);
+    let corridor = |narrow_on_lead_in: bool| {
+        let c: Vec<f64> = pts
+            .iter()
+            .map(|q| {
+                let lead_in = q[1] == 0.0 && q[0] <= -5.0;
+                if lead_in == narrow_on_lead_in {
+                    0.02
+                } else {
+                    1.0
+                }
+            })
+            .collect();
+        let mut l = leg(pts.clone(), "gravel", 0.8, 1.0);
+        l.set_corridor_profile(c);
+        l
+    };
+    // Narrow only where the vehicle runs exactly on the plan: passes, though the leg's corridor
+    // (the profile's smallest, as the table shows it) is narrower than its largest deviation.
+    let ok = check_route(route(vec![corridor(true)]), &p);
+    let l = &ok.report.legs[0];
+    assert_relative_eq!(l.corridor_m, 0.02);
+    assert!(l.max_deviation_m > 0.02, "{}", l.max_deviation_m);
+    assert_eq!(l.verdict, Verdict::Pass, "{:?}", l.reasons);
+    // Narrow on the arc: fails, naming the place and the corridor there.
+    let bad = check_route(route(vec![corridor(false)]), &p);
+    let l = &bad.report.legs[0];
+    assert_eq!(l.verdict, Verdict::Fail);
+    let why = l.reasons.iter().find(|r| r.contains("leaves the 0.02 m corridor there")).expect("corridor reason");
+    assert!(why.contains(" m along the route)"), "{why}");
+}

@@ -1,8 +1,8 @@
 //! The turn rules of the verdict (docs/method.md, Verdicts): every vertex of a leg's plan is
-//! checked against the curvature the vehicle can drive there, at the leg's speed and the grade
-//! where the turn is (docs/method.md, Plan curvature and Achievable curvature). The plan facts
-//! that do not depend on speed are read once per leg ([`LegPlan`]), so the margins can check the
-//! same leg at many speeds cheaply.
+//! checked against the curvature the vehicle can drive there, at the speed planned there and the
+//! grade where the turn is (docs/method.md, Plan curvature and Achievable curvature). The plan
+//! facts are read once per leg ([`LegPlan`]), so the margins can check the same leg with its speed
+//! profile scaled to many speeds cheaply.
 //!
 //! Units: metres, 1/m, radians; positions in the route's local frame.
 
@@ -26,6 +26,8 @@ pub struct TurnPoint {
     pub point: [f64; 2],
     /// |curvature| read at the vertex, 1/m.
     pub curvature_per_m: f64,
+    /// Speed the leg plans at the vertex, m/s.
+    pub speed_mps: f64,
     pub grade_rad: f64,
     /// Ground under the contact patch there (blended across a terrain boundary).
     pub ground: Ground,
@@ -36,6 +38,8 @@ pub struct TurnPoint {
 /// The facts of one leg's plan that do not depend on speed.
 #[derive(Debug, Clone, PartialEq)]
 pub struct LegPlan {
+    /// The leg's nominal speed (its profile's largest), m/s.
+    pub speed_mps: f64,
     /// Vertices that turn (reading at least 1e-3 1/m), in order.
     pub turns: Vec<TurnPoint>,
     /// Largest |curvature| of the leg and where (the leg start for a straight leg).
@@ -70,6 +74,7 @@ impl LegPlan {
                 s_m: v.s_m,
                 point: v.point,
                 curvature_per_m: k,
+                speed_mps: drive.speeds.speed_at_point(plan, leg, v.index),
                 grade_rad: 0.0,
                 ground: *ground,
                 sharp: v.sharp,
@@ -91,6 +96,7 @@ impl LegPlan {
             t.ground = drive.ground_at(t.s_m);
         }
         let mut p = LegPlan {
+            speed_mps: drive.legs[leg].speed_mps,
             turns,
             tightest_per_m: tightest,
             tightest_at_m,
@@ -148,6 +154,9 @@ pub struct FailingTurn {
     pub lat_deg: Option<f64>,
     /// Radius the plan asks for there.
     pub radius_m: f64,
+    /// Speed it is judged at: the speed planned there (scaled with the leg's profile in the
+    /// margin search).
+    pub speed_mps: f64,
     /// Tightest radius the vehicle can drive there at the leg's speed and the local grade.
     pub tightest_radius_m: f64,
     pub limited_by: CurvatureLimit,
@@ -168,28 +177,43 @@ pub struct TurnCheck {
     pub worst_ratio: f64,
     pub worst_at_m: f64,
     pub worst_per_m: f64,
+    /// Speed the turn that comes closest to failing is judged at.
+    pub worst_speed_mps: f64,
     /// Runs of consecutive vertices (each within 2 curvature scales, and at least 1.05 m, of the
     /// last) that need more than the vehicle can drive, each as its tightest point.
     pub failing: Vec<FailingTurn>,
 }
 
-/// Checks every turn of leg `leg` at `speed_mps` (docs/method.md, Verdicts). The kinematic limit
-/// (the leg's own model) is computed once; the traction limit at each turn's grade and on the
-/// ground under the contact patch there, so a turn at a terrain boundary is judged alike for the
-/// legs on both sides.
-pub fn check_turns(drive: &RouteDrive, leg: usize, plan: &LegPlan, speed_mps: f64) -> TurnCheck {
+/// Checks every turn of leg `leg` with the leg's speed profile scaled so its largest value is
+/// `top_speed_mps` (the leg's own speed for the report, other speeds for the margins; each turn
+/// is judged at the speed planned where it is, times that scale; docs/method.md, Verdicts). The
+/// kinematic limit is the leg's own model's at that speed; the traction limit at each turn's
+/// grade and on the ground under the contact patch there, so a turn at a terrain boundary is
+/// judged alike for the legs on both sides.
+pub fn check_turns(drive: &RouteDrive, leg: usize, plan: &LegPlan, top_speed_mps: f64) -> TurnCheck {
     let ld = &drive.legs[leg];
-    let kinematic = kinematic_curvature_limit(&drive.limits, &ld.controller, &ld.actual, speed_mps);
-    let at = |g: f64, ground: &Ground| Achievable {
-        kinematic_per_m: kinematic,
-        traction_per_m: Some(traction_curvature_limit(&drive.vehicle, ground, speed_mps, Slope::grade(g))),
+    let scale = if plan.speed_mps > 0.0 { top_speed_mps / plan.speed_mps } else { 1.0 };
+    // Most legs plan one speed: the kinematic limit is then computed once.
+    let mut kinematic_at = (f64::NAN, 0.0);
+    let mut at = |speed_mps: f64, g: f64, ground: &Ground| {
+        if kinematic_at.0 != speed_mps {
+            kinematic_at = (speed_mps, kinematic_curvature_limit(&drive.limits, &ld.controller, &ld.actual, speed_mps));
+        }
+        Achievable {
+            kinematic_per_m: kinematic_at.1,
+            traction_per_m: Some(traction_curvature_limit(&drive.vehicle, ground, speed_mps, Slope::grade(g))),
+        }
     };
     let tightest = plan.turns.iter().find(|t| t.s_m == plan.tightest_at_m);
     let mut check = TurnCheck {
-        achievable: tightest.map_or_else(|| at(0.0, &ld.ground), |t| at(t.grade_rad, &t.ground)),
+        achievable: match tightest {
+            Some(t) => at(t.speed_mps * scale, t.grade_rad, &t.ground),
+            None => at(top_speed_mps, 0.0, &ld.ground),
+        },
         worst_ratio: 0.0,
         worst_at_m: plan.tightest_at_m,
         worst_per_m: plan.tightest_per_m,
+        worst_speed_mps: tightest.map_or(top_speed_mps, |t| t.speed_mps * scale),
         failing: Vec::new(),
     };
     // The failing run being built: (last vertex, its representative and ratio). Consecutive
@@ -198,16 +222,17 @@ pub fn check_turns(drive: &RouteDrive, leg: usize, plan: &LegPlan, speed_mps: f6
     let mut run: Option<(TurnPoint, TurnPoint, f64, Achievable)> = None;
     let close = |run: &mut Option<(TurnPoint, TurnPoint, f64, Achievable)>, out: &mut Vec<FailingTurn>| {
         if let Some((_, t, _, a)) = run.take() {
-            out.push(failing_turn(&t, &a));
+            out.push(failing_turn(&t, &a, t.speed_mps * scale));
         }
     };
     for t in &plan.turns {
-        let a = at(t.grade_rad, &t.ground);
+        let speed_mps = t.speed_mps * scale;
+        let a = at(speed_mps, t.grade_rad, &t.ground);
         let ach = a.curvature_per_m();
         let ratio = if ach > 0.0 { t.curvature_per_m / ach } else { f64::INFINITY };
         if ratio > check.worst_ratio {
-            (check.worst_ratio, check.worst_at_m, check.worst_per_m, check.achievable) =
-                (ratio, t.s_m, t.curvature_per_m, a);
+            (check.worst_ratio, check.worst_at_m, check.worst_per_m, check.achievable, check.worst_speed_mps) =
+                (ratio, t.s_m, t.curvature_per_m, a, speed_mps);
         }
         if ratio > 1.0 {
             match &mut run {
@@ -230,7 +255,7 @@ pub fn check_turns(drive: &RouteDrive, leg: usize, plan: &LegPlan, speed_mps: f6
     check
 }
 
-fn failing_turn(t: &TurnPoint, a: &Achievable) -> FailingTurn {
+fn failing_turn(t: &TurnPoint, a: &Achievable, speed_mps: f64) -> FailingTurn {
     let ach = a.curvature_per_m();
     FailingTurn {
         at_m: t.s_m,
@@ -239,6 +264,7 @@ fn failing_turn(t: &TurnPoint, a: &Achievable) -> FailingTurn {
         lon_deg: None,
         lat_deg: None,
         radius_m: 1.0 / t.curvature_per_m,
+        speed_mps,
         tightest_radius_m: if ach > 0.0 { 1.0 / ach } else { f64::INFINITY },
         limited_by: a.binding(),
         grade_pct: 100.0 * t.grade_rad.tan(),
@@ -249,7 +275,8 @@ fn failing_turn(t: &TurnPoint, a: &Achievable) -> FailingTurn {
 
 impl FailingTurn {
     /// The reason line for this turn, in plain words (docs/method.md, Verdicts).
-    pub fn reason(&self, speed_mps: f64, terrain: &str, scale_m: f64) -> String {
+    pub fn reason(&self, terrain: &str, scale_m: f64) -> String {
+        let speed_mps = self.speed_mps;
         let limiter = match self.limited_by {
             CurvatureLimit::Kinematic => "slip and the yaw-rate limit".to_string(),
             CurvatureLimit::Traction => format!("thrust against traction on {terrain}"),
