@@ -19,7 +19,7 @@
 
 use rayon::prelude::*;
 
-use crate::assess::{check_turns, grades_pass, LegPlan, RouteReport, Verdict};
+use crate::assess::{check_turns, slopes_pass, LegPlan, RouteReport, Verdict};
 use crate::rollout::{leg_passes, step_bounds_with_each_leg_at, Resume, RouteDrive};
 use crate::route::Route;
 use crate::vehicle::Profile;
@@ -96,7 +96,7 @@ pub fn max_passing_speed(
     max_steps: u64,
 ) -> PassingSpeed {
     let none = PassingSpeed { speed_mps: None, steps: 0 };
-    if !grades_pass(drive, leg, plan) {
+    if !slopes_pass(plan) {
         return none;
     }
     let turns_pass = |v: f64| check_turns(drive, leg, plan, v).failing.is_empty();

@@ -357,8 +357,8 @@ fn simulate(
         let under = plan.terrain_share(step.progress_m, drive.vehicle.contact_length_m);
         let (rear, front) = drive.terrain_pair(under);
         let ground = rear.ground.blend(&front.ground, under.front_share);
-        let (grade, _cross) = plan.slope_at_cursor(step.progress_m, &mut slope_cursor);
-        let slope = Slope::grade(grade);
+        let (grade, cross) = plan.slope_at_cursor(step.progress_m, &mut slope_cursor);
+        let slope = Slope::new(grade, cross);
         let cmd = if drive.limits.slows_in_turns() {
             follower.command_capped(pose, &legd.controller, |k| turn_speed_limit_mps(&drive.vehicle, &ground, k, slope))
         } else {
@@ -368,7 +368,7 @@ fn simulate(
         let (mut left, mut right) = (cmd.left_mps, cmd.right_mps);
         step.limit = limit_step(&drive.vehicle, &ground, slope, &mut twist, &mut left, &mut right);
         if step.limit == StepLimit::Stall {
-            step.effort.grade_rad = grade;
+            (step.effort.grade_rad, step.effort.cross_slope) = (grade, cross);
             if on_step(&step) == Flow::Stop {
                 return None;
             }
@@ -667,6 +667,39 @@ mod tests {
         free.legs[0].ground.traction_coefficient = 10.0;
         let free_dev = roll_out(&free).steps.iter().map(|s| s.deviation_m).fold(0.0, f64::max);
         assert!(free_dev < fillet_gap_m, "{free_dev}");
+    }
+
+    #[test]
+    fn a_turn_across_a_side_slope_is_held_to_the_traction_of_each_side() {
+        // Deep snow on a 20 % cross slope (left side higher), centre of gravity 0.55 m up: the
+        // downhill side carries more load. A right-angle right turn puts the light, uphill side
+        // outside, so traction allows a wider radius than for a left turn (the closed form is
+        // derived in turn_limit's tests); the simulation must turn no tighter than that.
+        let ground = Ground { rolling_resistance: 0.15, traction_coefficient: 0.25, lateral_resistance_max: 0.3 };
+        let pts = vec![[0.0, 0.0], [30.0, 0.0], [30.0, -30.0]];
+        let mut d = traction_drive(pts, Some(vec![0.0; 3]), ground, 0.8);
+        d.plan = d.plan.clone().with_cross_slope(Some(vec![0.2; 3]));
+        d.vehicle.cog_height_m = Some(0.55);
+        let slope = Slope::new(0.0, 0.2);
+        let k_right = crate::turn_limit::traction_curvature_limit_toward(&d.vehicle, &ground, 0.8, slope, -1.0);
+        let k_left = crate::turn_limit::traction_curvature_limit_toward(&d.vehicle, &ground, 0.8, slope, 1.0);
+        assert!(k_right < 0.5 * k_left, "{k_right} vs {k_left}");
+        let tr = roll_out(&d);
+        assert_eq!(tr.outcome, Outcome::Reached);
+        let mut tightest = 0.0_f64;
+        for s in &tr.steps {
+            if s.twist.vx_mps > 1e-6 && s.twist.omega_radps < 0.0 {
+                let k = -s.twist.omega_radps / s.twist.vx_mps;
+                assert!(k <= k_right * (1.0 + 1e-9), "{k} > {k_right} at {} m", s.progress_m);
+                tightest = tightest.max(k);
+            }
+        }
+        assert_relative_eq!(tightest, k_right, max_relative = 1e-6);
+        // Each side's rolling resistance on its own load: the right (downhill) side pushes more
+        // on the straight lead-in.
+        let lead = tr.steps.iter().find(|s| s.progress_m > 10.0).expect("lead-in");
+        assert!(lead.effort.right_thrust_n > lead.effort.left_thrust_n, "{:?}", lead.effort);
+        assert_eq!(lead.effort.cross_slope, 0.2);
     }
 
     #[test]

@@ -6,16 +6,18 @@
 //!
 //! Units: metres, seconds, 1/m; deviations are distances to the plan near the progress point.
 
+mod slopes;
 mod turns;
 
 use serde::Serialize;
 
-use crate::effort::{side_thrust_limit_on_n, Slope, STANDARD_GRAVITY_MPS2};
+use crate::effort::{side_thrust_limits_n, Slope, STANDARD_GRAVITY_MPS2};
 use crate::rollout::{Outcome, RouteDrive, Step, Trace};
 use crate::route::Route;
 use crate::turn_limit::{lateral_accel_caution_mps2, StepLimit, LATERAL_ACCEL_CAUTION_SHARE};
 
 pub use crate::turn_limit::{kinematic_curvature_limit, Achievable, CurvatureLimit};
+pub use slopes::{slopes_pass, CrossNeed, SideNeed, SlopeFacts};
 pub use turns::{check_turns, FailingTurn, LegPlan, TurnCheck, TurnPoint};
 
 /// Step at which `relax` samples the plan's curvature around a corner (docs/method.md, Plan curvature).
@@ -80,6 +82,9 @@ pub struct LegReport {
     pub max_uphill_grade_pct: f64,
     /// Steepest downhill grade of the plan on this leg, percent, as a positive number.
     pub max_downhill_grade_pct: f64,
+    /// Steepest cross slope of the plan on this leg, percent (100 |tan|); `None` without cross
+    /// slopes (no elevation raster).
+    pub max_cross_slope_pct: Option<f64>,
     /// The terrain's traction coefficient (mu).
     pub traction_coefficient: f64,
     /// Smallest traction coefficient with which the leg's turns and climbs (and descents) stay
@@ -274,7 +279,8 @@ fn leg_effort(drive: &RouteDrive, steps: &[Step]) -> LegEffort {
             e.peak_thrust_n = thrust;
             e.peak_thrust_at_m = s.progress_m;
             let ground = drive.ground_at(s.progress_m);
-            e.peak_thrust_limit_n = side_thrust_limit_on_n(&drive.vehicle, &ground, Slope::grade(f.grade_rad));
+            let (left, right) = side_thrust_limits_n(&drive.vehicle, &ground, Slope::new(f.grade_rad, f.cross_slope));
+            e.peak_thrust_limit_n = if f.left_thrust_n.abs() >= f.right_thrust_n.abs() { left } else { right };
         }
         e.peak_power_w = e.peak_power_w.max(f.drawn_power_w);
         if s.traction_limited() {
@@ -351,6 +357,7 @@ pub(crate) fn assess_leg(
         mean_power_w: if time_s > 0.0 { effort.energy_j / time_s } else { 0.0 },
         max_uphill_grade_pct: 100.0 * plan.max_uphill_grade_rad.tan(),
         max_downhill_grade_pct: 100.0 * plan.max_downhill_grade_rad.tan(),
+        max_cross_slope_pct: route.legs.get(i).and_then(crate::site::max_cross_slope_pct),
         traction_coefficient: ld.ground.traction_coefficient,
         traction_coefficient_needed: plan.traction_needed,
         max_passing_speed_mps: None,
@@ -363,7 +370,7 @@ pub(crate) fn assess_leg(
     judge_turns(&mut leg, &turns, drive);
     let corridor_varies = route.legs.get(i).is_some_and(|l| l.corridors_m.is_some());
     judge_motion(&mut leg, drive, trace, i, &dev, corridor_varies);
-    judge_grades(&mut leg, plan, drive, i);
+    slopes::judge_slopes(&mut leg, plan, drive);
     judge_effort(&mut leg, &effort, plan, drive);
     leg
 }
@@ -371,7 +378,7 @@ pub(crate) fn assess_leg(
 /// Most failing turns spelled out in the reasons of one leg; the JSON lists them all.
 pub const MAX_TURN_REASONS: usize = 10;
 
-/// Adds a verdict and its reason.
+/// Adds a verdict and its reason: every reason of a leg goes through here.
 fn add(leg: &mut LegReport, v: Verdict, why: String) {
     leg.verdict = leg.verdict.max(v);
     leg.reasons.push(why);
@@ -480,62 +487,6 @@ fn judge_motion(leg: &mut LegReport, drive: &RouteDrive, trace: &Trace, i: usize
                 );
             }
         }
-    }
-}
-
-/// Thrust per side the steepest climb needs (rolling resistance f_r N / 2 plus W sin(grade) / 2)
-/// and the braking per side holding on the steepest descent needs (W sin|grade| / 2 less the
-/// rolling resistance), each with the thrust limit at that grade (min(mu N / 2, rating)), N.
-fn grade_needs(plan: &LegPlan, drive: &RouteDrive, i: usize) -> [(f64, f64, Slope); 2] {
-    let veh = &drive.vehicle;
-    let ground = &drive.legs[i].ground;
-    let w = veh.weight_n();
-    let up = Slope::grade(plan.max_uphill_grade_rad);
-    let climb_n = 0.5 * ground.rolling_resistance * up.normal_load_n(w) + up.grade_force_per_side_n(w);
-    let down = Slope::grade(-plan.max_downhill_grade_rad);
-    let hold_n = -down.grade_force_per_side_n(w) - 0.5 * ground.rolling_resistance * down.normal_load_n(w);
-    [(climb_n, side_thrust_limit_on_n(veh, ground, up), up), (hold_n, side_thrust_limit_on_n(veh, ground, down), down)]
-}
-
-/// True when leg `i`'s steepest climb and descent stay within traction and the rating (the
-/// grade rules of the verdict; they do not depend on speed).
-pub fn grades_pass(drive: &RouteDrive, i: usize, plan: &LegPlan) -> bool {
-    grade_needs(plan, drive, i).iter().all(|&(need, limit, slope)| slope.grade_rad == 0.0 || need <= limit)
-}
-
-/// The grade rules (docs/method.md, Verdicts): the steepest climb must not need more thrust per
-/// side than traction (mu W cos(grade) / 2) or the rating gives, and holding on the steepest
-/// descent must not need more braking than that.
-fn judge_grades(leg: &mut LegReport, plan: &LegPlan, drive: &RouteDrive, i: usize) {
-    let veh = &drive.vehicle;
-    let ground = &drive.legs[i].ground;
-    let terrain = leg.terrain.clone();
-    let gives = |slope: Slope| {
-        let traction_n = 0.5 * ground.traction_coefficient * slope.normal_load_n(veh.weight_n());
-        if traction_n <= veh.max_side_thrust_n {
-            format!("traction on {terrain} gives {traction_n:.0} N there")
-        } else {
-            format!("the drive is rated {:.0} N", veh.max_side_thrust_n)
-        }
-    };
-    let [(climb_n, climb_limit_n, up), (hold_n, hold_limit_n, down)] = grade_needs(plan, drive, i);
-    if up.grade_rad > 0.0 && climb_n > climb_limit_n {
-        let why = format!(
-            "cannot climb: the {:.0} % grade ({:.0} m along the route) with rolling resistance needs {climb_n:.0} N per side; {}",
-            100.0 * up.grade_rad.tan(),
-            plan.uphill_at_m,
-            gives(up)
-        );
-        add(leg, Verdict::Fail, why);
-    }
-    if down.grade_rad < 0.0 && hold_n > hold_limit_n {
-        let why = format!(
-            "cannot hold on the descent: the {:.0} % downhill grade ({:.0} m along the route) needs {hold_n:.0} N of braking per side; {}; the vehicle slides",
-            100.0 * plan.max_downhill_grade_rad.tan(),
-            plan.downhill_at_m,
-            gives(down)
-        );
-        add(leg, Verdict::Fail, why);
     }
 }
 

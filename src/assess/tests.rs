@@ -330,3 +330,114 @@ fn deviation_is_judged_against_the_corridor_where_it_happens() {
     let why = l.reasons.iter().find(|r| r.contains("leaves the 0.02 m corridor there")).expect("corridor reason");
     assert!(why.contains(" m along the route)"), "{why}");
 }
+
+/// A straight 40 m leg along +x whose cross slope (tangent, left side higher) is `cross` from
+/// x = 10 m on, level before, with level altitudes.
+fn across(terrain: &str, cross: f64) -> Route {
+    let pts: Vec<[f64; 2]> = (0..=40).map(|i| [i as f64, 0.0]).collect();
+    let c = (0..=40).map(|i| if i < 10 { 0.0 } else { cross }).collect();
+    route(vec![Leg { altitude_m: Some(vec![0.0; 41]), cross_slope: Some(c), ..leg(pts, terrain, 0.8, 1.0) }])
+}
+
+#[test]
+fn a_cross_slope_beyond_the_grip_fails_and_one_above_80_percent_of_it_earns_a_caution() {
+    // Wong 2008 (vehicle on a side slope): it slides sideways when tan(phi) > mu, the lateral
+    // grip taken as the traction coefficient; packed snow mu = 0.3, so it holds up to 30 %.
+    // Caution above 80 % of that, 24 %.
+    let p = profile();
+    let c = check_route(across("packed-snow", 0.38), &p);
+    let l = &c.report.legs[0];
+    assert_eq!(l.verdict, Verdict::Fail);
+    assert_relative_eq!(l.max_cross_slope_pct.expect("cross slopes"), 38.0, max_relative = 1e-12);
+    let why = l.reasons.iter().find(|r| r.starts_with("cross slope")).expect("a cross-slope reason");
+    assert_eq!(
+        why,
+        "cross slope 38 % at 10 m along the route: the vehicle slides sideways; packed-snow holds up to 30 % (its \
+         traction coefficient 0.30 is the lateral grip)"
+    );
+    assert_relative_eq!(l.traction_coefficient_needed, 0.38, max_relative = 1e-12);
+    assert_eq!(l.max_passing_speed_mps, None, "a cross slope fails at any speed");
+    let caution = check_route(across("packed-snow", 0.27), &p);
+    let l = &caution.report.legs[0];
+    assert_eq!(l.verdict, Verdict::Caution, "{:?}", l.reasons);
+    assert!(
+        l.reasons.iter().any(|r| r
+            == "cross slope 27 % at 10 m along the route uses 90 % of the 30 % packed-snow holds \
+                                          before the vehicle slides sideways"),
+        "{:?}",
+        l.reasons
+    );
+    // 23 %: 77 % of the grip, no cross-slope reason.
+    let fine = check_route(across("packed-snow", 0.23), &p);
+    assert!(
+        fine.report.legs[0].reasons.iter().all(|r| !r.contains("cross slope")),
+        "{:?}",
+        fine.report.legs[0].reasons
+    );
+    // A leg without cross slopes reports none.
+    let flat = check_route(route(vec![leg(vec![[0.0, 0.0], [10.0, 0.0]], "packed-snow", 0.8, 1.0)]), &p);
+    assert_eq!(flat.report.legs[0].max_cross_slope_pct, None);
+}
+
+#[test]
+fn a_cross_slope_beyond_the_static_stability_factor_tips_the_vehicle() {
+    // Centre of gravity 0.9 m up on a 0.9 m track: B / (2 h) = 0.5 (static stability factor,
+    // common practice), below asphalt's grip of 0.8, so tipping sets the limit: 55 % fails,
+    // 45 % (90 % of it) earns a caution.
+    let mut p = profile();
+    p.vehicle.cog_height_m = Some(0.9);
+    let c = check_route(across("asphalt", 0.55), &p);
+    let l = &c.report.legs[0];
+    assert_eq!(l.verdict, Verdict::Fail);
+    assert!(
+        l.reasons.iter().any(|r| r == "cross slope 55 % at 10 m along the route: the vehicle tips over; with its centre \
+                                          of gravity 0.90 m up and 0.90 m between its tracks (B / 2h) it stands up to 50 %"),
+        "{:?}",
+        l.reasons
+    );
+    let caution = check_route(across("asphalt", 0.45), &p);
+    assert!(caution.report.legs[0]
+        .reasons
+        .iter()
+        .any(|r| r.ends_with("uses 90 % of the 50 % at which the vehicle tips over (B / 2h)")));
+    // Without a centre-of-gravity height tipping is not judged, and the check says so.
+    p.vehicle.cog_height_m = None;
+    let unknown = check_route(across("asphalt", 0.55), &p);
+    assert_ne!(unknown.report.legs[0].verdict, Verdict::Fail, "{:?}", unknown.report.legs[0].reasons);
+    assert_eq!(unknown.route.warnings, vec![crate::check::NO_COG_HEIGHT.to_string()]);
+}
+
+#[test]
+fn a_climb_across_a_side_slope_is_judged_on_the_lighter_side() {
+    // A 20 % climb on packed snow: f_r + tan g = 0.26 < mu = 0.3, fine with equal loads. Across
+    // a 25 % cross slope with h = 0.55 m the uphill side carries
+    // N_l = N / 2 - N c cos(g) h / B (moments about the long axis) and must push
+    // f_r N_l + W sin(g) / 2 against mu N_l (Wong 2008, grade resistance): it cannot.
+    let p = profile();
+    let g = 0.2_f64.atan();
+    let w = 480.0 * STANDARD_GRAVITY_MPS2;
+    let n = w / (1.0_f64 + 0.04 + 0.0625).sqrt();
+    let n_l = n / 2.0 - n * 0.25 * g.cos() * 0.55 / 0.9;
+    let need = 0.06 * n_l + w * g.sin() / 2.0;
+    assert!(need > 0.3 * n_l);
+    let pts: Vec<[f64; 2]> = (0..=40).map(|i| [i as f64, 0.0]).collect();
+    let alt: Vec<f64> = (0..=40).map(|i| 0.2 * i as f64).collect();
+    let uphill = |cross: f64| {
+        let l = Leg {
+            altitude_m: Some(alt.clone()),
+            cross_slope: Some(vec![cross; 41]),
+            ..leg(pts.clone(), "packed-snow", 0.8, 1.0)
+        };
+        check_route(route(vec![l]), &p)
+    };
+    let c = uphill(0.25);
+    let l = &c.report.legs[0];
+    assert_eq!(l.verdict, Verdict::Fail);
+    let expected = format!(
+        "cannot climb: the 20 % grade (0 m along the route) with rolling resistance needs {need:.0} N on its uphill side, \
+         which carries less of the load on the 25 % cross slope; traction on packed-snow gives {:.0} N there",
+        0.3 * n_l
+    );
+    assert!(l.reasons.iter().any(|r| *r == expected), "{expected} not in {:?}", l.reasons);
+    assert!(uphill(0.0).report.legs[0].reasons.iter().all(|r| !r.contains("climb")));
+}

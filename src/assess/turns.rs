@@ -10,8 +10,10 @@ use serde::Serialize;
 
 use crate::effort::{Ground, Slope};
 use crate::rollout::RouteDrive;
-use crate::turn_limit::{kinematic_curvature_limit, traction_coefficient_needed, traction_curvature_limit};
+use crate::turn_limit::{kinematic_curvature_limit, traction_coefficient_needed, traction_curvature_limit_toward};
 use crate::turn_limit::{Achievable, CurvatureLimit};
+
+use super::slopes::SlopeFacts;
 
 /// Vertices whose curvature reading is below this are left out of the turn checks, 1/m (a radius
 /// of 1 km). The tightest vertex of a leg is always kept.
@@ -26,9 +28,13 @@ pub struct TurnPoint {
     pub point: [f64; 2],
     /// |curvature| read at the vertex, 1/m.
     pub curvature_per_m: f64,
+    /// True for a left turn (the outer side is the right one).
+    pub left: bool,
     /// Speed the leg plans at the vertex, m/s.
     pub speed_mps: f64,
     pub grade_rad: f64,
+    /// Cross slope there (tangent, positive when the left side is higher; 0 without a raster).
+    pub cross_slope: f64,
     /// Ground under the contact patch there (blended across a terrain boundary).
     pub ground: Ground,
     pub sharp: bool,
@@ -50,10 +56,28 @@ pub struct LegPlan {
     pub uphill_at_m: f64,
     pub max_downhill_grade_rad: f64,
     pub downhill_at_m: f64,
-    /// Smallest traction coefficient with which every turn and climb of the leg stays within
-    /// traction, and where it is needed.
+    /// Smallest traction coefficient with which every turn, climb, descent and cross slope of
+    /// the leg stays within traction, and where it is needed.
     pub traction_needed: f64,
     pub traction_needed_at_m: f64,
+    /// The worst climb, descent and cross slope (the slope rules).
+    pub slopes: SlopeFacts,
+}
+
+impl TurnPoint {
+    /// The slope under the turn.
+    pub fn slope(&self) -> Slope {
+        Slope::new(self.grade_rad, self.cross_slope)
+    }
+
+    /// +1 for a left turn, -1 for a right one.
+    pub fn sign(&self) -> f64 {
+        if self.left {
+            1.0
+        } else {
+            -1.0
+        }
+    }
 }
 
 impl LegPlan {
@@ -74,8 +98,10 @@ impl LegPlan {
                 s_m: v.s_m,
                 point: v.point,
                 curvature_per_m: k,
+                left: v.curvature_per_m >= 0.0,
                 speed_mps: drive.speeds.speed_at_point(plan, leg, v.index),
                 grade_rad: 0.0,
+                cross_slope: 0.0,
                 ground: *ground,
                 sharp: v.sharp,
                 turn_rad: v.turn_rad,
@@ -93,6 +119,7 @@ impl LegPlan {
         }
         for t in &mut turns {
             t.grade_rad = grade(t.s_m);
+            t.cross_slope = plan.cross_slope_at(t.s_m);
             t.ground = drive.ground_at(t.s_m);
         }
         let mut p = LegPlan {
@@ -106,6 +133,7 @@ impl LegPlan {
             downhill_at_m: start_m,
             traction_needed: 0.0,
             traction_needed_at_m: start_m,
+            slopes: SlopeFacts::default(),
         };
         let need = |mu: f64, s: f64, p: &mut LegPlan| {
             if mu > p.traction_needed {
@@ -123,17 +151,26 @@ impl LegPlan {
                 if -g > p.max_downhill_grade_rad {
                     (p.max_downhill_grade_rad, p.downhill_at_m) = (-g, s);
                 }
-                need(traction_coefficient_needed(veh, ground, 0.0, Slope::grade(g)), s, &mut p);
+                let slope = Slope::new(g, plan.cross_slope_at(s));
+                p.slopes.sample_grade(veh, ground, slope, s);
+                need(traction_coefficient_needed(veh, ground, 0.0, slope), s, &mut p);
             }
         } else {
             need(traction_coefficient_needed(veh, ground, 0.0, Slope::LEVEL), start_m, &mut p);
         }
+        if plan.has_cross_slope() {
+            // Cross slopes at the plan's own points (where the raster was sampled).
+            let (first, last) = plan.leg_point_range(leg);
+            for i in first..=last {
+                let s = plan.point_s_m(i);
+                let slope = Slope::new(grade(s), plan.cross_slope_at(s));
+                p.slopes.sample_cross(veh, ground, slope, s);
+                need(traction_coefficient_needed(veh, ground, 0.0, slope), s, &mut p);
+            }
+        }
         for t in p.turns.clone() {
-            need(
-                traction_coefficient_needed(veh, &t.ground, t.curvature_per_m, Slope::grade(t.grade_rad)),
-                t.s_m,
-                &mut p,
-            );
+            let k = t.sign() * t.curvature_per_m;
+            need(traction_coefficient_needed(veh, &t.ground, k, t.slope()), t.s_m, &mut p);
         }
         p
     }
@@ -162,6 +199,8 @@ pub struct FailingTurn {
     pub limited_by: CurvatureLimit,
     /// Grade where the turn is, percent (positive uphill).
     pub grade_pct: f64,
+    /// Cross slope where the turn is, percent (positive when the left side is higher).
+    pub cross_slope_pct: f64,
     /// True for a sharp corner of the polyline (read at the curvature scale): `relax` repairs it.
     pub sharp_corner: bool,
     /// Turning angle at the corner point, degrees (positive left).
@@ -195,20 +234,21 @@ pub fn check_turns(drive: &RouteDrive, leg: usize, plan: &LegPlan, top_speed_mps
     let scale = if plan.speed_mps > 0.0 { top_speed_mps / plan.speed_mps } else { 1.0 };
     // Most legs plan one speed: the kinematic limit is then computed once.
     let mut kinematic_at = (f64::NAN, 0.0);
-    let mut at = |speed_mps: f64, g: f64, ground: &Ground| {
+    let mut at = |speed_mps: f64, t: Option<&TurnPoint>| {
         if kinematic_at.0 != speed_mps {
             kinematic_at = (speed_mps, kinematic_curvature_limit(&drive.limits, &ld.controller, &ld.actual, speed_mps));
         }
+        let (ground, slope, sign) = t.map_or((&ld.ground, Slope::LEVEL, 1.0), |t| (&t.ground, t.slope(), t.sign()));
         Achievable {
             kinematic_per_m: kinematic_at.1,
-            traction_per_m: Some(traction_curvature_limit(&drive.vehicle, ground, speed_mps, Slope::grade(g))),
+            traction_per_m: Some(traction_curvature_limit_toward(&drive.vehicle, ground, speed_mps, slope, sign)),
         }
     };
     let tightest = plan.turns.iter().find(|t| t.s_m == plan.tightest_at_m);
     let mut check = TurnCheck {
         achievable: match tightest {
-            Some(t) => at(t.speed_mps * scale, t.grade_rad, &t.ground),
-            None => at(top_speed_mps, 0.0, &ld.ground),
+            Some(t) => at(t.speed_mps * scale, Some(t)),
+            None => at(top_speed_mps, None),
         },
         worst_ratio: 0.0,
         worst_at_m: plan.tightest_at_m,
@@ -227,7 +267,7 @@ pub fn check_turns(drive: &RouteDrive, leg: usize, plan: &LegPlan, top_speed_mps
     };
     for t in &plan.turns {
         let speed_mps = t.speed_mps * scale;
-        let a = at(speed_mps, t.grade_rad, &t.ground);
+        let a = at(speed_mps, Some(t));
         let ach = a.curvature_per_m();
         let ratio = if ach > 0.0 { t.curvature_per_m / ach } else { f64::INFINITY };
         if ratio > check.worst_ratio {
@@ -268,6 +308,7 @@ fn failing_turn(t: &TurnPoint, a: &Achievable, speed_mps: f64) -> FailingTurn {
         tightest_radius_m: if ach > 0.0 { 1.0 / ach } else { f64::INFINITY },
         limited_by: a.binding(),
         grade_pct: 100.0 * t.grade_rad.tan(),
+        cross_slope_pct: 100.0 * t.cross_slope,
         sharp_corner: t.sharp,
         turn_deg: t.turn_rad.to_degrees(),
     }
@@ -281,11 +322,14 @@ impl FailingTurn {
             CurvatureLimit::Kinematic => "slip and the yaw-rate limit".to_string(),
             CurvatureLimit::Traction => format!("thrust against traction on {terrain}"),
         };
-        let grade = if self.grade_pct.abs() >= 0.5 {
+        let mut grade = if self.grade_pct.abs() >= 0.5 {
             format!(", {:.0} % {}", self.grade_pct.abs(), if self.grade_pct > 0.0 { "uphill" } else { "downhill" })
         } else {
             String::new()
         };
+        if self.cross_slope_pct.abs() >= 0.5 {
+            grade.push_str(&format!(", {:.0} % cross slope", self.cross_slope_pct.abs()));
+        }
         let tightest = if self.tightest_radius_m.is_finite() {
             format!("the tightest is {:.1} m", self.tightest_radius_m)
         } else {

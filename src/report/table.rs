@@ -39,6 +39,24 @@ fn traction_cell(l: &LegReport) -> Cell {
         .set_alignment(CellAlignment::Right)
 }
 
+/// Columns shown only when a route has their data.
+#[derive(Clone, Copy)]
+struct Optional {
+    /// Steepest cross slope, when the route was put on an elevation raster.
+    cross_slope: bool,
+    drift: bool,
+}
+
+impl Optional {
+    fn of(r: &RouteReport) -> Optional {
+        Optional { cross_slope: r.legs.iter().any(|l| l.max_cross_slope_pct.is_some()), drift: r.drift.is_some() }
+    }
+}
+
+/// Index of the cross-slope column in the full header and row, and of the drift column.
+const CROSS_SLOPE_COLUMN: usize = 13;
+const DRIFT_COLUMN: usize = 16;
+
 fn leg_row(l: &LegReport, color: bool) -> Vec<Cell> {
     let label = match &l.name {
         Some(n) => format!("{} {}", l.index, n),
@@ -58,6 +76,7 @@ fn leg_row(l: &LegReport, color: bool) -> Vec<Cell> {
         num(l.time_s, 0),
         num(l.energy_wh, 1),
         num(l.peak_side_thrust_n, 0),
+        opt_num(l.max_cross_slope_pct, 0, "-"),
         traction_cell(l),
         opt_num(l.max_passing_speed_mps, 2, "none"),
         opt_num(l.drift_cep95_m, 1, "-"),
@@ -82,24 +101,30 @@ fn route_table(r: &RouteReport, color: bool) -> Table {
         "time\ns",
         "energy\nWh",
         "peak\nthrust N",
+        "cross\nslope %",
         "traction\nneeds/has",
         "passes up\nto m/s",
         "drift\nCEP95 m",
         "verdict",
     ];
-    if r.drift.is_none() {
-        header.remove(header.len() - 2);
+    let shown = Optional::of(r);
+    // Later columns first, so the earlier index stays valid.
+    fn drop_absent<T>(v: &mut Vec<T>, shown: Optional) {
+        if !shown.drift {
+            v.remove(DRIFT_COLUMN);
+        }
+        if !shown.cross_slope {
+            v.remove(CROSS_SLOPE_COLUMN);
+        }
     }
+    drop_absent(&mut header, shown);
     t.set_header(header);
     if color {
         t.enforce_styling();
     }
-    let with_drift = r.drift.is_some();
     for l in &r.legs {
         let mut row = leg_row(l, color);
-        if !with_drift {
-            row.remove(row.len() - 2);
-        }
+        drop_absent(&mut row, shown);
         t.add_row(row);
     }
     t
