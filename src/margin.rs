@@ -4,9 +4,9 @@
 //! profile's largest value at which the leg passes (the shape of the profile is kept).
 //!
 //! A leg fails at a speed when a turn needs more than the vehicle can drive there at that speed
-//! (checked on the plan, cheap), when its grades need more than traction gives (independent of
-//! speed), or when the simulated vehicle leaves the leg's corridor, stalls or does not get past
-//! the leg's end. Everything else only earns a caution. So the search first finds, on the plan
+//! (checked on the plan, cheap), when its grades or cross slopes need more than traction or the
+//! vehicle's stance gives (independent of speed), or when the simulated vehicle leaves the
+//! corridor, stalls or does not get past the leg's end. Everything else only earns a caution. So the search first finds, on the plan
 //! alone, the highest speed whose turns pass; then simulates the leg, resumed from the main
 //! simulation just before the leg (its earlier legs do not depend on this leg's speed), and
 //! bisects between a speed that passes and one that fails until they are within 1 %. Each

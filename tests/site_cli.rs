@@ -456,3 +456,39 @@ fn a_tilted_plane_raster_gives_the_cross_slope_and_grade_their_verdicts() {
     let (_, table, _) = go(&["check", s(&route), "--elevation", &dem, "--map-frame", "local"]);
     assert!(table.contains("slope %"), "{table}");
 }
+
+#[test]
+fn the_hillside_example_reads_as_its_readme_says() {
+    // example-routes/gen_hillside.py: z = 430 + 25 exp(-r^2 / (2 x 55^2)) m; on the route's 60 m
+    // contour the slope across it is 25 r / 55^2 exp(-r^2 / (2 x 55^2)) (the derivative of the
+    // Gaussian), 27.35 %, up to the raster's 2 m pixels and bilinear interpolation.
+    let r: f64 = 60.0;
+    let expected_pct = 100.0 * 25.0 * r / 55.0_f64.powi(2) * (-r * r / (2.0 * 55.0 * 55.0)).exp();
+    assert!((expected_pct - 27.35).abs() < 0.01, "{expected_pct}");
+    let ex = |name: &str| Path::new(env!("CARGO_MANIFEST_DIR")).join("example-routes").join(name);
+    let (route, map, dem) = (ex("hillside-traverse.geojson"), ex("hillside-map.geojson"), ex("hillside-dem.tif"));
+    let (code, out, err) = go(&["check", s(&route), "--terrain-map", s(&map), "--elevation", s(&dem), "--json"]);
+    assert_eq!(code, Some(1), "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).expect("json");
+    let legs = v["routes"][0]["legs"].as_array().expect("legs");
+    let seen: Vec<(&str, &str)> =
+        legs.iter().map(|l| (l["terrain"].as_str().unwrap_or(""), l["verdict"].as_str().unwrap_or(""))).collect();
+    assert_eq!(
+        seen,
+        [
+            ("grass", "pass"),
+            ("packed-snow", "caution"),
+            ("deep-snow", "fail"),
+            ("packed-snow", "caution"),
+            ("grass", "pass")
+        ]
+    );
+    for l in legs {
+        let pct = l["max_cross_slope_pct"].as_f64().expect("cross slope");
+        assert!((pct - expected_pct).abs() < 0.2, "{pct} vs {expected_pct}");
+        assert!(l["max_uphill_grade_pct"].as_f64().expect("grade") < 0.5, "{l}");
+    }
+    // Without the raster the route is level and passes.
+    let (code, _, err) = go(&["check", s(&route), "--terrain-map", s(&map), "--quiet"]);
+    assert_eq!(code, Some(0), "{err}");
+}

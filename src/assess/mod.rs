@@ -1,8 +1,9 @@
 //! Per-leg assessment of a simulated route (docs/method.md, Plan curvature, Achievable curvature,
-//! Verdicts): every turn of the plan against what the vehicle can drive there at the leg's speed
-//! and the grade of the turn, climbs and descents against traction, the predicted deviation
-//! against the corridor, time and effort, the margins to failure, and a verdict with reasons in
-//! plain words.
+//! Verdicts): every turn of the plan against what the vehicle can drive there at the speed planned
+//! there and the slope of the turn, climbs, descents and cross slopes against traction and the
+//! tipping limit (`slopes.rs`), the predicted deviation against the corridor where it happens,
+//! time and effort, the margins to failure, and a verdict with reasons in plain words (every
+//! reason through one helper, `add`).
 //!
 //! Units: metres, seconds, 1/m; deviations are distances to the plan near the progress point.
 
