@@ -3,7 +3,7 @@
 //! there and the slope of the turn, climbs, descents and cross slopes against traction and the
 //! tipping limit (`slopes.rs`), the predicted deviation against the corridor where it happens,
 //! time and effort, the margins to failure, and a verdict with reasons in plain words (every
-//! reason through one helper, `add`).
+//! reason through one function, `add`).
 //!
 //! Units: metres, seconds, 1/m; deviations are distances to the plan near the progress point.
 
