@@ -202,9 +202,10 @@ pub fn step_bounds_with_each_leg_at(route: &Route, profile: &Profile, speed_mps:
         .collect()
 }
 
-/// Steps reserved for the trace up front; longer rollouts grow it (a few reallocations in all,
-/// never one per step), so a pathological time bound cannot reserve gigabytes.
-const MAX_RESERVED_STEPS: usize = 1 << 18;
+/// Steps reserved for the trace up front (about 190 MB of address space, touched only as the
+/// trace fills); longer rollouts grow it (a few reallocations in all, never one per step), so a
+/// pathological time bound cannot reserve gigabytes.
+const MAX_RESERVED_STEPS: usize = 1 << 20;
 
 /// One control step of the trace.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
@@ -420,8 +421,9 @@ pub fn leg_influence_m(drive: &RouteDrive) -> f64 {
 /// never came near get `None`.
 pub fn roll_out_with_resumes(drive: &RouteDrive, max_steps: u64) -> (Trace, Vec<Option<Resume>>) {
     let limit_s = drive.time_limit_s();
-    // The planned time plus 20 s, as steps; `as` saturates a huge or NaN estimate.
-    let expected_steps = ((limit_s / 3.0) / drive.limits.dt_s) as usize;
+    // The planned time plus 20 s, as steps, and a tenth more for the slower driving in turns,
+    // so a normal rollout never reallocates its trace; `as` saturates a huge or NaN estimate.
+    let expected_steps = (1.1 * (limit_s / 3.0) / drive.limits.dt_s) as usize;
     let mut steps = Vec::with_capacity(expected_steps.min(MAX_RESERVED_STEPS) + 64);
     let n_legs = drive.legs.len();
     let mut resumes: Vec<Option<Resume>> = vec![None; n_legs];

@@ -502,7 +502,7 @@ impl PlanPath {
     /// Squared distance from `p` to the part of segment `i` with arc length in `[from_m, to_m]`,
     /// the arc length of the nearest point there and the signed lateral offset; `None` for a
     /// zero-length segment or one outside the window.
-    #[inline]
+    #[inline(always)]
     fn segment_distance(&self, p: [f64; 2], i: usize, from_m: f64, to_m: f64) -> Option<(f64, f64, f64)> {
         let (s_i, s_j) = (self.s_m[i], self.s_m[i + 1]);
         let (s0, s1) = (s_i.max(from_m), s_j.min(to_m));
