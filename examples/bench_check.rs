@@ -41,6 +41,7 @@ fn synthetic_route(length_m: f64, step_m: f64) -> Route {
             corridors_m: None,
             cross_slope: None,
             position: SourcePosition::Feature(k),
+            added_points: None,
         });
     }
     Route { name: "bench".into(), source: PathBuf::from("<synthetic>"), origin: None, legs, warnings: Vec::new() }

@@ -615,6 +615,7 @@ mod tests {
                 corridors_m: None,
                 cross_slope: None,
                 position: crate::route::SourcePosition::Line(2),
+                added_points: None,
             }],
             warnings: Vec::new(),
         };

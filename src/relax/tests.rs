@@ -21,6 +21,7 @@ fn leg(points: Vec<[f64; 2]>, terrain: &str, speed_mps: f64) -> Leg {
         corridors_m: None,
         cross_slope: None,
         position: SourcePosition::Line(2),
+        added_points: None,
     }
 }
 

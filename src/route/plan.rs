@@ -41,6 +41,17 @@ pub struct PlanPath {
     /// searches skip a block that cannot hold their answer, so a dense plan costs them O(1)
     /// segments per query instead of one per point in the window.
     blocks: Vec<BlockBound>,
+    /// The planner's own vertices, when points were added after reading (map cuts, raster
+    /// spacing): the plan's curvature is read on them alone (docs/method.md, Plan curvature).
+    own: Option<OwnVertices>,
+}
+
+/// The plan through the planner's own vertices only, and where each is in the full plan.
+#[derive(Debug, Clone)]
+struct OwnVertices {
+    /// Index in the full plan of each own vertex.
+    index: Vec<usize>,
+    plan: Box<PlanPath>,
 }
 
 /// Segments per block of [`PlanPath`]'s bounding circles.
@@ -112,11 +123,26 @@ impl PlanPath {
         let has_alt = route.legs.iter().all(|l| l.altitude_m.is_some());
         let has_cross = route.legs.iter().all(|l| l.cross_slope.is_some());
         let mut leg_first_index = Vec::with_capacity(route.legs.len());
+        let mut added: Vec<bool> = Vec::new();
+        let any_added = route.legs.iter().any(|l| l.added_points.is_some());
         for leg in &route.legs {
+            // A boundary point was added when either leg says so (a map cut adds it to both).
+            let mut boundary_added = false;
             if !points.is_empty() {
                 points.pop();
                 alt.pop();
                 cross.pop();
+                boundary_added = added.pop().unwrap_or(false);
+            }
+            if any_added {
+                let first = added.len();
+                added.extend(
+                    (0..leg.points.len())
+                        .map(|i| leg.added_points.as_ref().and_then(|a| a.get(i).copied()).unwrap_or(false)),
+                );
+                if let Some(a) = added.get_mut(first) {
+                    *a |= boundary_added;
+                }
             }
             leg_first_index.push(points.len());
             points.extend_from_slice(&leg.points);
@@ -127,7 +153,22 @@ impl PlanPath {
                 cross.extend_from_slice(c);
             }
         }
-        Self::from_parts(points, &leg_first_index, has_alt.then_some(alt)).with_cross_slope(has_cross.then_some(cross))
+        Self::from_parts(points, &leg_first_index, has_alt.then_some(alt))
+            .with_cross_slope(has_cross.then_some(cross))
+            .with_added_points(any_added.then_some(added))
+    }
+
+    /// This plan with the points marked in `added` (one flag per point) taken as added after
+    /// reading: its curvature is then read on the other points, the planner's own vertices
+    /// (the two ends always count as own). Ignored unless it has one flag per point.
+    pub fn with_added_points(mut self, added: Option<Vec<bool>>) -> PlanPath {
+        let n = self.points.len();
+        let Some(added) = added.filter(|a| a.len() == n && a.iter().any(|&x| x)) else { return self };
+        let index: Vec<usize> = (0..n).filter(|&i| i == 0 || i + 1 == n || !added[i]).collect();
+        let points = index.iter().map(|&i| self.points[i]).collect();
+        let plan = Box::new(PlanPath::from_parts(points, &[0], None));
+        self.own = Some(OwnVertices { index, plan });
+        self
     }
 
     /// This plan with a cross slope at every point (tangent, positive when the ground is higher
@@ -191,6 +232,7 @@ impl PlanPath {
             leg_first_point,
             bend_per_m,
             blocks,
+            own: None,
         }
     }
 
