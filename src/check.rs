@@ -281,7 +281,30 @@ pub fn check_routes(routes: Vec<Route>, profile: &Profile, demo_profile: bool) -
 
 /// [`check_routes`] within `limits.max_rollout_steps` control steps per route.
 pub fn check_routes_with(routes: Vec<Route>, profile: &Profile, demo_profile: bool, limits: &Limits) -> CheckRun {
-    let routes = routes.into_par_iter().map(|r| check_route_with(r, profile, limits)).collect();
+    check_routes_keeping(routes, profile, demo_profile, limits, true)
+}
+
+/// [`check_routes_with`], keeping each route's trace only when `keep_traces` (the trace CSV, the
+/// predicted path, plots and HTML draw on it; the tables, JSON and JSON Lines do not). Without
+/// traces a run's memory holds only the traces of the routes being simulated, one per thread,
+/// instead of all of them (a 500 m route's trace is about 1.5 MB).
+pub fn check_routes_keeping(
+    routes: Vec<Route>,
+    profile: &Profile,
+    demo_profile: bool,
+    limits: &Limits,
+    keep_traces: bool,
+) -> CheckRun {
+    let routes = routes
+        .into_par_iter()
+        .map(|r| {
+            let mut checked = check_route_with(r, profile, limits);
+            if !keep_traces {
+                checked.trace.steps = Vec::new();
+            }
+            checked
+        })
+        .collect();
     CheckRun { vehicle_name: profile.vehicle.name.clone(), demo_profile, routes, terrain_map: None }
 }
 
