@@ -360,10 +360,14 @@ fn simulate(
         let ground = rear.ground.blend(&front.ground, under.front_share);
         let (grade, cross) = plan.slope_at_cursor(step.progress_m, &mut slope_cursor);
         let slope = Slope::new(grade, cross);
+        // sin and cos of the heading, once a step for the pursuit goal and the pose's step.
+        let sin_cos_yaw = pose.yaw_rad.sin_cos();
         let cmd = if drive.limits.slows_in_turns() {
-            follower.command_capped(pose, &legd.controller, |k| turn_speed_limit_mps(&drive.vehicle, &ground, k, slope))
+            follower.command_capped_with(pose, sin_cos_yaw, &legd.controller, |k| {
+                turn_speed_limit_mps(&drive.vehicle, &ground, k, slope)
+            })
         } else {
-            follower.command(pose, &legd.controller)
+            follower.command_capped_with(pose, sin_cos_yaw, &legd.controller, |_| f64::INFINITY)
         };
         let mut twist = ground_twist(&rear.actual, &front.actual, under.front_share, cmd.left_mps, cmd.right_mps);
         let (mut left, mut right) = (cmd.left_mps, cmd.right_mps);
@@ -385,7 +389,7 @@ fn simulate(
         if on_step(&step) == Flow::Stop {
             return None;
         }
-        pose = pose.step(twist, dt);
+        pose = pose.step_with(twist, dt, sin_cos_yaw);
         k += 1;
         t = k as f64 * dt;
     };
