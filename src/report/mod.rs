@@ -4,16 +4,24 @@
 //! into place, so a failure never leaves a partial output.
 
 mod atomic;
+pub(crate) mod axis;
 pub mod compare_report;
+pub(crate) mod decimate;
 pub mod drift_plot;
 pub mod drift_report;
+pub(crate) mod figure;
 pub mod fit_json;
 pub mod fit_plot;
 pub mod fit_table;
 pub(crate) mod fitted_table;
 pub mod html;
+pub(crate) mod inset;
 pub mod json;
 pub mod jsonl;
+pub(crate) mod legend;
+pub(crate) mod marks;
+pub(crate) mod palette;
+pub(crate) mod placer;
 pub mod plot;
 pub mod predicted;
 mod preflight;
@@ -21,6 +29,7 @@ pub mod relaxed;
 pub mod replay_plot;
 pub mod replay_report;
 pub mod table;
+pub(crate) mod text;
 pub mod trace_csv;
 
 use std::path::{Path, PathBuf};
