@@ -168,6 +168,12 @@ fn check_step_bound(route: &Route, profile: &Profile, limits: &Limits) -> Result
     })
 }
 
+/// The warning for a route with cross slopes checked with a profile that gives no
+/// centre-of-gravity height (docs/method.md, Effort).
+pub const NO_COG_HEIGHT: &str = "the vehicle profile gives no vehicle.cog_height_m, so on this route's cross slopes \
+the load shift to the downhill side and tipping over are not judged (sliding sideways is); add the height of the \
+centre of gravity above the ground to the profile";
+
 /// Simulates and assesses one route (at most the default step budget).
 pub fn check_route(route: Route, profile: &Profile) -> CheckedRoute {
     check_route_with(route, profile, &Limits::default())
@@ -176,8 +182,11 @@ pub fn check_route(route: Route, profile: &Profile) -> CheckedRoute {
 /// Simulates and assesses one route within `limits.max_rollout_steps` control steps per
 /// simulation, then finds each leg's highest passing speed (`crate::margin`; those simulations
 /// are counted in [`CheckedRoute::steps_simulated`]).
-pub fn check_route_with(route: Route, profile: &Profile, limits: &Limits) -> CheckedRoute {
+pub fn check_route_with(mut route: Route, profile: &Profile, limits: &Limits) -> CheckedRoute {
     let drive = RouteDrive::new(&route, profile);
+    if drive.plan.has_cross_slope() && profile.vehicle.cog_height_m.is_none() {
+        route.warnings.push(NO_COG_HEIGHT.to_string());
+    }
     let (trace, resumes) = roll_out_with_resumes(&drive, limits.max_rollout_steps);
     let plans = leg_plans(&drive);
     let mut report = assess_route_with(&route, &drive, &trace, profile.vehicle.battery_wh, &plans);

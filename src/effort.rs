@@ -1,8 +1,11 @@
 //! Track effort: thrust per side, mechanical and drawn power and energy, after Wong, "Theory of Ground Vehicles", 4th ed. (2008), ch. 7, steering of
 //! tracked vehicles (docs/method.md, Effort).
 //!
-//! Quasi-static: rolling resistance, turning resistance, acceleration and grade; yaw inertia and
-//! centrifugal load transfer are neglected, which holds at the low speeds of these vehicles.
+//! Quasi-static: rolling resistance, turning resistance, acceleration, grade and cross slope; yaw
+//! inertia and centrifugal load transfer are neglected, which holds at the low speeds of these
+//! vehicles. On a cross slope the downhill side carries more of the load (lateral load transfer,
+//! with the centre-of-gravity height when the profile gives it), and each side's rolling
+//! resistance and traction follow its own normal load (docs/method.md, Effort).
 //! Units: newtons, watts, joules (Wh only at the report edge), metres, seconds.
 //!
 //! Tracks and skid-steered wheels differ only in the turning-resistance moment: a track's
@@ -26,6 +29,10 @@ pub struct EffortVehicle {
     pub max_power_w: f64,
     pub drivetrain_efficiency: f64,
     pub regenerative: bool,
+    /// Height of the centre of gravity above the ground, m, when the profile gives it
+    /// (`cog_height_m`); without it the load is not shifted between the sides on a cross slope
+    /// and tipping is not judged.
+    pub cog_height_m: Option<f64>,
 }
 
 impl EffortVehicle {
@@ -40,12 +47,39 @@ impl EffortVehicle {
             max_power_w: v.max_power_w,
             drivetrain_efficiency: v.drivetrain_efficiency,
             regenerative: v.regenerative,
+            cog_height_m: v.cog_height_m,
         }
     }
 
     /// Weight W = m g.
     pub fn weight_n(&self) -> f64 {
         self.mass_kg * STANDARD_GRAVITY_MPS2
+    }
+
+    /// Normal loads on the left and right side on `slope`, N: the total normal load N split
+    /// N / 2 -+ F h / B, with F = N c cos(grade) the weight component across the slope (c the
+    /// cross slope, positive when the left side is higher), h the centre-of-gravity height and
+    /// B the track width (moments about the vehicle's long axis at the ground; statics, common
+    /// practice, no source). With F = W sin(phi) and N = W cos(phi) on a pure side slope of angle
+    /// phi this is W cos(phi) / 2 -+ W h sin(phi) / B. The uphill side's load is never below zero
+    /// (beyond the tipping point the downhill side carries everything). Without a
+    /// centre-of-gravity height the sides share the load equally.
+    #[inline]
+    pub fn side_loads_n(&self, slope: Slope) -> (f64, f64) {
+        let n = slope.normal_load_n(self.weight_n());
+        let half = 0.5 * n;
+        let shift = match self.cog_height_m {
+            Some(h) if slope.cross_slope != 0.0 => (n * slope.side_ratio() * h / self.track_width_m).clamp(-half, half),
+            _ => 0.0,
+        };
+        (half - shift, half + shift)
+    }
+
+    /// The static stability factor B / (2 h): the cross slope ratio (weight across the slope
+    /// over normal load) at which the uphill side lifts off (common practice for rollover
+    /// screening, no source); `None` without a centre-of-gravity height.
+    pub fn tipping_ratio(&self) -> Option<f64> {
+        self.cog_height_m.filter(|&h| h > 0.0).map(|h| self.track_width_m / (2.0 * h))
     }
 }
 
@@ -92,28 +126,58 @@ impl Ground {
     }
 }
 
-/// The attitude of the ground under the vehicle. Only the grade along the direction of travel is
-/// modelled; a cross slope would join here.
+/// The attitude of the ground under the vehicle: the grade along the direction of travel and the
+/// cross slope across it, both from the plan (the plan's direction stands for the vehicle's).
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct Slope {
     /// Grade along the direction of travel, rad, positive uphill.
     pub grade_rad: f64,
+    /// Cross slope: tangent of the ground's slope across the direction of travel (rise per
+    /// horizontal metre to the left), positive when the left side is higher.
+    pub cross_slope: f64,
 }
 
 impl Slope {
-    pub const LEVEL: Slope = Slope { grade_rad: 0.0 };
+    pub const LEVEL: Slope = Slope { grade_rad: 0.0, cross_slope: 0.0 };
 
+    /// A grade with no cross slope.
     pub fn grade(grade_rad: f64) -> Slope {
-        Slope { grade_rad }
+        Slope { grade_rad, cross_slope: 0.0 }
     }
 
-    /// Normal load on the ground, N: W cos(grade).
+    pub fn new(grade_rad: f64, cross_slope: f64) -> Slope {
+        Slope { grade_rad, cross_slope }
+    }
+
+    /// Normal load on the ground, N: the weight's component along the ground's normal. The ground
+    /// z = tan(grade) x + c y (x along the travel, y to the left, both horizontal) has the normal
+    /// (-tan(grade), -c, 1), so N = W / sqrt(1 + tan^2(grade) + c^2), which is W cos(grade)
+    /// without a cross slope and W cos(phi) on a pure side slope of angle phi.
     #[inline]
     pub fn normal_load_n(&self, weight_n: f64) -> f64 {
-        if self.grade_rad == 0.0 {
-            weight_n
+        if self.cross_slope == 0.0 {
+            if self.grade_rad == 0.0 {
+                weight_n
+            } else {
+                weight_n * self.grade_rad.cos()
+            }
         } else {
-            weight_n * self.grade_rad.cos()
+            let t = self.grade_rad.tan();
+            weight_n / (1.0 + t * t + self.cross_slope * self.cross_slope).sqrt()
+        }
+    }
+
+    /// The weight's component across the direction of travel, in the ground's plane, per unit
+    /// normal load: c cos(grade) (signed like the cross slope; it pushes the vehicle to its
+    /// right when positive). On a pure side slope of angle phi it is tan(phi). Derived from the
+    /// plane above: the in-plane lateral component of W is W |c| / sqrt((1 + tan^2 g + c^2)
+    /// (1 + tan^2 g)), which is N |c| cos(g).
+    #[inline]
+    pub fn side_ratio(&self) -> f64 {
+        if self.grade_rad == 0.0 {
+            self.cross_slope
+        } else {
+            self.cross_slope * self.grade_rad.cos()
         }
     }
 
@@ -154,18 +218,32 @@ pub fn turning_moment(mu_t: f64, normal_load_n: f64, contact_length_m: f64, gear
 
 /// The forces behind each side's thrust on a slope, N (Wong 2008, steering of tracked vehicles):
 /// a side moving in direction `dir` (+1 forward, -1 backward, 0 at rest) needs
-/// `dir * rolling_n + grade_n + accel_n`, plus `turning_n` on the outer side and minus it on the
-/// inner side.
+/// `dir * rolling + grade_n + accel_n`, plus `turning_n` on the outer side and minus it on the
+/// inner side, its rolling resistance from its own normal load.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct SideForces {
-    /// Rolling resistance per side, f_r N / 2 with N = W cos(grade); it opposes the side's motion.
-    pub rolling_n: f64,
+    /// Rolling resistance of the left side, f_r N_left, and of the right side; each opposes that
+    /// side's motion (N_left + N_right = N, [`EffortVehicle::side_loads_n`]).
+    pub rolling_left_n: f64,
+    pub rolling_right_n: f64,
     /// W sin(grade) / 2.
     pub grade_n: f64,
     /// m a / 2.
     pub accel_n: f64,
-    /// M_r / B, with M_r from the normal load N.
+    /// M_r / B, with M_r from the total normal load N.
     pub turning_n: f64,
+}
+
+/// The sign of a turn: +1 left (anticlockwise), -1 right, 0 straight.
+#[inline]
+pub fn turn_sign(x: f64) -> f64 {
+    if x > 0.0 {
+        1.0
+    } else if x < 0.0 {
+        -1.0
+    } else {
+        0.0
+    }
 }
 
 impl SideForces {
@@ -173,31 +251,46 @@ impl SideForces {
     pub fn new(veh: &EffortVehicle, ground: &Ground, curvature_per_m: f64, accel_mps2: f64, slope: Slope) -> Self {
         let w = veh.weight_n();
         let n = slope.normal_load_n(w);
+        let (n_left, n_right) = veh.side_loads_n(slope);
         let mu_t = lateral_resistance(ground.lateral_resistance_max, curvature_per_m, veh.track_width_m);
         SideForces {
-            rolling_n: 0.5 * ground.rolling_resistance * n,
+            rolling_left_n: ground.rolling_resistance * n_left,
+            rolling_right_n: ground.rolling_resistance * n_right,
             grade_n: slope.grade_force_per_side_n(w),
             accel_n: 0.5 * veh.mass_kg * accel_mps2,
             turning_n: turning_moment(mu_t, n, veh.contact_length_m, veh.running_gear) / veh.track_width_m,
         }
     }
 
-    /// Thrust of the outer side moving in direction `dir`.
+    /// Thrust of the left side moving in direction `dir` in a turn of sign `turn` (+1 left: the
+    /// left side is inner; -1 right: it is outer; 0 straight).
     #[inline]
-    pub fn outer_n(&self, dir: f64) -> f64 {
-        dir * self.rolling_n + self.grade_n + self.accel_n + self.turning_n
+    pub fn left_n(&self, dir: f64, turn: f64) -> f64 {
+        dir * self.rolling_left_n + self.grade_n + self.accel_n - turn * self.turning_n
     }
 
-    /// Thrust of the inner side moving in direction `dir`.
+    /// Thrust of the right side moving in direction `dir` in a turn of sign `turn`.
     #[inline]
-    pub fn inner_n(&self, dir: f64) -> f64 {
-        dir * self.rolling_n + self.grade_n + self.accel_n - self.turning_n
+    pub fn right_n(&self, dir: f64, turn: f64) -> f64 {
+        dir * self.rolling_right_n + self.grade_n + self.accel_n + turn * self.turning_n
+    }
+
+    /// Thrusts of the outer and inner side of a turn of sign `turn` (+1 left, -1 right), each
+    /// moving in its direction.
+    #[inline]
+    pub fn outer_inner_n(&self, turn: f64, outer_dir: f64, inner_dir: f64) -> (f64, f64) {
+        if turn >= 0.0 {
+            (self.right_n(outer_dir, 1.0), self.left_n(inner_dir, 1.0))
+        } else {
+            (self.left_n(outer_dir, -1.0), self.right_n(inner_dir, -1.0))
+        }
     }
 }
 
-/// Thrusts of the outer and inner side of a turn driven forward, N (Wong 2008): F_o = f_r N/2 +
-/// M_r/B + extra, F_i = f_r N/2 - M_r/B + extra, with N = W cos(grade) and `extra` per side
-/// m a / 2 + W sin(grade) / 2.
+/// Thrusts of the outer and inner side of a steady turn of signed curvature `curvature_per_m`
+/// driven forward, N (Wong 2008): F_o = f_r N_o + M_r/B + extra, F_i = f_r N_i - M_r/B + extra,
+/// with N_o, N_i the two sides' normal loads (N / 2 each without a cross slope) and `extra` per
+/// side m a / 2 + W sin(grade) / 2. A left turn's outer side is the right one.
 #[inline]
 pub fn side_thrusts(
     veh: &EffortVehicle,
@@ -207,7 +300,7 @@ pub fn side_thrusts(
     slope: Slope,
 ) -> (f64, f64) {
     let f = SideForces::new(veh, ground, curvature_per_m, accel_mps2, slope);
-    (f.outer_n(1.0), f.inner_n(1.0))
+    f.outer_inner_n(if curvature_per_m < 0.0 { -1.0 } else { 1.0 }, 1.0, 1.0)
 }
 
 /// Direction of a side's motion for its rolling resistance: +1, -1, or 0 at rest.
@@ -245,11 +338,20 @@ pub fn side_thrust_limit_n(veh: &EffortVehicle, ground: &Ground) -> f64 {
     side_thrust_limit_on_n(veh, ground, Slope::LEVEL)
 }
 
-/// Thrust limit per side on a slope: the smaller of traction (mu N / 2, N = W cos(grade)) and the
-/// drive's rating. Driving and braking alike.
+/// Thrust limit per side on a slope with the load shared equally: the smaller of traction
+/// (mu N / 2) and the drive's rating. Driving and braking alike.
 #[inline]
 pub fn side_thrust_limit_on_n(veh: &EffortVehicle, ground: &Ground, slope: Slope) -> f64 {
     (0.5 * ground.traction_coefficient * slope.normal_load_n(veh.weight_n())).min(veh.max_side_thrust_n)
+}
+
+/// Thrust limit of the left and the right side on a slope: the smaller of traction on that
+/// side's own normal load (mu N_side, [`EffortVehicle::side_loads_n`]) and the drive's rating.
+#[inline]
+pub fn side_thrust_limits_n(veh: &EffortVehicle, ground: &Ground, slope: Slope) -> (f64, f64) {
+    let (n_left, n_right) = veh.side_loads_n(slope);
+    let mu = ground.traction_coefficient;
+    ((mu * n_left).min(veh.max_side_thrust_n), (mu * n_right).min(veh.max_side_thrust_n))
 }
 
 /// Effort at one control step.
@@ -266,6 +368,8 @@ pub struct EffortStep {
     pub drawn_power_w: f64,
     /// Grade along the plan, rad (positive uphill).
     pub grade_rad: f64,
+    /// Cross slope there (tangent, positive when the left side is higher).
+    pub cross_slope: f64,
 }
 
 /// Curvature of a twist, 1/m: omega / vx, infinite for a turn on the spot, 0 at rest.
@@ -297,17 +401,10 @@ pub fn effort_step(
 ) -> EffortStep {
     let f = SideForces::new(veh, ground, twist_curvature(vx_mps, omega_radps), accel_mps2, slope);
     let (dl, dr) = (motion_direction(left_mps), motion_direction(right_mps));
+    let turn = turn_sign(omega_radps);
+    let (left, right) = (f.left_n(dl, turn), f.right_n(dr, turn));
     // Turning left (omega > 0) the right side is outer.
-    let (left, right, outer, inner) = if omega_radps > 0.0 {
-        let (l, r) = (f.inner_n(dl), f.outer_n(dr));
-        (l, r, r, l)
-    } else if omega_radps < 0.0 {
-        let (l, r) = (f.outer_n(dl), f.inner_n(dr));
-        (l, r, l, r)
-    } else {
-        let (l, r) = (f.outer_n(dl), f.outer_n(dr));
-        (l, r, l, r)
-    };
+    let (outer, inner) = if turn > 0.0 { (right, left) } else { (left, right) };
     let (p_l, p_r) = (left * left_mps, right * right_mps);
     EffortStep {
         left_thrust_n: left,
@@ -317,6 +414,7 @@ pub fn effort_step(
         mechanical_power_w: p_l + p_r,
         drawn_power_w: drawn_power_w(veh, p_l, p_r),
         grade_rad: slope.grade_rad,
+        cross_slope: slope.cross_slope,
     }
 }
 
@@ -337,6 +435,7 @@ pub(crate) mod tests {
             max_power_w: 1e12,
             drivetrain_efficiency: 1.0,
             regenerative: false,
+            cog_height_m: None,
         };
         let ground = Ground { rolling_resistance: 0.05, traction_coefficient: 0.7, lateral_resistance_max: 0.6 };
         (veh, ground)
@@ -418,6 +517,92 @@ pub(crate) mod tests {
             0.7 * w / 1.09_f64.sqrt() / 2.0,
             max_relative = 1e-12
         );
+    }
+
+    /// The demo carrier's numbers (m = 480 kg, B = 0.9 m) with a centre of gravity `h_m` up.
+    fn carrier(h_m: f64) -> EffortVehicle {
+        let mut veh = EffortVehicle::from_profile(&crate::vehicle::Profile::demo());
+        veh.cog_height_m = Some(h_m);
+        veh
+    }
+
+    #[test]
+    fn the_downhill_side_carries_the_load_shifted_by_the_side_slope() {
+        // Pure side slope of angle phi, left side higher (tan phi = 0.3): moments about the
+        // vehicle's long axis at the ground (statics, common practice, no source) give
+        // N_left = W cos(phi) / 2 - W h sin(phi) / B and N_right = W cos(phi) / 2 + W h sin(phi) / B.
+        let (h, b) = (0.55, 0.9);
+        let veh = carrier(h);
+        let w = veh.weight_n();
+        let phi = 0.3_f64.atan();
+        let (n_left, n_right) = veh.side_loads_n(Slope::new(0.0, 0.3));
+        assert_relative_eq!(n_left, w * phi.cos() / 2.0 - w * h * phi.sin() / b, max_relative = 1e-12);
+        assert_relative_eq!(n_right, w * phi.cos() / 2.0 + w * h * phi.sin() / b, max_relative = 1e-12);
+        // The right side higher: mirrored.
+        let (l2, r2) = veh.side_loads_n(Slope::new(0.0, -0.3));
+        assert_relative_eq!(l2, n_right, max_relative = 1e-12);
+        assert_relative_eq!(r2, n_left, max_relative = 1e-12);
+        // No height given: equal shares of W cos(phi).
+        let mut unknown = veh;
+        unknown.cog_height_m = None;
+        let (a, c) = unknown.side_loads_n(Slope::new(0.0, 0.3));
+        assert_relative_eq!(a, w * phi.cos() / 2.0, max_relative = 1e-12);
+        assert_relative_eq!(c, a);
+    }
+
+    #[test]
+    fn the_uphill_side_lifts_at_the_static_stability_factor() {
+        // B / (2 h) = 0.9 / 1.1 (common practice for rollover screening): the uphill side's load
+        // reaches zero there and stays at zero beyond.
+        let veh = carrier(0.55);
+        let ssf = 0.9 / 1.1;
+        assert_relative_eq!(veh.tipping_ratio().expect("height"), ssf, max_relative = 1e-15);
+        let (up, down) = veh.side_loads_n(Slope::new(0.0, ssf));
+        assert!(up.abs() < 1e-9 * veh.weight_n(), "{up}");
+        assert_relative_eq!(down, Slope::new(0.0, ssf).normal_load_n(veh.weight_n()), max_relative = 1e-12);
+        let (up, _) = veh.side_loads_n(Slope::new(0.0, 1.2 * ssf));
+        assert_eq!(up, 0.0);
+    }
+
+    #[test]
+    fn normal_load_and_side_ratio_follow_the_ground_plane() {
+        // Independent vector geometry: the ground z = tan(g) x + c y has the unit normal
+        // n = (-tan g, -c, 1) / |.|; the unit along-track tangent t = (1, 0, tan g) / |.| and the
+        // lateral axis l = n x t lie in it. Weight (0, 0, -W): normal load W n_z, across the
+        // track |W l_z|.
+        let w = 1000.0;
+        for (tg, c) in [(0.0, 0.3), (0.2, 0.3), (-0.35, -0.15), (0.5, 0.0)] {
+            let norm = |v: [f64; 3]| (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]).sqrt();
+            let n0 = [-tg, -c, 1.0];
+            let n = n0.map(|x| x / norm(n0));
+            let t0 = [1.0, 0.0, tg];
+            let t = t0.map(|x| x / norm(t0));
+            let l = [n[1] * t[2] - n[2] * t[1], n[2] * t[0] - n[0] * t[2], n[0] * t[1] - n[1] * t[0]];
+            let slope = Slope::new(f64::atan(tg), c);
+            let normal = slope.normal_load_n(w);
+            assert_relative_eq!(normal, w * n[2], max_relative = 1e-12);
+            assert_relative_eq!(slope.side_ratio().abs() * normal, (w * l[2]).abs(), epsilon = 1e-9);
+            // Along the track, W sin(grade) as before.
+            assert_relative_eq!(2.0 * slope.grade_force_per_side_n(w), (w * t[2]).abs() * tg.signum(), epsilon = 1e-9);
+        }
+    }
+
+    #[test]
+    fn each_side_rolls_on_its_own_load() {
+        // Straight ahead across a 30 % side slope, left side higher: each side's thrust is f_r
+        // times its own normal load (Wong 2008, rolling resistance), the right (downhill) side's
+        // the larger; the traction limits follow the loads too.
+        let veh = carrier(0.55);
+        let ground = Ground { rolling_resistance: 0.06, traction_coefficient: 0.3, lateral_resistance_max: 0.35 };
+        let slope = Slope::new(0.0, 0.3);
+        let (n_left, n_right) = veh.side_loads_n(slope);
+        let e = effort_step(&veh, &ground, 1.0, 0.0, 1.0, 1.0, 0.0, slope);
+        assert_relative_eq!(e.left_thrust_n, 0.06 * n_left, max_relative = 1e-12);
+        assert_relative_eq!(e.right_thrust_n, 0.06 * n_right, max_relative = 1e-12);
+        assert_eq!(e.cross_slope, 0.3);
+        let (lim_l, lim_r) = side_thrust_limits_n(&veh, &ground, slope);
+        assert_relative_eq!(lim_l, 0.3 * n_left, max_relative = 1e-12);
+        assert_relative_eq!(lim_r, 0.3 * n_right, max_relative = 1e-12);
     }
 
     #[test]

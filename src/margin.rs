@@ -1,10 +1,12 @@
 //! Margins to failure per leg (docs/method.md, Verdicts: margins): the highest speed at which a
-//! leg does not fail, found by bisection over full simulations of the leg.
+//! leg does not fail, found by bisection over full simulations of the leg. A leg with a
+//! planner's speed profile is searched with the whole profile scaled: the speed reported is the
+//! profile's largest value at which the leg passes (the shape of the profile is kept).
 //!
 //! A leg fails at a speed when a turn needs more than the vehicle can drive there at that speed
-//! (checked on the plan, cheap), when its grades need more than traction gives (independent of
-//! speed), or when the simulated vehicle leaves the leg's corridor, stalls or does not get past
-//! the leg's end. Everything else only earns a caution. So the search first finds, on the plan
+//! (checked on the plan, cheap), when its grades or cross slopes need more than traction or the
+//! vehicle's stance gives (independent of speed), or when the simulated vehicle leaves the
+//! corridor, stalls or does not get past the leg's end. Everything else only earns a caution. So the search first finds, on the plan
 //! alone, the highest speed whose turns pass; then simulates the leg, resumed from the main
 //! simulation just before the leg (its earlier legs do not depend on this leg's speed), and
 //! bisects between a speed that passes and one that fails until they are within 1 %. Each
@@ -17,7 +19,7 @@
 
 use rayon::prelude::*;
 
-use crate::assess::{check_turns, grades_pass, LegPlan, RouteReport, Verdict};
+use crate::assess::{check_turns, slopes_pass, LegPlan, RouteReport, Verdict};
 use crate::rollout::{leg_passes, step_bounds_with_each_leg_at, Resume, RouteDrive};
 use crate::route::Route;
 use crate::vehicle::Profile;
@@ -94,7 +96,7 @@ pub fn max_passing_speed(
     max_steps: u64,
 ) -> PassingSpeed {
     let none = PassingSpeed { speed_mps: None, steps: 0 };
-    if !grades_pass(drive, leg, plan) {
+    if !slopes_pass(plan) {
         return none;
     }
     let turns_pass = |v: f64| check_turns(drive, leg, plan, v).failing.is_empty();
@@ -104,10 +106,12 @@ pub fn max_passing_speed(
     }
     let plan_top = if turns_pass(top) { top } else { bisect(MIN_TRIED_SPEED_MPS, top, 1e-4, turns_pass) };
     let mut steps = 0u64;
-    let mut speeds = drive.speeds_mps.clone();
+    let nominal = drive.legs[leg].speed_mps;
     let mut simulate_passes = |v: f64| {
-        speeds[leg] = v;
-        let (ok, n) = leg_passes(drive, &speeds, from, leg, max_steps);
+        // The leg's profile scaled so its largest value is v; the envelope is rebuilt from
+        // where the simulation resumes.
+        let scaled = drive.speeds.scaled(&drive.plan, leg, v / nominal, from.progress_m());
+        let (ok, n) = leg_passes(drive, drive.speeds.view_with(&scaled), from, leg, max_steps);
         steps += n;
         ok
     };

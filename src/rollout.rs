@@ -11,14 +11,15 @@
 //! reserved up front from the time bound).
 
 use crate::effort::{effort_step, EffortStep, EffortVehicle, Ground, Slope};
-use crate::follow::{Follower, FollowerLimits, FollowerState};
+use crate::follow::{driven_speed_mps, segment_time_s, Follower, FollowerLimits, FollowerState, SpeedPlan, SpeedView};
 use crate::kinematics::{Model, MotionModel, Pose, Twist};
-use crate::route::{PlanPath, Route, TerrainShare};
+use crate::route::{Cursor, Leg, PlanPath, Route, TerrainShare};
 use crate::turn_limit::{limit_step, turn_speed_limit_mps, StepLimit};
 use crate::vehicle::Profile;
 
 /// How one leg is driven: the terrain's actual model, the model the controller inverts, and
-/// the target speed.
+/// the leg's nominal speed and corridor (its profile's largest speed and smallest corridor; the
+/// profiles themselves are in [`RouteDrive::speeds`]).
 #[derive(Debug, Clone, PartialEq)]
 pub struct LegDrive {
     pub terrain: String,
@@ -35,7 +36,9 @@ pub struct LegDrive {
 pub struct RouteDrive {
     pub plan: PlanPath,
     pub legs: Vec<LegDrive>,
-    pub speeds_mps: Vec<f64>,
+    /// The planner's speed and corridor at every plan point, with the follower's braking
+    /// envelope (built for `limits`' acceleration limit and top side speed).
+    pub speeds: SpeedPlan,
     pub limits: FollowerLimits,
     /// Spacing at which the plan's curvature is measured (docs/method.md, Plan curvature).
     pub curvature_scale_m: f64,
@@ -72,7 +75,6 @@ impl RouteDrive {
                 }
             })
             .collect();
-        let speeds_mps = legs.iter().map(|l| l.speed_mps).collect();
         let limits = FollowerLimits {
             lookahead_m: profile.follower.lookahead_m,
             dt_s: 1.0 / profile.follower.control_rate_hz,
@@ -82,29 +84,27 @@ impl RouteDrive {
             track_width_m: v.track_width_m,
             max_lateral_accel_mps2: profile.follower.max_lateral_accel_mps2.unwrap_or(f64::INFINITY),
         };
+        let speeds = SpeedPlan::from_route(route, &plan, v.cruise_speed_mps, profile.follower.corridor_m, &limits);
         RouteDrive {
             plan,
             legs,
-            speeds_mps,
+            speeds,
             limits,
             curvature_scale_m: profile.follower.curvature_scale_m,
             vehicle: EffortVehicle::from_profile(profile),
         }
     }
 
-    /// Time bound for a rollout: three times the planned driving time at the reachable leg
-    /// speeds, plus a minute for ramps. A vehicle that stalls or circles is stopped there.
+    /// Time bound for a rollout: three times the planned driving time at the reachable planned
+    /// speeds (the profile's speed at every point, between the creep speed and the top side
+    /// speed), plus a minute for ramps. A vehicle that stalls or circles is stopped there.
     pub fn time_limit_s(&self) -> f64 {
-        self.time_limit_with(&self.speeds_mps)
+        self.time_limit_with(self.speeds.view())
     }
 
-    /// [`RouteDrive::time_limit_s`] with leg speeds `speeds_mps`.
-    pub fn time_limit_with(&self, speeds_mps: &[f64]) -> f64 {
-        let legs = (0..self.plan.leg_count()).map(|i| {
-            let (a, b) = self.plan.leg_bounds_m(i);
-            (b - a, speeds_mps.get(i).copied().unwrap_or(self.legs[i].speed_mps))
-        });
-        time_bound_s(legs, self.limits.max_side_speed_mps)
+    /// [`RouteDrive::time_limit_s`] for the speed plan `speeds`.
+    pub fn time_limit_with(&self, speeds: SpeedView) -> f64 {
+        time_bound_s(speeds.total_time_s())
     }
 
     /// The drives of the legs under the rear and front of the contact patch; the rear one twice
@@ -157,42 +157,49 @@ pub fn ground_twist(rear: &Model, front: &Model, front_share: f64, left_mps: f64
     }
 }
 
-/// The time bound of [`RouteDrive::time_limit_s`] from (length, speed) of each leg; slower
-/// planned speeds than 0.05 m/s count as 0.05 m/s.
-fn time_bound_s(legs: impl Iterator<Item = (f64, f64)>, max_side_speed_mps: f64) -> f64 {
-    let planned: f64 = legs.map(|(length_m, speed_mps)| length_m / speed_mps.min(max_side_speed_mps).max(0.05)).sum();
-    3.0 * planned + 60.0
+/// The time bound of [`RouteDrive::time_limit_s`] from the planned driving time.
+fn time_bound_s(planned_s: f64) -> f64 {
+    3.0 * planned_s + 60.0
+}
+
+/// Planned driving time of `leg` with its speeds times `factor` (the cruise speed where it
+/// gives none), each between the creep speed and the top side speed and linear in arc length
+/// between points: the time [`SpeedPlan`] gives the same leg.
+fn leg_time_s(leg: &Leg, profile: &Profile, factor: f64) -> f64 {
+    let top = profile.vehicle.max_side_speed_mps;
+    let v =
+        |i: usize| driven_speed_mps(leg.speed_at_point(i).unwrap_or(profile.vehicle.cruise_speed_mps) * factor, top);
+    leg.points
+        .windows(2)
+        .enumerate()
+        .map(|(k, w)| segment_time_s(crate::route::plan::dist(w[0], w[1]), v(k), v(k + 1)))
+        .sum()
 }
 
 /// The step bound of a route's rollout under `profile` ([`RouteDrive::step_bound`]), from the
 /// route alone, so a route can be refused before anything is simulated.
 pub fn step_bound(route: &Route, profile: &Profile) -> f64 {
-    let legs = leg_lengths_and_speeds(route, profile);
-    let limit_s = time_bound_s(legs, profile.vehicle.max_side_speed_mps);
-    (limit_s * profile.follower.control_rate_hz).ceil() + 1.0
+    let planned_s: f64 = route.legs.iter().map(|leg| leg_time_s(leg, profile, 1.0)).sum();
+    (time_bound_s(planned_s) * profile.follower.control_rate_hz).ceil() + 1.0
 }
 
-/// For every leg in turn, the step bound of the route's rollout with that leg driven at
-/// `speed_mps` and the others at their planned speeds (the simulations of the margin search,
-/// `crate::margin`, are bounded by these), from the route alone.
+/// For every leg in turn, the step bound of the route's rollout with that leg's speed profile
+/// scaled so its largest value is `speed_mps` and the others at their planned speeds (the
+/// simulations of the margin search, `crate::margin`, are bounded by these), from the route
+/// alone.
 pub fn step_bounds_with_each_leg_at(route: &Route, profile: &Profile, speed_mps: f64) -> Vec<f64> {
-    let legs: Vec<(f64, f64)> = leg_lengths_and_speeds(route, profile).collect();
-    let max_side_mps = profile.vehicle.max_side_speed_mps;
-    (0..legs.len())
-        .map(|i| {
-            let with =
-                legs.iter().enumerate().map(|(j, &(length_m, v))| (length_m, if j == i { speed_mps } else { v }));
-            (time_bound_s(with, max_side_mps) * profile.follower.control_rate_hz).ceil() + 1.0
+    let own: Vec<f64> = route.legs.iter().map(|leg| leg_time_s(leg, profile, 1.0)).collect();
+    route
+        .legs
+        .iter()
+        .enumerate()
+        .map(|(i, leg)| {
+            let nominal = leg.speed_mps.unwrap_or(profile.vehicle.cruise_speed_mps);
+            let scaled = leg_time_s(leg, profile, speed_mps / nominal);
+            let planned_s: f64 = own.iter().enumerate().map(|(j, &t)| if j == i { scaled } else { t }).sum();
+            (time_bound_s(planned_s) * profile.follower.control_rate_hz).ceil() + 1.0
         })
         .collect()
-}
-
-/// (length, planned speed) of every leg of `route`, the cruise speed where none is given.
-fn leg_lengths_and_speeds<'a>(route: &'a Route, profile: &'a Profile) -> impl Iterator<Item = (f64, f64)> + 'a {
-    route.legs.iter().map(|leg| {
-        let length_m: f64 = leg.points.windows(2).map(|w| crate::route::plan::dist(w[0], w[1])).sum();
-        (length_m, leg.speed_mps.unwrap_or(profile.vehicle.cruise_speed_mps))
-    })
 }
 
 /// Steps reserved for the trace up front; longer rollouts grow it (a few reallocations in all,
@@ -261,7 +268,7 @@ pub struct Trace {
 }
 
 /// The state of a simulation at the top of a control step, from which it can be resumed (with
-/// other leg speeds: the margins resume just before a leg; docs/method.md, Verdicts).
+/// another speed plan: the margins resume just before a leg; docs/method.md, Verdicts).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Resume {
     follower: FollowerState,
@@ -275,13 +282,18 @@ impl Resume {
     pub fn start(drive: &RouteDrive) -> Resume {
         let plan = &drive.plan;
         let (start, dir) = (plan.point_at(0.0), plan.direction_at(0.0));
-        let follower = Follower::new(plan, &drive.speeds_mps, drive.limits).state();
+        let follower = Follower::new(plan, drive.speeds.view(), drive.limits).state();
         Resume { follower, pose: Pose::new(start[0], start[1], dir[1].atan2(dir[0])), k: 0, prev_vx_mps: 0.0 }
     }
 
     /// Control steps simulated before this point.
     pub fn steps_before(&self) -> u64 {
         self.k
+    }
+
+    /// Arc length of the progress point here.
+    pub fn progress_m(&self) -> f64 {
+        self.follower.progress_m()
     }
 }
 
@@ -292,13 +304,13 @@ enum Flow {
     Stop,
 }
 
-/// The simulation loop (see [`roll_out`]) from `start` with leg speeds `speeds_mps`, for at most
+/// The simulation loop (see [`roll_out`]) from `start` with the speed plan `speeds`, for at most
 /// `max_steps` steps in all. `at_top` sees the state at the top of every step (before the
 /// progress update); `on_step` sees every finished step and may stop the simulation, which then
 /// returns `None`. Nothing is allocated here.
 fn simulate(
     drive: &RouteDrive,
-    speeds_mps: &[f64],
+    speeds: SpeedView,
     start: Resume,
     max_steps: u64,
     mut at_top: impl FnMut(&Resume),
@@ -306,9 +318,11 @@ fn simulate(
 ) -> Option<Outcome> {
     let plan = &drive.plan;
     let dt = drive.limits.dt_s;
-    let limit_s = drive.time_limit_with(speeds_mps);
-    let mut follower = Follower::resume(plan, speeds_mps, drive.limits, start.follower);
+    let limit_s = drive.time_limit_with(speeds);
+    let mut follower = Follower::resume(plan, speeds, drive.limits, start.follower);
     let (mut pose, mut k, mut prev_vx) = (start.pose, start.k, start.prev_vx_mps);
+    // Walks with the progress point: the slope lookups are O(1) per step.
+    let mut slope_cursor = Cursor::default();
     let mut t = k as f64 * dt;
     let outcome = loop {
         at_top(&Resume { follower: follower.state(), pose, k, prev_vx_mps: prev_vx });
@@ -343,8 +357,8 @@ fn simulate(
         let under = plan.terrain_share(step.progress_m, drive.vehicle.contact_length_m);
         let (rear, front) = drive.terrain_pair(under);
         let ground = rear.ground.blend(&front.ground, under.front_share);
-        let grade = if plan.has_altitude() { plan.grade_at(step.progress_m) } else { 0.0 };
-        let slope = Slope::grade(grade);
+        let (grade, cross) = plan.slope_at_cursor(step.progress_m, &mut slope_cursor);
+        let slope = Slope::new(grade, cross);
         let cmd = if drive.limits.slows_in_turns() {
             follower.command_capped(pose, &legd.controller, |k| turn_speed_limit_mps(&drive.vehicle, &ground, k, slope))
         } else {
@@ -354,7 +368,7 @@ fn simulate(
         let (mut left, mut right) = (cmd.left_mps, cmd.right_mps);
         step.limit = limit_step(&drive.vehicle, &ground, slope, &mut twist, &mut left, &mut right);
         if step.limit == StepLimit::Stall {
-            step.effort.grade_rad = grade;
+            (step.effort.grade_rad, step.effort.cross_slope) = (grade, cross);
             if on_step(&step) == Flow::Stop {
                 return None;
             }
@@ -393,9 +407,10 @@ pub fn roll_out_within(drive: &RouteDrive, max_steps: u64) -> Trace {
 }
 
 /// Distance before a leg's start from which that leg's speed can change the simulation (the
-/// follower slows ahead of a slower leg within v^2 / 2a of its start), plus a metre.
+/// follower slows ahead of a slower leg within v^2 / 2a of its start, v the fastest it can be
+/// going: the top side speed or the fastest planned speed), plus a metre.
 pub fn leg_influence_m(drive: &RouteDrive) -> f64 {
-    let v = drive.limits.max_side_speed_mps;
+    let v = drive.limits.max_side_speed_mps.max(drive.speeds.max_speed_mps());
     v * v / (2.0 * drive.limits.max_side_accel_mps2.max(1e-9)) + 1.0
 }
 
@@ -414,7 +429,7 @@ pub fn roll_out_with_resumes(drive: &RouteDrive, max_steps: u64) -> (Trace, Vec<
     let mut next_leg = 0;
     let outcome = simulate(
         drive,
-        &drive.speeds_mps,
+        drive.speeds.view(),
         Resume::start(drive),
         max_steps,
         |r| {
@@ -434,18 +449,18 @@ pub fn roll_out_with_resumes(drive: &RouteDrive, max_steps: u64) -> (Trace, Vec<
     (Trace { steps, outcome }, resumes)
 }
 
-/// Whether leg `leg` passes the simulation rules of the verdict when driven at the leg speeds
-/// `speeds_mps`, resumed from `from` (docs/method.md, Verdicts: margins): the vehicle gets past
-/// the leg's end without its deviation ever leaving the leg's corridor, without stalling, and
+/// Whether leg `leg` passes the simulation rules of the verdict when driven with the speed plan
+/// `speeds`, resumed from `from` (docs/method.md, Verdicts: margins): the vehicle gets past the
+/// leg's end without its deviation ever leaving the corridor where it is, without stalling, and
 /// within the time bound and `max_steps`. Stops at the first step that decides it. Returns the
 /// answer and the steps simulated.
-pub fn leg_passes(drive: &RouteDrive, speeds_mps: &[f64], from: &Resume, leg: usize, max_steps: u64) -> (bool, u64) {
-    let corridor_m = drive.legs[leg].corridor_m;
+pub fn leg_passes(drive: &RouteDrive, speeds: SpeedView, from: &Resume, leg: usize, max_steps: u64) -> (bool, u64) {
     let mut passed = false;
     let mut simulated = 0u64;
+    let mut cursor = Cursor::default();
     let outcome = simulate(
         drive,
-        speeds_mps,
+        speeds,
         *from,
         max_steps,
         |_| {},
@@ -455,7 +470,10 @@ pub fn leg_passes(drive: &RouteDrive, speeds_mps: &[f64], from: &Resume, leg: us
                 passed = true;
                 return Flow::Stop;
             }
-            if s.leg == leg && (s.deviation_m > corridor_m || s.limit == StepLimit::Stall) {
+            if s.leg == leg
+                && (s.deviation_m > speeds.corridor_at(&drive.plan, s.progress_m, &mut cursor)
+                    || s.limit == StepLimit::Stall)
+            {
                 return Flow::Stop;
             }
             Flow::Continue
@@ -474,6 +492,7 @@ mod tests {
 
     fn drive_on(points: Vec<[f64; 2]>, actual: Model, speed_mps: f64, limits: FollowerLimits) -> RouteDrive {
         let plan = PlanPath::from_parts(points, &[0], None);
+        let speeds = SpeedPlan::per_leg(&plan, &[speed_mps], &[0.5], &limits);
         RouteDrive {
             plan,
             legs: vec![LegDrive {
@@ -484,7 +503,7 @@ mod tests {
                 corridor_m: 0.5,
                 ground: Ground { rolling_resistance: 0.05, traction_coefficient: 0.6, lateral_resistance_max: 0.5 },
             }],
-            speeds_mps: vec![speed_mps],
+            speeds,
             limits,
             curvature_scale_m: 0.5,
             vehicle: EffortVehicle::from_profile(&crate::vehicle::Profile::demo()),
@@ -651,6 +670,39 @@ mod tests {
     }
 
     #[test]
+    fn a_turn_across_a_side_slope_is_held_to_the_traction_of_each_side() {
+        // Deep snow on a 20 % cross slope (left side higher), centre of gravity 0.55 m up: the
+        // downhill side carries more load. A right-angle right turn puts the light, uphill side
+        // outside, so traction allows a wider radius than for a left turn (the closed form is
+        // derived in turn_limit's tests); the simulation must turn no tighter than that.
+        let ground = Ground { rolling_resistance: 0.15, traction_coefficient: 0.25, lateral_resistance_max: 0.3 };
+        let pts = vec![[0.0, 0.0], [30.0, 0.0], [30.0, -30.0]];
+        let mut d = traction_drive(pts, Some(vec![0.0; 3]), ground, 0.8);
+        d.plan = d.plan.clone().with_cross_slope(Some(vec![0.2; 3]));
+        d.vehicle.cog_height_m = Some(0.55);
+        let slope = Slope::new(0.0, 0.2);
+        let k_right = crate::turn_limit::traction_curvature_limit_toward(&d.vehicle, &ground, 0.8, slope, -1.0);
+        let k_left = crate::turn_limit::traction_curvature_limit_toward(&d.vehicle, &ground, 0.8, slope, 1.0);
+        assert!(k_right < 0.5 * k_left, "{k_right} vs {k_left}");
+        let tr = roll_out(&d);
+        assert_eq!(tr.outcome, Outcome::Reached);
+        let mut tightest = 0.0_f64;
+        for s in &tr.steps {
+            if s.twist.vx_mps > 1e-6 && s.twist.omega_radps < 0.0 {
+                let k = -s.twist.omega_radps / s.twist.vx_mps;
+                assert!(k <= k_right * (1.0 + 1e-9), "{k} > {k_right} at {} m", s.progress_m);
+                tightest = tightest.max(k);
+            }
+        }
+        assert_relative_eq!(tightest, k_right, max_relative = 1e-6);
+        // Each side's rolling resistance on its own load: the right (downhill) side pushes more
+        // on the straight lead-in.
+        let lead = tr.steps.iter().find(|s| s.progress_m > 10.0).expect("lead-in");
+        assert!(lead.effort.right_thrust_n > lead.effort.left_thrust_n, "{:?}", lead.effort);
+        assert_eq!(lead.effort.cross_slope, 0.2);
+    }
+
+    #[test]
     fn a_climb_the_ground_cannot_hold_stalls_the_vehicle() {
         // 30 % climb on deep snow: f_r + tan g = 0.45 > mu = 0.25 (Wong 2008, grade resistance).
         let ground = Ground { rolling_resistance: 0.15, traction_coefficient: 0.25, lateral_resistance_max: 0.3 };
@@ -700,7 +752,7 @@ mod tests {
         slush.terrain = "slush".into();
         slush.actual = es(0.75);
         d.legs.push(slush);
-        d.speeds_mps.push(1.2);
+        d.speeds = SpeedPlan::per_leg(&d.plan, &[1.2, 1.2], &[0.5, 0.5], &d.limits);
         let tr = roll_out(&d);
         let near: Vec<&Step> = tr.steps.iter().filter(|s| (s.progress_m - 30.0).abs() < 3.0).collect();
         let worst = near.iter().map(|s| s.accel_mps2).fold(0.0, f64::min);
@@ -729,6 +781,67 @@ mod tests {
         let free = roll_out(&off);
         let m = free.steps.len();
         assert_relative_eq!(free.steps[m / 2].twist.vx_mps, 1.5, max_relative = 0.01);
+    }
+
+    #[test]
+    fn a_planner_speed_profile_is_driven_and_a_slow_stretch_reached_at_its_speed() {
+        // A planner CSV with a speed on every row (every 0.5 m): a ramp from 0.3 to 1.5 m/s over
+        // 60 m, 1.5 m/s to 99.5 m, 0.4 m/s from 100 m to 129.5 m, then 1.0 m/s. Between rows the
+        // plan is linear in distance. Ideal kinematics, so the forward speed is the commanded one.
+        let row_speed = |x: f64| match x {
+            x if x <= 60.0 => 0.3 + 1.2 * x / 60.0,
+            x if x < 100.0 => 1.5,
+            x if x < 130.0 => 0.4,
+            _ => 1.0,
+        };
+        let mut text = String::from("x_m,y_m,terrain,speed_mps\n");
+        for i in 0..=300 {
+            let x = 0.5 * i as f64;
+            text.push_str(&format!("{x},0,asphalt,{}\n", row_speed(x)));
+        }
+        let path = std::path::Path::new("ramp.csv");
+        let routes = crate::route::parse_route_text(
+            path,
+            &text,
+            crate::route::RouteFormat::Csv,
+            &crate::limits::Limits::default(),
+        )
+        .expect("reads");
+        assert_eq!(routes[0].legs.len(), 1);
+        let mut profile = crate::vehicle::Profile::demo();
+        profile.terrain.get_mut("asphalt").expect("asphalt").model = Model::ideal(0.9);
+        let d = RouteDrive::new(&routes[0], &profile);
+        let a = profile.vehicle.max_side_accel_mps2;
+        let dv = a * d.limits.dt_s;
+        // The profile as planned: linear between the rows around s.
+        let planned = |s: f64| {
+            let x0 = (s / 0.5).floor() * 0.5;
+            row_speed(x0) + (row_speed(x0 + 0.5) - row_speed(x0)) * (s - x0) / 0.5
+        };
+        // Braking from 1.5 to 0.4 m/s at a takes (1.5^2 - 0.4^2) / (2 a) = 1.045 m (constant
+        // deceleration); the drop itself is planned over the last 0.5 m before 100 m.
+        let braking_m = (1.5_f64 * 1.5 - 0.4 * 0.4) / (2.0 * a);
+        assert_relative_eq!(braking_m, 1.045, epsilon = 1e-12);
+        let tr = roll_out(&d);
+        assert_eq!(tr.outcome, Outcome::Reached);
+        let mut on_ramp = 0;
+        for s in &tr.steps {
+            let v = s.twist.vx_mps;
+            if (2.0..=100.0 - 0.5 - braking_m - 0.1).contains(&s.progress_m) {
+                // On the ramp and the fast stretch the speed is the profile's, within one
+                // control step's change at the acceleration limit.
+                assert!((v - planned(s.progress_m)).abs() <= dv + 1e-9, "{v} at {} m", s.progress_m);
+                on_ramp += 1;
+            }
+            if (100.0..=129.0).contains(&s.progress_m) {
+                // The slow stretch is reached at its speed (not later, not slower).
+                assert!((v - 0.4).abs() <= dv + 1e-9, "{v} at {} m", s.progress_m);
+            }
+        }
+        assert!(on_ramp > 500, "{on_ramp} steps checked");
+        // The speed rises with the ramp: 0.3 m/s near the start, 0.9 m/s at 30 m.
+        let at = |x: f64| tr.steps.iter().find(|s| s.progress_m >= x).map_or(0.0, |s| s.twist.vx_mps);
+        assert_relative_eq!(at(30.0), 0.9, epsilon = dv);
     }
 
     #[test]

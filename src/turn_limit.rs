@@ -5,17 +5,24 @@
 //!
 //! Traction limit, quasi-static (Wong, "Theory of Ground Vehicles", 4th ed. 2008, ch. 7, steering
 //! of tracked vehicles): a steady turn on a slope loads each side with rolling resistance
-//! f_r N / 2 (N = W cos(grade), the normal load), the weight component W sin(grade) / 2 and the
-//! turning-resistance term M_r / B, pushing the outer side forward and the inner side back. Each
-//! side's thrust, driving or braking, must stay within traction mu N / 2 and the drive's rating,
-//! and the drawn power within the power rating. Yaw inertia and centrifugal load transfer are
-//! neglected (low speeds), so the thrust part of the limit does not depend on speed; the power
-//! part does. Units: metres, seconds, newtons, watts; curvature 1/m.
+//! f_r N_side (N_side its own normal load: N / 2 each without a cross slope, more on the downhill
+//! side of a cross slope), the weight component W sin(grade) / 2 and the turning-resistance term
+//! M_r / B, pushing the outer side forward and the inner side back. Each side's thrust, driving
+//! or braking, must stay within traction mu N_side and the drive's rating, and the drawn power
+//! within the power rating. On a cross slope the limit depends on the direction of the turn
+//! (which side is outer). Yaw inertia and centrifugal load transfer are neglected (low speeds), so
+//! the thrust part of the limit does not depend on speed; the power part does.
+//!
+//! Sideways, the ground must hold the weight's component across the slope: the vehicle slides
+//! sideways when c cos(grade) (tan(phi) on a pure side slope of angle phi) exceeds the lateral
+//! grip, taken as the traction coefficient mu (Wong 2008, vehicle on a side slope: it slides
+//! when tan(phi) > mu), and tips when it exceeds B / (2 h) (the static stability factor, common
+//! practice). Units: metres, seconds, newtons, watts; curvature 1/m.
 
 use serde::Serialize;
 
 use crate::effort::{
-    drawn_power_w, side_thrust_limit_on_n, twist_curvature, EffortVehicle, Ground, SideForces, Slope,
+    drawn_power_w, side_thrust_limits_n, twist_curvature, EffortVehicle, Ground, SideForces, Slope,
     STANDARD_GRAVITY_MPS2,
 };
 use crate::follow::{saturate_sides, FollowerLimits};
@@ -88,20 +95,29 @@ pub fn achievable(
 }
 
 /// Largest turning term M_r / B, N, that keeps both sides within their thrust limit on `slope`
+/// in a turn of sign `turn` (+1 left, -1 right; the outer side is the right one in a left turn)
 /// with the outer side moving in direction `outer_dir` and the inner side in `inner_dir` (+1
 /// forward, -1 back, 0 at rest); `None` when even going straight (M_r = 0) needs more thrust than
-/// a side can give: the vehicle cannot hold its way on that slope. Acceleration is left out (the
-/// steady turn).
+/// a side can give: the vehicle cannot hold its way on that slope. Each side's limit and rolling
+/// resistance follow its own normal load. Acceleration is left out (the steady turn).
 #[inline]
-fn turning_budget_n(veh: &EffortVehicle, ground: &Ground, slope: Slope, outer_dir: f64, inner_dir: f64) -> Option<f64> {
-    let limit = side_thrust_limit_on_n(veh, ground, slope);
+fn turning_budget_n(
+    veh: &EffortVehicle,
+    ground: &Ground,
+    slope: Slope,
+    turn: f64,
+    outer_dir: f64,
+    inner_dir: f64,
+) -> Option<f64> {
+    let (limit_left, limit_right) = side_thrust_limits_n(veh, ground, slope);
     let f = SideForces::new(veh, ground, 0.0, 0.0, slope);
-    // Outer thrust b_o + D and inner b_i - D must both lie within +-limit, D >= 0.
-    let (b_o, b_i) = (f.outer_n(outer_dir), f.inner_n(inner_dir));
-    if b_o.abs() > limit || b_i.abs() > limit {
+    let (b_o, b_i) = f.outer_inner_n(turn, outer_dir, inner_dir);
+    let (limit_o, limit_i) = if turn >= 0.0 { (limit_right, limit_left) } else { (limit_left, limit_right) };
+    // Outer thrust b_o + D and inner b_i - D must both lie within their limits, D >= 0.
+    if b_o.abs() > limit_o || b_i.abs() > limit_i {
         return None;
     }
-    Some((limit - b_o).min(limit + b_i))
+    Some((limit_o - b_o).min(limit_i + b_i))
 }
 
 /// Curvature whose turning term M_r / B equals `budget_n` (the inverse of Wong's lateral
@@ -123,25 +139,44 @@ fn curvature_for_turning_term(veh: &EffortVehicle, ground: &Ground, slope: Slope
     0.15 * mu_t / (b * (mu_max - 0.925 * mu_t))
 }
 
-/// Drawn power of a steady turn of curvature `k` at `speed_mps` driven forward, side speeds from
-/// the turn's geometry v (1 +- B k / 2).
-fn steady_turn_power_w(veh: &EffortVehicle, ground: &Ground, speed_mps: f64, k: f64, slope: Slope) -> f64 {
+/// Drawn power of a steady turn of curvature `k` (>= 0) and sign `turn` at `speed_mps` driven
+/// forward, side speeds from the turn's geometry v (1 +- B k / 2).
+fn steady_turn_power_w(veh: &EffortVehicle, ground: &Ground, speed_mps: f64, k: f64, slope: Slope, turn: f64) -> f64 {
     let f = SideForces::new(veh, ground, k, 0.0, slope);
     let half = 0.5 * veh.track_width_m * k;
     let (v_o, v_i) = (speed_mps * (1.0 + half), speed_mps * (1.0 - half));
-    drawn_power_w(veh, f.inner_n(1.0) * v_i, f.outer_n(1.0) * v_o)
+    let (f_o, f_i) = f.outer_inner_n(turn, 1.0, 1.0);
+    drawn_power_w(veh, f_i * v_i, f_o * v_o)
 }
 
 /// The traction/thrust/power limit on curvature at `speed_mps` on `slope` (docs/method.md,
-/// Achievable curvature): the largest curvature up to a pivot turn (2 / B) whose steady turn
-/// keeps both sides' thrust within traction and the rating, and the drawn power within the
-/// rating. The thrust part is in closed form; where power binds the curvature is found by
-/// bisection (drawn power grows with curvature). 0 when the vehicle cannot even drive straight
-/// at this speed on this slope.
+/// Achievable curvature) for the weaker of a left and a right turn (they differ on a cross
+/// slope): see [`traction_curvature_limit_toward`].
 pub fn traction_curvature_limit(veh: &EffortVehicle, ground: &Ground, speed_mps: f64, slope: Slope) -> f64 {
-    let Some(budget_n) = turning_budget_n(veh, ground, slope, 1.0, 1.0) else { return 0.0 };
+    let left = traction_curvature_limit_toward(veh, ground, speed_mps, slope, 1.0);
+    if slope.cross_slope == 0.0 {
+        return left;
+    }
+    left.min(traction_curvature_limit_toward(veh, ground, speed_mps, slope, -1.0))
+}
+
+/// The traction/thrust/power limit on curvature at `speed_mps` on `slope` for a turn of sign
+/// `turn` (+1 left, -1 right): the largest curvature up to a pivot turn (2 / B) whose steady
+/// turn keeps both sides' thrust within traction on their own normal loads and the rating, and
+/// the drawn power within the rating. The thrust part is in closed form; where power binds the
+/// curvature is found by bisection (drawn power grows with curvature). 0 when the vehicle cannot
+/// even drive straight at this speed on this slope.
+pub fn traction_curvature_limit_toward(
+    veh: &EffortVehicle,
+    ground: &Ground,
+    speed_mps: f64,
+    slope: Slope,
+    turn: f64,
+) -> f64 {
+    let turn = if turn < 0.0 { -1.0 } else { 1.0 };
+    let Some(budget_n) = turning_budget_n(veh, ground, slope, turn, 1.0, 1.0) else { return 0.0 };
     let k_thrust = curvature_for_turning_term(veh, ground, slope, budget_n);
-    let power_ok = |k: f64| steady_turn_power_w(veh, ground, speed_mps, k, slope) <= veh.max_power_w;
+    let power_ok = |k: f64| steady_turn_power_w(veh, ground, speed_mps, k, slope, turn) <= veh.max_power_w;
     if power_ok(k_thrust) {
         return k_thrust;
     }
@@ -160,17 +195,48 @@ pub fn traction_curvature_limit(veh: &EffortVehicle, ground: &Ground, speed_mps:
     lo
 }
 
-/// The smallest traction coefficient with which a steady turn of curvature `curvature_per_m` on
-/// `slope` stays within traction (Wong 2008, the steerability condition with the grade term):
-/// |f_r + tan(grade)| + mu_t(R) l / (2 B) for tracks, with l / B for wheels. Thrust and power
-/// ratings are separate limits; acceleration is left out.
+/// The smallest traction coefficient with which a steady turn of signed curvature
+/// `curvature_per_m` (positive left) on `slope` stays within traction: each side's thrust over
+/// its own normal load, |F_side| / N_side, and the weight across the slope over the normal load,
+/// |c| cos(grade), which the lateral grip (mu) must hold. Without a cross slope this is the
+/// steerability condition of Wong 2008 with the grade term, |f_r + tan(grade)| + mu_t(R) l / (2 B)
+/// for tracks (l / B for wheels). A side without load (past the tipping point) is left to the
+/// tipping rule. Thrust and power ratings are separate limits; acceleration is left out.
 pub fn traction_coefficient_needed(veh: &EffortVehicle, ground: &Ground, curvature_per_m: f64, slope: Slope) -> f64 {
-    let mu_t = crate::effort::lateral_resistance(ground.lateral_resistance_max, curvature_per_m, veh.track_width_m);
-    let gear = match veh.running_gear {
-        RunningGear::Tracks => 2.0,
-        RunningGear::Wheels => 1.0,
-    };
-    (ground.rolling_resistance + slope.grade_rad.tan()).abs() + mu_t * veh.contact_length_m / (gear * veh.track_width_m)
+    let f = SideForces::new(veh, ground, curvature_per_m, 0.0, slope);
+    let (f_o, f_i) = f.outer_inner_n(if curvature_per_m < 0.0 { -1.0 } else { 1.0 }, 1.0, 1.0);
+    let (n_left, n_right) = veh.side_loads_n(slope);
+    let (n_o, n_i) = if curvature_per_m < 0.0 { (n_left, n_right) } else { (n_right, n_left) };
+    let ratio = |thrust: f64, load: f64| if load > 0.0 { thrust.abs() / load } else { 0.0 };
+    ratio(f_o, n_o).max(ratio(f_i, n_i)).max(slope.side_ratio().abs())
+}
+
+/// Share of a limit above which a cross slope earns a caution (as for turns, 80 %).
+pub const CROSS_SLOPE_CAUTION_SHARE: f64 = 0.8;
+
+/// What limits how steep a cross slope the vehicle can stand on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum SideLimit {
+    /// The ground's lateral grip (the traction coefficient): beyond it the vehicle slides
+    /// sideways.
+    Grip,
+    /// The static stability factor B / (2 h): beyond it the uphill side lifts and the vehicle
+    /// tips over.
+    Tipping,
+}
+
+/// The steepest cross slope ratio (weight across the slope over normal load, c cos(grade);
+/// tan(phi) on a pure side slope) the vehicle can stand on, and what sets it: the lateral grip
+/// mu (sliding sideways when tan(phi) > mu, Wong 2008, vehicle on a side slope) or the static
+/// stability factor B / (2 h) (tipping, common practice for rollover screening; only with a
+/// centre-of-gravity height), whichever is smaller.
+pub fn cross_slope_limit(veh: &EffortVehicle, ground: &Ground) -> (f64, SideLimit) {
+    let grip = ground.traction_coefficient;
+    match veh.tipping_ratio() {
+        Some(tip) if tip < grip => (tip, SideLimit::Tipping),
+        _ => (grip, SideLimit::Grip),
+    }
 }
 
 /// The steerability condition of Wong 2008 in closed form for a steady turn on `slope`:
@@ -212,11 +278,12 @@ pub fn lateral_accel_caution_mps2(ground: &Ground) -> f64 {
 /// thrust alone forbids the turn (slowing down would not help; the simulation widens it).
 pub fn turn_speed_limit_mps(veh: &EffortVehicle, ground: &Ground, curvature_per_m: f64, slope: Slope) -> f64 {
     let k = curvature_per_m.abs().min(2.0 / veh.track_width_m);
-    let Some(budget_n) = turning_budget_n(veh, ground, slope, 1.0, 1.0) else { return f64::INFINITY };
+    let turn = if curvature_per_m < 0.0 { -1.0 } else { 1.0 };
+    let Some(budget_n) = turning_budget_n(veh, ground, slope, turn, 1.0, 1.0) else { return f64::INFINITY };
     if SideForces::new(veh, ground, k, 0.0, slope).turning_n > budget_n {
         return f64::INFINITY;
     }
-    let per_mps = steady_turn_power_w(veh, ground, 1.0, k, slope);
+    let per_mps = steady_turn_power_w(veh, ground, 1.0, k, slope, turn);
     if per_mps <= 0.0 {
         f64::INFINITY
     } else {
@@ -238,6 +305,9 @@ pub enum StepLimit {
     Stall,
     /// Downhill: holding back needs more braking than a side can give; the vehicle slides.
     Slide,
+    /// Across a slope steeper than the lateral grip or the tipping limit: the vehicle would slide
+    /// sideways (or tip); the simulation marks the step and does not predict the slide.
+    Sideways,
 }
 
 impl StepLimit {
@@ -259,7 +329,13 @@ impl StepLimit {
 ///   power, the side speeds and the twist are scaled down together (the drive slows);
 /// - uphill, when even holding still needs more thrust than traction gives: [`StepLimit::Stall`]
 ///   (the caller stops the vehicle); downhill, when holding back needs more braking than traction
-///   gives: [`StepLimit::Slide`], the vehicle loses its steering and runs straight on.
+///   gives: [`StepLimit::Slide`], the vehicle loses its steering and runs straight on;
+/// - across a slope beyond the lateral grip or the tipping limit ([`cross_slope_limit`]):
+///   [`StepLimit::Sideways`]; the motion is left as it is (the slide is not predicted; the
+///   verdict fails the leg on the plan's cross slope).
+///
+/// Each side's traction is taken on its own normal load, so on a cross slope a turn is limited by
+/// the lighter, uphill side's traction too, and differently for left and right turns.
 ///
 /// Acceleration is left out of the limit, as in the verdict's steady turns: the drive changes
 /// speed more gently instead (a speed-change caution in the report).
@@ -271,10 +347,14 @@ pub fn limit_step(
     left_mps: &mut f64,
     right_mps: &mut f64,
 ) -> StepLimit {
+    if slope.cross_slope != 0.0 && slope.side_ratio().abs() > cross_slope_limit(veh, ground).0 {
+        return StepLimit::Sideways;
+    }
     let (dl, dr) = (crate::effort::motion_direction(*left_mps), crate::effort::motion_direction(*right_mps));
     // Turning left, the right side is outer.
-    let (outer_dir, inner_dir) = if twist.omega_radps >= 0.0 { (dr, dl) } else { (dl, dr) };
-    let Some(budget_n) = turning_budget_n(veh, ground, slope, outer_dir, inner_dir) else {
+    let turn = if twist.omega_radps >= 0.0 { 1.0 } else { -1.0 };
+    let (outer_dir, inner_dir) = if turn > 0.0 { (dr, dl) } else { (dl, dr) };
+    let Some(budget_n) = turning_budget_n(veh, ground, slope, turn, outer_dir, inner_dir) else {
         if SideForces::new(veh, ground, 0.0, 0.0, slope).grade_n > 0.0 {
             return StepLimit::Stall;
         }
@@ -473,7 +553,7 @@ mod tests {
         let slow = traction_curvature_limit(&veh, &ground, 0.5, Slope::LEVEL);
         let fast = traction_curvature_limit(&veh, &ground, 1.5, Slope::LEVEL);
         assert!(fast < slow, "{fast} vs {slow}");
-        assert!(steady_turn_power_w(&veh, &ground, 1.5, fast, Slope::LEVEL) <= 20_000.0 + 1e-6);
+        assert!(steady_turn_power_w(&veh, &ground, 1.5, fast, Slope::LEVEL, 1.0) <= 20_000.0 + 1e-6);
         // Straight up a climb too steep for the power at this speed: the drive slows.
         let mut twist = Twist { vx_mps: 3.0, vy_mps: 0.0, omega_radps: 0.0 };
         let (mut l, mut r) = (3.0, 3.0);
@@ -491,11 +571,118 @@ mod tests {
         veh.max_power_w = 20_000.0;
         let k = 0.4;
         let v = turn_speed_limit_mps(&veh, &ground, k, Slope::LEVEL);
-        assert_relative_eq!(steady_turn_power_w(&veh, &ground, v, k, Slope::LEVEL), 20_000.0, max_relative = 1e-12);
+        assert_relative_eq!(
+            steady_turn_power_w(&veh, &ground, v, k, Slope::LEVEL, 1.0),
+            20_000.0,
+            max_relative = 1e-12
+        );
         assert_relative_eq!(traction_curvature_limit(&veh, &ground, v, Slope::LEVEL), k, max_relative = 1e-6);
         // Thrust-bound turns are not helped by slowing down.
         ground.traction_coefficient = 0.3;
         assert_eq!(turn_speed_limit_mps(&veh, &ground, 1.0, Slope::LEVEL), f64::INFINITY);
+    }
+
+    /// The demo carrier with its centre of gravity 0.55 m up, thrust rating and power out of
+    /// the way, and packed snow (f_r 0.06, mu 0.3, mu_max 0.35).
+    fn carrier_on_snow() -> (EffortVehicle, Ground) {
+        let (mut veh, _) = demo();
+        veh.cog_height_m = Some(0.55);
+        veh.max_side_thrust_n = 1e9;
+        veh.max_power_w = 1e12;
+        (veh, Ground { rolling_resistance: 0.06, traction_coefficient: 0.3, lateral_resistance_max: 0.35 })
+    }
+
+    #[test]
+    fn on_a_side_slope_a_turn_with_the_light_side_outside_is_wider() {
+        // Deep snow (f_r 0.15, mu 0.25, mu_max 0.3) on a 20 % cross slope, left side higher,
+        // h = 0.55 m, B = 0.9 m, l = 1.1 m. Loads (moments about the long axis):
+        // N_l,r = N / 2 -+ N 0.2 h / B, N = W / sqrt(1.04). Steady turn (Wong 2008): the outer
+        // side needs f_r N_o + M_r / B <= mu N_o and the inner side brakes
+        // f_r N_i - M_r / B >= -mu N_i, so M_r / B <= min((mu - f_r) N_o, (mu + f_r) N_i), with
+        // M_r = mu_t N l / 4 and R = (B / 0.15) (mu_max / mu_t - 0.925). A left turn has the
+        // heavy right side outside; a right turn the light left side.
+        let (mut veh, ground) = demo();
+        veh.cog_height_m = Some(0.55);
+        veh.max_side_thrust_n = 1e9;
+        veh.max_power_w = 1e12;
+        let n = veh.weight_n() / 1.04_f64.sqrt();
+        let shift = n * 0.2 * 0.55 / 0.9;
+        let (n_l, n_r) = (n / 2.0 - shift, n / 2.0 + shift);
+        let radius = |n_o: f64, n_i: f64| {
+            let budget = ((0.25 - 0.15) * n_o).min((0.25 + 0.15) * n_i);
+            let mu_t = budget * 4.0 * 0.9 / (n * 1.1);
+            (0.9 / 0.15) * (0.3 / mu_t - 0.925)
+        };
+        let (r_left, r_right) = (radius(n_r, n_l), radius(n_l, n_r));
+        let slope = Slope::new(0.0, 0.2);
+        assert_relative_eq!(
+            1.0 / traction_curvature_limit_toward(&veh, &ground, 0.8, slope, 1.0),
+            r_left,
+            max_relative = 1e-9
+        );
+        assert_relative_eq!(
+            1.0 / traction_curvature_limit_toward(&veh, &ground, 0.8, slope, -1.0),
+            r_right,
+            max_relative = 1e-9
+        );
+        assert!(r_right > r_left, "{r_right} vs {r_left}");
+        // The direction-blind limit is the weaker one; on level ground both are the same.
+        assert_relative_eq!(1.0 / traction_curvature_limit(&veh, &ground, 0.8, slope), r_right, max_relative = 1e-9);
+        let level = traction_curvature_limit_toward(&veh, &ground, 0.8, Slope::LEVEL, 1.0);
+        assert_eq!(level, traction_curvature_limit_toward(&veh, &ground, 0.8, Slope::LEVEL, -1.0));
+        // The simulation's limiter widens a right turn on that slope to the same radius.
+        let mut twist = Twist { vx_mps: 0.8, vy_mps: 0.0, omega_radps: -0.8 };
+        let (mut l, mut r) = (1.16, 0.44);
+        assert_eq!(limit_step(&veh, &ground, slope, &mut twist, &mut l, &mut r), StepLimit::Turn);
+        assert_relative_eq!(-twist.vx_mps / twist.omega_radps, r_right, max_relative = 1e-9);
+    }
+
+    #[test]
+    fn a_cross_slope_beyond_the_grip_or_the_tipping_limit_is_marked_sideways() {
+        // Wong 2008 (vehicle on a side slope): it slides sideways when tan(phi) > mu; packed snow
+        // mu = 0.3. Tipping at B / (2 h) = 0.9 / 1.1 = 0.818 (static stability factor, common
+        // practice) is the lower limit once mu exceeds it.
+        let (mut veh, mut ground) = carrier_on_snow();
+        assert_eq!(cross_slope_limit(&veh, &ground), (0.3, SideLimit::Grip));
+        let mut twist = Twist { vx_mps: 0.8, vy_mps: 0.0, omega_radps: 0.0 };
+        let (mut l, mut r) = (0.8, 0.8);
+        assert_eq!(limit_step(&veh, &ground, Slope::new(0.0, 0.31), &mut twist, &mut l, &mut r), StepLimit::Sideways);
+        assert_eq!(limit_step(&veh, &ground, Slope::new(0.0, -0.29), &mut twist, &mut l, &mut r), StepLimit::Free);
+        // On a 20 % grade the weight across the slope is c cos(g): 0.31 cos(atan 0.2) = 0.304,
+        // still beyond; 0.305 cos(atan 0.2) = 0.299 holds (without a load shift, so the climb
+        // itself, f_r + tan g = 0.26 < mu, stays within traction on both sides).
+        veh.cog_height_m = None;
+        let g = 0.2_f64.atan();
+        assert_eq!(limit_step(&veh, &ground, Slope::new(g, 0.31), &mut twist, &mut l, &mut r), StepLimit::Sideways);
+        assert_eq!(limit_step(&veh, &ground, Slope::new(g, 0.305), &mut twist, &mut l, &mut r), StepLimit::Free);
+        veh.cog_height_m = Some(0.55);
+        ground.traction_coefficient = 0.9;
+        let (tip, by) = cross_slope_limit(&veh, &ground);
+        assert_eq!(by, SideLimit::Tipping);
+        assert_relative_eq!(tip, 0.9 / 1.1, max_relative = 1e-15);
+        veh.cog_height_m = None;
+        assert_eq!(cross_slope_limit(&veh, &ground), (0.9, SideLimit::Grip));
+    }
+
+    #[test]
+    fn the_traction_needed_on_a_cross_slope_is_the_worst_side_or_the_sideways_hold() {
+        // Straight ahead: each side needs f_r N_side / (mu N_side) = f_r of traction, and holding
+        // the weight across the slope needs c cos(g): on a 25 % cross slope that is 0.25. On a
+        // 20 % climb across a 10 % cross slope the lighter (uphill) side needs
+        // (f_r N_l + W sin(g) / 2) / N_l (Wong 2008, grade resistance on each side's load).
+        let (veh, ground) = carrier_on_snow();
+        assert_relative_eq!(
+            traction_coefficient_needed(&veh, &ground, 0.0, Slope::new(0.0, 0.25)),
+            0.25,
+            max_relative = 1e-12
+        );
+        let g = 0.2_f64.atan();
+        let slope = Slope::new(g, 0.1);
+        let w = veh.weight_n();
+        let n = w / (1.0_f64 + 0.04 + 0.01).sqrt();
+        let n_l = n / 2.0 - n * 0.1 * g.cos() * 0.55 / 0.9;
+        let expected = (0.06 * n_l + w * g.sin() / 2.0) / n_l;
+        assert_relative_eq!(traction_coefficient_needed(&veh, &ground, 0.0, slope), expected, max_relative = 1e-12);
     }
 
     #[test]

@@ -475,7 +475,7 @@ fn a_profile_reports_every_error_at_once_each_with_its_line() {
     assert!(lines.iter().all(|l| l.starts_with("skidroute: error: ") && l.contains("p.toml: ")), "{e}");
     assert!(lines[0].contains("vehicle.mass_kg: must be a positive number, got -480 (line 12)"), "{e}");
     assert!(lines[1].contains("follower: missing required key lookahead_m"), "{e}");
-    assert!(lines[2].contains("follower.lookahed_m: unknown key (did you mean lookahead_m?) (line 24)"), "{e}");
+    assert!(lines[2].contains("follower.lookahed_m: unknown key (did you mean lookahead_m?) (line 25)"), "{e}");
     assert!(lines[3].contains("terrain.gravel.traction_coefficient: must be a number >= 0, got the string"), "{e}");
 }
 

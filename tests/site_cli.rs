@@ -379,3 +379,119 @@ fn relax_keeps_a_per_row_speed_profile() {
     // Relax only lowers speeds: none above the input's largest, 0.9 m/s.
     assert!(profile.iter().all(|&v| v > 0.0 && v <= 0.9 + 1e-9), "{profile:?}");
 }
+
+/// Five routes on the tilted plane of `dem_side_slope_utm33n.tif` (gen_side_slope.py: z rises
+/// 27 % to the north, level east-west), in its UTM easting and northing: three heading east
+/// along the contour on packed snow, deep snow and grass (higher ground on the left: cross slope
+/// +27 %, no grade), one climbing north on deep snow and one descending south on packed snow.
+fn side_slope_routes(dir: &Path) -> PathBuf {
+    let mut text = String::from("x_m,y_m,terrain,route\n");
+    for terrain in ["packed-snow", "deep-snow", "grass"] {
+        text.push_str(&format!("600010,7099940,{terrain},east-{terrain}\n600060,7099940,{terrain},east-{terrain}\n"));
+    }
+    text.push_str("600030,7099890,deep-snow,north\n600030,7099990,deep-snow,north\n");
+    text.push_str("600090,7099990,packed-snow,south\n600090,7099890,packed-snow,south\n");
+    let p = dir.join("slopes.csv");
+    std::fs::write(&p, text).expect("write");
+    p
+}
+
+#[test]
+fn a_tilted_plane_raster_gives_the_cross_slope_and_grade_their_verdicts() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let route = side_slope_routes(dir.path());
+    let dem = fx("dem_side_slope_utm33n.tif");
+    let args = ["check", s(&route), "--elevation", &dem, "--map-frame", "local", "--json"];
+    let (code, out, err) = go(&args);
+    assert_eq!(code, Some(1), "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).expect("json");
+    let routes = v["routes"].as_array().expect("routes");
+    let by_name = |name: &str| routes.iter().find(|r| r["route"] == name).unwrap_or_else(|| panic!("{name}"));
+    let leg = |name: &str| &by_name(name)["legs"][0];
+    let reasons = |name: &str| -> Vec<String> {
+        leg(name)["reasons"].as_array().expect("reasons").iter().filter_map(|r| r.as_str().map(String::from)).collect()
+    };
+    // The plane z = 100 + 0.27 (N - N0) (gen_side_slope.py): heading east the left normal points
+    // north, so the cross slope is +0.27 and the grade 0; heading north the grade is 0.27 and the
+    // cross slope 0.
+    for terrain in ["packed-snow", "deep-snow", "grass"] {
+        let l = leg(&format!("east-{terrain}"));
+        assert!((l["max_cross_slope_pct"].as_f64().expect("pct") - 27.0).abs() < 1e-6, "{l}");
+        assert!(l["max_uphill_grade_pct"].as_f64().expect("grade").abs() < 1e-6, "{l}");
+    }
+    assert!(leg("north")["max_cross_slope_pct"].as_f64().expect("pct").abs() < 1e-6);
+    assert!((leg("north")["max_uphill_grade_pct"].as_f64().expect("grade") - 27.0).abs() < 1e-6);
+    assert!((leg("south")["max_downhill_grade_pct"].as_f64().expect("grade") - 27.0).abs() < 1e-6);
+    // Thresholds from the terrains' traction coefficients (the lateral grip; Wong 2008, a
+    // vehicle on a side slope slides when tan(phi) > mu): packed snow holds up to 30 %, so 27 %
+    // is 90 % of it, above the 80 % caution share; deep snow (25 %) fails; grass (55 %) passes.
+    let mu = |t: &str| skidroute::vehicle::Profile::demo().terrain[t].traction_coefficient;
+    let packed = format!(
+        "cross slope 27 % at 0 m along the route uses {:.0} % of the {:.0} % packed-snow holds before the vehicle \
+         slides sideways",
+        100.0 * 0.27 / mu("packed-snow"),
+        100.0 * mu("packed-snow")
+    );
+    assert_eq!(leg("east-packed-snow")["verdict"], "caution", "{:?}", reasons("east-packed-snow"));
+    assert!(reasons("east-packed-snow").contains(&packed), "{packed} not in {:?}", reasons("east-packed-snow"));
+    assert_eq!(leg("east-deep-snow")["verdict"], "fail");
+    let deep = format!(
+        "cross slope 27 % at 0 m along the route: the vehicle slides sideways; deep-snow holds up to {:.0} %",
+        100.0 * mu("deep-snow")
+    );
+    assert!(reasons("east-deep-snow").iter().any(|r| r.starts_with(&deep)), "{deep}: {:?}", reasons("east-deep-snow"));
+    assert!(reasons("east-grass").iter().all(|r| !r.contains("cross slope")), "{:?}", reasons("east-grass"));
+    // The grade from the raster: deep snow cannot take the 27 % climb. Per side f_r N / 2 +
+    // W sin(g) / 2 against mu N / 2, N = W cos(g) (Wong 2008, grade resistance), W = 480 kg x g.
+    let w = 480.0 * 9.80665;
+    let (sin, cos) = (0.27 / 1.0729_f64.sqrt(), 1.0 / 1.0729_f64.sqrt());
+    let need = 0.15 * w * cos / 2.0 + w * sin / 2.0;
+    let climb = format!(
+        "cannot climb: the 27 % grade (0 m along the route) with rolling resistance needs {need:.0} N per side"
+    );
+    assert!(reasons("north").iter().any(|r| r.starts_with(&climb)), "{climb}: {:?}", reasons("north"));
+    // Going down it on packed snow needs |f_r - tan g| = 0.21 of traction.
+    assert!((leg("south")["traction_coefficient_needed"].as_f64().expect("mu") - 0.21).abs() < 1e-9);
+    // The table has the column.
+    let (_, table, _) = go(&["check", s(&route), "--elevation", &dem, "--map-frame", "local"]);
+    assert!(table.contains("slope %"), "{table}");
+    // Without the raster no leg has a cross slope, and the column is left out.
+    let (_, flat, _) = go(&["check", s(&route), "--map-frame", "local"]);
+    assert!(flat.contains("verdict") && !flat.contains("slope %"), "{flat}");
+}
+
+#[test]
+fn the_hillside_example_reads_as_its_readme_says() {
+    // example-routes/gen_hillside.py: z = 430 + 25 exp(-r^2 / (2 x 55^2)) m; on the route's 60 m
+    // contour the slope across it is 25 r / 55^2 exp(-r^2 / (2 x 55^2)) (the derivative of the
+    // Gaussian), 27.35 %, up to the raster's 2 m pixels and bilinear interpolation.
+    let r: f64 = 60.0;
+    let expected_pct = 100.0 * 25.0 * r / 55.0_f64.powi(2) * (-r * r / (2.0 * 55.0 * 55.0)).exp();
+    assert!((expected_pct - 27.35).abs() < 0.01, "{expected_pct}");
+    let ex = |name: &str| Path::new(env!("CARGO_MANIFEST_DIR")).join("example-routes").join(name);
+    let (route, map, dem) = (ex("hillside-traverse.geojson"), ex("hillside-map.geojson"), ex("hillside-dem.tif"));
+    let (code, out, err) = go(&["check", s(&route), "--terrain-map", s(&map), "--elevation", s(&dem), "--json"]);
+    assert_eq!(code, Some(1), "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).expect("json");
+    let legs = v["routes"][0]["legs"].as_array().expect("legs");
+    let seen: Vec<(&str, &str)> =
+        legs.iter().map(|l| (l["terrain"].as_str().unwrap_or(""), l["verdict"].as_str().unwrap_or(""))).collect();
+    assert_eq!(
+        seen,
+        [
+            ("grass", "pass"),
+            ("packed-snow", "caution"),
+            ("deep-snow", "fail"),
+            ("packed-snow", "caution"),
+            ("grass", "pass")
+        ]
+    );
+    for l in legs {
+        let pct = l["max_cross_slope_pct"].as_f64().expect("cross slope");
+        assert!((pct - expected_pct).abs() < 0.2, "{pct} vs {expected_pct}");
+        assert!(l["max_uphill_grade_pct"].as_f64().expect("grade") < 0.5, "{l}");
+    }
+    // Without the raster the route is level and passes.
+    let (code, _, err) = go(&["check", s(&route), "--terrain-map", s(&map), "--quiet"]);
+    assert_eq!(code, Some(0), "{err}");
+}

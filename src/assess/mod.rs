@@ -1,21 +1,24 @@
 //! Per-leg assessment of a simulated route (docs/method.md, Plan curvature, Achievable curvature,
-//! Verdicts): every turn of the plan against what the vehicle can drive there at the leg's speed
-//! and the grade of the turn, climbs and descents against traction, the predicted deviation
-//! against the corridor, time and effort, the margins to failure, and a verdict with reasons in
-//! plain words.
+//! Verdicts): every turn of the plan against what the vehicle can drive there at the speed planned
+//! there and the slope of the turn, climbs, descents and cross slopes against traction and the
+//! tipping limit (`slopes.rs`), the predicted deviation against the corridor where it happens,
+//! time and effort, the margins to failure, and a verdict with reasons in plain words (every
+//! reason through one function, `add_at`, which also records what the reason is about and where).
 //!
 //! Units: metres, seconds, 1/m; deviations are distances to the plan near the progress point.
 
+mod slopes;
 mod turns;
 
 use serde::Serialize;
 
-use crate::effort::{side_thrust_limit_on_n, Slope, STANDARD_GRAVITY_MPS2};
+use crate::effort::{side_thrust_limits_n, Slope, STANDARD_GRAVITY_MPS2};
 use crate::rollout::{Outcome, RouteDrive, Step, Trace};
 use crate::route::Route;
 use crate::turn_limit::{lateral_accel_caution_mps2, StepLimit, LATERAL_ACCEL_CAUTION_SHARE};
 
 pub use crate::turn_limit::{kinematic_curvature_limit, Achievable, CurvatureLimit};
+pub use slopes::{slopes_pass, CrossNeed, SideNeed, SlopeFacts};
 pub use turns::{check_turns, FailingTurn, LegPlan, TurnCheck, TurnPoint};
 
 /// Step at which `relax` samples the plan's curvature around a corner (docs/method.md, Plan curvature).
@@ -80,6 +83,9 @@ pub struct LegReport {
     pub max_uphill_grade_pct: f64,
     /// Steepest downhill grade of the plan on this leg, percent, as a positive number.
     pub max_downhill_grade_pct: f64,
+    /// Steepest cross slope of the plan on this leg, percent (100 |tan|); `None` without cross
+    /// slopes (no elevation raster).
+    pub max_cross_slope_pct: Option<f64>,
     /// The terrain's traction coefficient (mu).
     pub traction_coefficient: f64,
     /// Smallest traction coefficient with which the leg's turns and climbs (and descents) stay
@@ -197,20 +203,42 @@ pub fn leg_steps(trace: &Trace, leg: usize) -> &[crate::rollout::Step] {
     &trace.steps[a..b.max(a)]
 }
 
-/// Deviation statistics of the steps on one leg: (max, rms, end, time) and where the maximum is.
-fn deviation_stats(trace: &Trace, leg: usize, dt_s: f64) -> ((f64, f64, f64, f64), Option<f64>) {
-    let (mut max, mut sum_sq, mut n, mut end) = (0.0_f64, 0.0, 0usize, 0.0);
-    let mut max_at_m = None;
+/// Deviation statistics of the steps on one leg.
+#[derive(Debug, Clone, Copy, Default)]
+struct Deviation {
+    max_m: f64,
+    rms_m: f64,
+    end_m: f64,
+    time_s: f64,
+    /// The step whose deviation is the largest share of the corridor where it is: that share,
+    /// the deviation, the corridor there and where.
+    worst_share: f64,
+    worst_m: f64,
+    worst_corridor_m: f64,
+    worst_at_m: f64,
+}
+
+/// Deviation statistics of the steps on leg `leg`, each deviation against the corridor at its
+/// progress point (the corridor profile, linear between the plan's points).
+fn deviation_stats(drive: &RouteDrive, trace: &Trace, leg: usize) -> Deviation {
+    let (mut d, mut sum_sq, mut n) = (Deviation::default(), 0.0, 0usize);
+    let speeds = drive.speeds.view();
+    let mut cursor = crate::route::Cursor::default();
     for s in leg_steps(trace, leg) {
-        if s.deviation_m > max {
-            (max, max_at_m) = (s.deviation_m, Some(s.progress_m));
-        }
+        d.max_m = d.max_m.max(s.deviation_m);
         sum_sq += s.deviation_m * s.deviation_m;
         n += 1;
-        end = s.deviation_m;
+        d.end_m = s.deviation_m;
+        let corridor_m = speeds.corridor_at(&drive.plan, s.progress_m, &mut cursor);
+        let share = s.deviation_m / corridor_m;
+        if share > d.worst_share {
+            (d.worst_share, d.worst_m, d.worst_corridor_m, d.worst_at_m) =
+                (share, s.deviation_m, corridor_m, s.progress_m);
+        }
     }
-    let rms = if n > 0 { (sum_sq / n as f64).sqrt() } else { 0.0 };
-    ((max, rms, end, n as f64 * dt_s), max_at_m)
+    d.rms_m = if n > 0 { (sum_sq / n as f64).sqrt() } else { 0.0 };
+    d.time_s = n as f64 * drive.limits.dt_s;
+    d
 }
 
 /// The speed-independent plan facts of every leg of a drive.
@@ -303,7 +331,8 @@ fn leg_effort(drive: &RouteDrive, steps: &[Step]) -> LegEffort {
             e.peak_thrust_n = thrust;
             e.peak_thrust_at_m = s.progress_m;
             let ground = drive.ground_at(s.progress_m);
-            e.peak_thrust_limit_n = side_thrust_limit_on_n(&drive.vehicle, &ground, Slope::grade(f.grade_rad));
+            let (left, right) = side_thrust_limits_n(&drive.vehicle, &ground, Slope::new(f.grade_rad, f.cross_slope));
+            e.peak_thrust_limit_n = if f.left_thrust_n.abs() >= f.right_thrust_n.abs() { left } else { right };
         }
         if f.drawn_power_w > e.peak_power_w {
             (e.peak_power_w, e.peak_power_at_m) = (f.drawn_power_w, s.progress_m);
@@ -350,7 +379,8 @@ pub(crate) fn assess_leg(
     let (start_m, end_m) = drive.plan.leg_bounds_m(i);
     let turns = check_turns(drive, i, plan, speed_mps);
     let achievable = turns.achievable;
-    let ((max_dev, rms_dev, end_dev, time_s), max_dev_at_m) = deviation_stats(trace, i, drive.limits.dt_s);
+    let dev = deviation_stats(drive, trace, i);
+    let (max_dev, rms_dev, end_dev, time_s) = (dev.max_m, dev.rms_m, dev.end_m, dev.time_s);
     let mut failing_turns = turns.failing.clone();
     if let Some(origin) = &route.origin {
         for t in &mut failing_turns {
@@ -384,6 +414,7 @@ pub(crate) fn assess_leg(
         mean_power_w: if time_s > 0.0 { effort.energy_j / time_s } else { 0.0 },
         max_uphill_grade_pct: 100.0 * plan.max_uphill_grade_rad.tan(),
         max_downhill_grade_pct: 100.0 * plan.max_downhill_grade_rad.tan(),
+        max_cross_slope_pct: route.legs.get(i).and_then(crate::site::max_cross_slope_pct),
         traction_coefficient: ld.ground.traction_coefficient,
         traction_coefficient_needed: plan.traction_needed,
         max_passing_speed_mps: None,
@@ -396,20 +427,15 @@ pub(crate) fn assess_leg(
         reason_spots: Vec::new(),
     };
     judge_turns(&mut leg, &turns, drive);
-    judge_motion(&mut leg, drive, trace, i, max_dev_at_m);
-    judge_grades(&mut leg, plan, drive, i);
+    let corridor_varies = route.legs.get(i).is_some_and(|l| l.corridors_m.is_some());
+    judge_motion(&mut leg, drive, trace, i, &dev, corridor_varies);
+    slopes::judge_slopes(&mut leg, plan, drive);
     judge_effort(&mut leg, &effort, plan, drive);
     leg
 }
 
 /// Most failing turns spelled out in the reasons of one leg; the JSON lists them all.
 pub const MAX_TURN_REASONS: usize = 10;
-
-/// Adds a verdict and its reason, about nothing in particular; see [`add_at`].
-#[allow(dead_code)]
-fn add(leg: &mut LegReport, v: Verdict, why: String) {
-    add_at(leg, v, why, ReasonAbout::Other, None);
-}
 
 /// Adds a verdict and its reason, what it is about and where (metres along the route); every
 /// reason goes through here so that `reason_verdicts` and `reason_spots` stay in step with
@@ -421,15 +447,15 @@ fn add_at(leg: &mut LegReport, v: Verdict, why: String, about: ReasonAbout, at_m
     leg.reason_spots.push(ReasonSpot { about, at_m: at_m.filter(|x| x.is_finite()) });
 }
 
-/// The turn rules (docs/method.md, Verdicts): a turn the vehicle cannot drive at the leg's speed
-/// and the grade where it is fails the leg, each such turn named; a turn above 80 % of what it
+/// The turn rules (docs/method.md, Verdicts): a turn the vehicle cannot drive at the speed planned
+/// there and the grade where it is fails the leg, each such turn named; a turn above 80 % of what it
 /// can drive earns a caution.
 fn judge_turns(leg: &mut LegReport, turns: &TurnCheck, drive: &RouteDrive) {
     let scale_m = drive.curvature_scale_m;
-    let (speed, terrain) = (leg.speed_mps, leg.terrain.clone());
+    let (speed, terrain) = (turns.worst_speed_mps, leg.terrain.clone());
     let n = turns.failing.len();
     for t in turns.failing.iter().take(MAX_TURN_REASONS) {
-        add_at(leg, Verdict::Fail, t.reason(speed, &terrain, scale_m), ReasonAbout::Turn, Some(t.at_m));
+        add_at(leg, Verdict::Fail, t.reason(&terrain, scale_m), ReasonAbout::Turn, Some(t.at_m));
     }
     if n > MAX_TURN_REASONS {
         let more = n - MAX_TURN_REASONS;
@@ -458,19 +484,25 @@ fn judge_turns(leg: &mut LegReport, turns: &TurnCheck, drive: &RouteDrive) {
     }
 }
 
-/// The motion rules (docs/method.md, Verdicts): deviation against the corridor, planned speed
-/// above the top side speed, and a simulation that stalled, timed out or ran out of budget.
-fn judge_motion(leg: &mut LegReport, drive: &RouteDrive, trace: &Trace, i: usize, max_dev_at_m: Option<f64>) {
-    if leg.max_deviation_m > leg.corridor_m {
-        let why =
-            format!("predicted deviation {:.2} m leaves the {:.2} m corridor", leg.max_deviation_m, leg.corridor_m);
-        add_at(leg, Verdict::Fail, why, ReasonAbout::Deviation, max_dev_at_m);
-    } else if leg.max_deviation_m > CAUTION_CORRIDOR_SHARE * leg.corridor_m {
+/// The motion rules (docs/method.md, Verdicts): deviation against the corridor where it happens,
+/// planned speed above the top side speed, and a simulation that stalled, timed out or ran out of
+/// budget.
+fn judge_motion(leg: &mut LegReport, drive: &RouteDrive, trace: &Trace, i: usize, dev: &Deviation, varies: bool) {
+    // With a corridor profile the place and the corridor there are named.
+    let (at, there) =
+        if varies { (format!(" ({:.0} m along the route)", dev.worst_at_m), " there") } else { (String::new(), "") };
+    if dev.worst_share > 1.0 {
         let why = format!(
-            "predicted deviation {:.2} m is over half the {:.2} m corridor",
-            leg.max_deviation_m, leg.corridor_m
+            "predicted deviation {:.2} m{at} leaves the {:.2} m corridor{there}",
+            dev.worst_m, dev.worst_corridor_m
         );
-        add_at(leg, Verdict::Caution, why, ReasonAbout::Deviation, max_dev_at_m);
+        add_at(leg, Verdict::Fail, why, ReasonAbout::Deviation, Some(dev.worst_at_m));
+    } else if dev.worst_share > CAUTION_CORRIDOR_SHARE {
+        let why = format!(
+            "predicted deviation {:.2} m{at} is over half the {:.2} m corridor{there}",
+            dev.worst_m, dev.worst_corridor_m
+        );
+        add_at(leg, Verdict::Caution, why, ReasonAbout::Deviation, Some(dev.worst_at_m));
     }
     if leg.speed_mps > drive.limits.max_side_speed_mps {
         let why = format!(
@@ -510,62 +542,6 @@ fn judge_motion(leg: &mut LegReport, drive: &RouteDrive, trace: &Trace, i: usize
                 add_at(leg, Verdict::Fail, why, ReasonAbout::Stop, None);
             }
         }
-    }
-}
-
-/// Thrust per side the steepest climb needs (rolling resistance f_r N / 2 plus W sin(grade) / 2)
-/// and the braking per side holding on the steepest descent needs (W sin|grade| / 2 less the
-/// rolling resistance), each with the thrust limit at that grade (min(mu N / 2, rating)), N.
-fn grade_needs(plan: &LegPlan, drive: &RouteDrive, i: usize) -> [(f64, f64, Slope); 2] {
-    let veh = &drive.vehicle;
-    let ground = &drive.legs[i].ground;
-    let w = veh.weight_n();
-    let up = Slope::grade(plan.max_uphill_grade_rad);
-    let climb_n = 0.5 * ground.rolling_resistance * up.normal_load_n(w) + up.grade_force_per_side_n(w);
-    let down = Slope::grade(-plan.max_downhill_grade_rad);
-    let hold_n = -down.grade_force_per_side_n(w) - 0.5 * ground.rolling_resistance * down.normal_load_n(w);
-    [(climb_n, side_thrust_limit_on_n(veh, ground, up), up), (hold_n, side_thrust_limit_on_n(veh, ground, down), down)]
-}
-
-/// True when leg `i`'s steepest climb and descent stay within traction and the rating (the
-/// grade rules of the verdict; they do not depend on speed).
-pub fn grades_pass(drive: &RouteDrive, i: usize, plan: &LegPlan) -> bool {
-    grade_needs(plan, drive, i).iter().all(|&(need, limit, slope)| slope.grade_rad == 0.0 || need <= limit)
-}
-
-/// The grade rules (docs/method.md, Verdicts): the steepest climb must not need more thrust per
-/// side than traction (mu W cos(grade) / 2) or the rating gives, and holding on the steepest
-/// descent must not need more braking than that.
-fn judge_grades(leg: &mut LegReport, plan: &LegPlan, drive: &RouteDrive, i: usize) {
-    let veh = &drive.vehicle;
-    let ground = &drive.legs[i].ground;
-    let terrain = leg.terrain.clone();
-    let gives = |slope: Slope| {
-        let traction_n = 0.5 * ground.traction_coefficient * slope.normal_load_n(veh.weight_n());
-        if traction_n <= veh.max_side_thrust_n {
-            format!("traction on {terrain} gives {traction_n:.0} N there")
-        } else {
-            format!("the drive is rated {:.0} N", veh.max_side_thrust_n)
-        }
-    };
-    let [(climb_n, climb_limit_n, up), (hold_n, hold_limit_n, down)] = grade_needs(plan, drive, i);
-    if up.grade_rad > 0.0 && climb_n > climb_limit_n {
-        let why = format!(
-            "cannot climb: the {:.0} % grade ({:.0} m along the route) with rolling resistance needs {climb_n:.0} N per side; {}",
-            100.0 * up.grade_rad.tan(),
-            plan.uphill_at_m,
-            gives(up)
-        );
-        add_at(leg, Verdict::Fail, why, ReasonAbout::Climb, Some(plan.uphill_at_m));
-    }
-    if down.grade_rad < 0.0 && hold_n > hold_limit_n {
-        let why = format!(
-            "cannot hold on the descent: the {:.0} % downhill grade ({:.0} m along the route) needs {hold_n:.0} N of braking per side; {}; the vehicle slides",
-            100.0 * plan.max_downhill_grade_rad.tan(),
-            plan.downhill_at_m,
-            gives(down)
-        );
-        add_at(leg, Verdict::Fail, why, ReasonAbout::Descent, Some(plan.downhill_at_m));
     }
 }
 

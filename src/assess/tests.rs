@@ -303,4 +303,213 @@ fn every_reason_carries_its_own_level_and_a_caution_on_a_failing_leg_is_never_ta
     let speed_line = html.lines().find(|s| s.contains("above the top side speed")).expect("the caution is listed");
     assert!(speed_line.contains("(caution): ") && !speed_line.contains("(fail)"), "{speed_line}");
     assert!(html.lines().any(|s| s.contains("(fail): ") && s.contains("skidroute relax")), "{html}");
+
+    // Site rules go through the same door: a cross slope beyond the grip or the tipping limit
+    // fails, one above 80 % of it earns a caution (packed snow holds up to 30 %, see the
+    // cross-slope tests below), each reason tagged with its own level.
+    let level = |c: &crate::check::CheckedRoute, needle: &str| {
+        let l = &c.report.legs[0];
+        assert_eq!(l.reasons.len(), l.reason_verdicts.len(), "one level per reason: {:?}", l.reasons);
+        let k =
+            l.reasons.iter().position(|r| r.contains(needle)).unwrap_or_else(|| panic!("{needle}: {:?}", l.reasons));
+        l.reason_verdicts[k]
+    };
+    let p = profile();
+    assert_eq!(level(&check_route(across("packed-snow", 0.38), &p), "slides sideways"), Verdict::Fail);
+    assert_eq!(level(&check_route(across("packed-snow", 0.27), &p), "uses 90 % of the 30 %"), Verdict::Caution);
+    let mut tall = profile();
+    tall.vehicle.cog_height_m = Some(0.9);
+    assert_eq!(level(&check_route(across("asphalt", 0.55), &tall), "tips over"), Verdict::Fail);
+    assert_eq!(level(&check_route(across("asphalt", 0.45), &tall), "at which the vehicle tips over"), Verdict::Caution);
+}
+
+/// `leg` on `terrain` with a per-point speed or corridor profile given by `f(point)`.
+fn with_profile(points: Vec<[f64; 2]>, terrain: &str, corridor_m: f64, speed: impl Fn([f64; 2]) -> f64) -> Leg {
+    let speeds = points.iter().map(|&p| speed(p)).collect();
+    let mut l = Leg { corridor_m: Some(corridor_m), ..Leg::new(terrain, points, SourcePosition::Line(2)) };
+    l.set_speed_profile(speeds);
+    l
+}
+
+#[test]
+fn turns_are_judged_at_the_speed_planned_there_and_the_margin_scales_the_profile() {
+    // Ideal kinematics with a yaw-rate clamp of 0.3 rad/s: the tightest curvature at speed v is
+    // 0.3 / v, so a 3 m arc passes up to v = 0.3 x 3 = 0.9 m/s (kinematics of the clamp). The
+    // planner drives the lead-in at 1.0 m/s, slows to 0.5 m/s from 3 m before the arc, and takes
+    // the arc at 0.5 m/s: the arc passes although the leg's nominal (largest) speed, 1.0 m/s,
+    // would not.
+    let mut p = profile();
+    p.vehicle.max_yaw_rate_radps = 0.3;
+    let speed = |q: [f64; 2]| {
+        if q[1] == 0.0 && q[0] <= -3.0 {
+            1.0
+        } else if q[1] == 0.0 && q[0] < -1.0 {
+            1.0 - 0.25 * (q[0] + 3.0)
+        } else {
+            0.5
+        }
+    };
+    let c = check_route(route(vec![with_profile(arc(3.0, 1.5), "asphalt", 5.0, speed)]), &p);
+    let l = &c.report.legs[0];
+    assert_relative_eq!(l.speed_mps, 1.0);
+    assert!(l.failing_turns.is_empty(), "{:?}", l.failing_turns);
+    assert_ne!(l.verdict, Verdict::Fail, "{:?}", l.reasons);
+    // The margin scales the whole profile: the arc reaches 0.9 m/s when the profile's largest
+    // value is 1.0 x 0.9 / 0.5 = 1.8 m/s, the speed reported.
+    let v = l.max_passing_speed_mps.expect("passes");
+    assert!((1.8 * 0.99..=1.8 + 1e-9).contains(&v), "{v}");
+    // One speed for the whole leg: judged at 1.0 m/s, the arc fails.
+    let flat = check_route(route(vec![leg(arc(3.0, 1.5), "asphalt", 1.0, 5.0)]), &p);
+    assert_eq!(flat.report.legs[0].verdict, Verdict::Fail);
+    assert_relative_eq!(flat.report.legs[0].failing_turns[0].speed_mps, 1.0);
+}
+
+#[test]
+fn deviation_is_judged_against_the_corridor_where_it_happens() {
+    // Track expansion 1.6 on a 6 m arc: a few centimetres of deviation on the arc (see the
+    // corridor test above) and none on the straight lead-in, which ideal sides drive exactly.
+    let mut p = profile();
+    p.terrain.get_mut("gravel").expect("gravel").model =
+        Model::ExtendedSymmetric(ExtendedSymmetric { track_width_m: 0.9, alpha: 1.0, track_expansion: 1.6 });
+    let pts = arc(6.0, 1.5);
+    let corridor = |narrow_on_lead_in: bool| {
+        let c: Vec<f64> = pts
+            .iter()
+            .map(|q| {
+                let lead_in = q[1] == 0.0 && q[0] <= -5.0;
+                if lead_in == narrow_on_lead_in {
+                    0.02
+                } else {
+                    1.0
+                }
+            })
+            .collect();
+        let mut l = leg(pts.clone(), "gravel", 0.8, 1.0);
+        l.set_corridor_profile(c);
+        l
+    };
+    // Narrow only where the vehicle runs exactly on the plan: passes, though the leg's corridor
+    // (the profile's smallest, as the table shows it) is narrower than its largest deviation.
+    let ok = check_route(route(vec![corridor(true)]), &p);
+    let l = &ok.report.legs[0];
+    assert_relative_eq!(l.corridor_m, 0.02);
+    assert!(l.max_deviation_m > 0.02, "{}", l.max_deviation_m);
+    assert_eq!(l.verdict, Verdict::Pass, "{:?}", l.reasons);
+    // Narrow on the arc: fails, naming the place and the corridor there.
+    let bad = check_route(route(vec![corridor(false)]), &p);
+    let l = &bad.report.legs[0];
+    assert_eq!(l.verdict, Verdict::Fail);
+    let why = l.reasons.iter().find(|r| r.contains("leaves the 0.02 m corridor there")).expect("corridor reason");
+    assert!(why.contains(" m along the route)"), "{why}");
+}
+
+/// A straight 40 m leg along +x whose cross slope (tangent, left side higher) is `cross` from
+/// x = 10 m on, level before, with level altitudes.
+fn across(terrain: &str, cross: f64) -> Route {
+    let pts: Vec<[f64; 2]> = (0..=40).map(|i| [i as f64, 0.0]).collect();
+    let c = (0..=40).map(|i| if i < 10 { 0.0 } else { cross }).collect();
+    route(vec![Leg { altitude_m: Some(vec![0.0; 41]), cross_slope: Some(c), ..leg(pts, terrain, 0.8, 1.0) }])
+}
+
+#[test]
+fn a_cross_slope_beyond_the_grip_fails_and_one_above_80_percent_of_it_earns_a_caution() {
+    // Wong 2008 (vehicle on a side slope): it slides sideways when tan(phi) > mu, the lateral
+    // grip taken as the traction coefficient; packed snow mu = 0.3, so it holds up to 30 %.
+    // Caution above 80 % of that, 24 %.
+    let p = profile();
+    let c = check_route(across("packed-snow", 0.38), &p);
+    let l = &c.report.legs[0];
+    assert_eq!(l.verdict, Verdict::Fail);
+    assert_relative_eq!(l.max_cross_slope_pct.expect("cross slopes"), 38.0, max_relative = 1e-12);
+    let why = l.reasons.iter().find(|r| r.starts_with("cross slope")).expect("a cross-slope reason");
+    assert_eq!(
+        why,
+        "cross slope 38 % at 10 m along the route: the vehicle slides sideways; packed-snow holds up to 30 % (its \
+         traction coefficient 0.30 is the lateral grip)"
+    );
+    assert_relative_eq!(l.traction_coefficient_needed, 0.38, max_relative = 1e-12);
+    assert_eq!(l.max_passing_speed_mps, None, "a cross slope fails at any speed");
+    let caution = check_route(across("packed-snow", 0.27), &p);
+    let l = &caution.report.legs[0];
+    assert_eq!(l.verdict, Verdict::Caution, "{:?}", l.reasons);
+    assert!(
+        l.reasons.iter().any(|r| r
+            == "cross slope 27 % at 10 m along the route uses 90 % of the 30 % packed-snow holds \
+                                          before the vehicle slides sideways"),
+        "{:?}",
+        l.reasons
+    );
+    // 23 %: 77 % of the grip, no cross-slope reason.
+    let fine = check_route(across("packed-snow", 0.23), &p);
+    assert!(
+        fine.report.legs[0].reasons.iter().all(|r| !r.contains("cross slope")),
+        "{:?}",
+        fine.report.legs[0].reasons
+    );
+    // A leg without cross slopes reports none.
+    let flat = check_route(route(vec![leg(vec![[0.0, 0.0], [10.0, 0.0]], "packed-snow", 0.8, 1.0)]), &p);
+    assert_eq!(flat.report.legs[0].max_cross_slope_pct, None);
+}
+
+#[test]
+fn a_cross_slope_beyond_the_static_stability_factor_tips_the_vehicle() {
+    // Centre of gravity 0.9 m up on a 0.9 m track: B / (2 h) = 0.5 (static stability factor,
+    // common practice), below asphalt's grip of 0.8, so tipping sets the limit: 55 % fails,
+    // 45 % (90 % of it) earns a caution.
+    let mut p = profile();
+    p.vehicle.cog_height_m = Some(0.9);
+    let c = check_route(across("asphalt", 0.55), &p);
+    let l = &c.report.legs[0];
+    assert_eq!(l.verdict, Verdict::Fail);
+    assert!(
+        l.reasons.iter().any(|r| r == "cross slope 55 % at 10 m along the route: the vehicle tips over; with its centre \
+                                          of gravity 0.90 m up and 0.90 m between its tracks (B / 2h) it stands up to 50 %"),
+        "{:?}",
+        l.reasons
+    );
+    let caution = check_route(across("asphalt", 0.45), &p);
+    assert!(caution.report.legs[0]
+        .reasons
+        .iter()
+        .any(|r| r.ends_with("uses 90 % of the 50 % at which the vehicle tips over (B / 2h)")));
+    // Without a centre-of-gravity height tipping is not judged, and the check says so.
+    p.vehicle.cog_height_m = None;
+    let unknown = check_route(across("asphalt", 0.55), &p);
+    assert_ne!(unknown.report.legs[0].verdict, Verdict::Fail, "{:?}", unknown.report.legs[0].reasons);
+    assert_eq!(unknown.route.warnings, vec![crate::check::NO_COG_HEIGHT.to_string()]);
+}
+
+#[test]
+fn a_climb_across_a_side_slope_is_judged_on_the_lighter_side() {
+    // A 20 % climb on packed snow: f_r + tan g = 0.26 < mu = 0.3, fine with equal loads. Across
+    // a 25 % cross slope with h = 0.55 m the uphill side carries
+    // N_l = N / 2 - N c cos(g) h / B (moments about the long axis) and must push
+    // f_r N_l + W sin(g) / 2 against mu N_l (Wong 2008, grade resistance): it cannot.
+    let p = profile();
+    let g = 0.2_f64.atan();
+    let w = 480.0 * STANDARD_GRAVITY_MPS2;
+    let n = w / (1.0_f64 + 0.04 + 0.0625).sqrt();
+    let n_l = n / 2.0 - n * 0.25 * g.cos() * 0.55 / 0.9;
+    let need = 0.06 * n_l + w * g.sin() / 2.0;
+    assert!(need > 0.3 * n_l);
+    let pts: Vec<[f64; 2]> = (0..=40).map(|i| [i as f64, 0.0]).collect();
+    let alt: Vec<f64> = (0..=40).map(|i| 0.2 * i as f64).collect();
+    let uphill = |cross: f64| {
+        let l = Leg {
+            altitude_m: Some(alt.clone()),
+            cross_slope: Some(vec![cross; 41]),
+            ..leg(pts.clone(), "packed-snow", 0.8, 1.0)
+        };
+        check_route(route(vec![l]), &p)
+    };
+    let c = uphill(0.25);
+    let l = &c.report.legs[0];
+    assert_eq!(l.verdict, Verdict::Fail);
+    let expected = format!(
+        "cannot climb: the 20 % grade (0 m along the route) with rolling resistance needs {need:.0} N on its uphill side, \
+         which carries less of the load on the 25 % cross slope; traction on packed-snow gives {:.0} N there",
+        0.3 * n_l
+    );
+    assert!(l.reasons.contains(&expected), "{expected} not in {:?}", l.reasons);
+    assert!(uphill(0.0).report.legs[0].reasons.iter().all(|r| !r.contains("climb")));
 }

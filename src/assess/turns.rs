@@ -1,8 +1,8 @@
 //! The turn rules of the verdict (docs/method.md, Verdicts): every vertex of a leg's plan is
-//! checked against the curvature the vehicle can drive there, at the leg's speed and the grade
-//! where the turn is (docs/method.md, Plan curvature and Achievable curvature). The plan facts
-//! that do not depend on speed are read once per leg ([`LegPlan`]), so the margins can check the
-//! same leg at many speeds cheaply.
+//! checked against the curvature the vehicle can drive there, at the speed planned there and the
+//! grade where the turn is (docs/method.md, Plan curvature and Achievable curvature). The plan
+//! facts are read once per leg ([`LegPlan`]), so the margins can check the same leg with its speed
+//! profile scaled to many speeds cheaply.
 //!
 //! Units: metres, 1/m, radians; positions in the route's local frame.
 
@@ -10,8 +10,10 @@ use serde::Serialize;
 
 use crate::effort::{Ground, Slope};
 use crate::rollout::RouteDrive;
-use crate::turn_limit::{kinematic_curvature_limit, traction_coefficient_needed, traction_curvature_limit};
+use crate::turn_limit::{kinematic_curvature_limit, traction_coefficient_needed, traction_curvature_limit_toward};
 use crate::turn_limit::{Achievable, CurvatureLimit};
+
+use super::slopes::SlopeFacts;
 
 /// Vertices whose curvature reading is below this are left out of the turn checks, 1/m (a radius
 /// of 1 km). The tightest vertex of a leg is always kept.
@@ -26,7 +28,13 @@ pub struct TurnPoint {
     pub point: [f64; 2],
     /// |curvature| read at the vertex, 1/m.
     pub curvature_per_m: f64,
+    /// True for a left turn (the outer side is the right one).
+    pub left: bool,
+    /// Speed the leg plans at the vertex, m/s.
+    pub speed_mps: f64,
     pub grade_rad: f64,
+    /// Cross slope there (tangent, positive when the left side is higher; 0 without a raster).
+    pub cross_slope: f64,
     /// Ground under the contact patch there (blended across a terrain boundary).
     pub ground: Ground,
     pub sharp: bool,
@@ -36,6 +44,8 @@ pub struct TurnPoint {
 /// The facts of one leg's plan that do not depend on speed.
 #[derive(Debug, Clone, PartialEq)]
 pub struct LegPlan {
+    /// The leg's nominal speed (its profile's largest), m/s.
+    pub speed_mps: f64,
     /// Vertices that turn (reading at least 1e-3 1/m), in order.
     pub turns: Vec<TurnPoint>,
     /// Largest |curvature| of the leg and where (the leg start for a straight leg).
@@ -46,10 +56,28 @@ pub struct LegPlan {
     pub uphill_at_m: f64,
     pub max_downhill_grade_rad: f64,
     pub downhill_at_m: f64,
-    /// Smallest traction coefficient with which every turn and climb of the leg stays within
-    /// traction, and where it is needed.
+    /// Smallest traction coefficient with which every turn, climb, descent and cross slope of
+    /// the leg stays within traction, and where it is needed.
     pub traction_needed: f64,
     pub traction_needed_at_m: f64,
+    /// The worst climb, descent and cross slope (the slope rules).
+    pub slopes: SlopeFacts,
+}
+
+impl TurnPoint {
+    /// The slope under the turn.
+    pub fn slope(&self) -> Slope {
+        Slope::new(self.grade_rad, self.cross_slope)
+    }
+
+    /// +1 for a left turn, -1 for a right one.
+    pub fn sign(&self) -> f64 {
+        if self.left {
+            1.0
+        } else {
+            -1.0
+        }
+    }
 }
 
 impl LegPlan {
@@ -70,7 +98,10 @@ impl LegPlan {
                 s_m: v.s_m,
                 point: v.point,
                 curvature_per_m: k,
+                left: v.curvature_per_m >= 0.0,
+                speed_mps: drive.speeds.speed_at_point(plan, leg, v.index),
                 grade_rad: 0.0,
+                cross_slope: 0.0,
                 ground: *ground,
                 sharp: v.sharp,
                 turn_rad: v.turn_rad,
@@ -88,9 +119,11 @@ impl LegPlan {
         }
         for t in &mut turns {
             t.grade_rad = grade(t.s_m);
+            t.cross_slope = plan.cross_slope_at(t.s_m);
             t.ground = drive.ground_at(t.s_m);
         }
         let mut p = LegPlan {
+            speed_mps: drive.legs[leg].speed_mps,
             turns,
             tightest_per_m: tightest,
             tightest_at_m,
@@ -100,6 +133,7 @@ impl LegPlan {
             downhill_at_m: start_m,
             traction_needed: 0.0,
             traction_needed_at_m: start_m,
+            slopes: SlopeFacts::default(),
         };
         let need = |mu: f64, s: f64, p: &mut LegPlan| {
             if mu > p.traction_needed {
@@ -117,17 +151,26 @@ impl LegPlan {
                 if -g > p.max_downhill_grade_rad {
                     (p.max_downhill_grade_rad, p.downhill_at_m) = (-g, s);
                 }
-                need(traction_coefficient_needed(veh, ground, 0.0, Slope::grade(g)), s, &mut p);
+                let slope = Slope::new(g, plan.cross_slope_at(s));
+                p.slopes.sample_grade(veh, ground, slope, s);
+                need(traction_coefficient_needed(veh, ground, 0.0, slope), s, &mut p);
             }
         } else {
             need(traction_coefficient_needed(veh, ground, 0.0, Slope::LEVEL), start_m, &mut p);
         }
+        if plan.has_cross_slope() {
+            // Cross slopes at the plan's own points (where the raster was sampled).
+            let (first, last) = plan.leg_point_range(leg);
+            for i in first..=last {
+                let s = plan.point_s_m(i);
+                let slope = Slope::new(grade(s), plan.cross_slope_at(s));
+                p.slopes.sample_cross(veh, ground, slope, s);
+                need(traction_coefficient_needed(veh, ground, 0.0, slope), s, &mut p);
+            }
+        }
         for t in p.turns.clone() {
-            need(
-                traction_coefficient_needed(veh, &t.ground, t.curvature_per_m, Slope::grade(t.grade_rad)),
-                t.s_m,
-                &mut p,
-            );
+            let k = t.sign() * t.curvature_per_m;
+            need(traction_coefficient_needed(veh, &t.ground, k, t.slope()), t.s_m, &mut p);
         }
         p
     }
@@ -148,11 +191,16 @@ pub struct FailingTurn {
     pub lat_deg: Option<f64>,
     /// Radius the plan asks for there.
     pub radius_m: f64,
+    /// Speed it is judged at: the speed planned there (scaled with the leg's profile in the
+    /// margin search).
+    pub speed_mps: f64,
     /// Tightest radius the vehicle can drive there at the leg's speed and the local grade.
     pub tightest_radius_m: f64,
     pub limited_by: CurvatureLimit,
     /// Grade where the turn is, percent (positive uphill).
     pub grade_pct: f64,
+    /// Cross slope where the turn is, percent (positive when the left side is higher).
+    pub cross_slope_pct: f64,
     /// True for a sharp corner of the polyline (read at the curvature scale): `relax` repairs it.
     pub sharp_corner: bool,
     /// Turning angle at the corner point, degrees (positive left).
@@ -168,28 +216,44 @@ pub struct TurnCheck {
     pub worst_ratio: f64,
     pub worst_at_m: f64,
     pub worst_per_m: f64,
+    /// Speed the turn that comes closest to failing is judged at.
+    pub worst_speed_mps: f64,
     /// Runs of consecutive vertices (each within 2 curvature scales, and at least 1.05 m, of the
     /// last) that need more than the vehicle can drive, each as its tightest point.
     pub failing: Vec<FailingTurn>,
 }
 
-/// Checks every turn of leg `leg` at `speed_mps` (docs/method.md, Verdicts). The kinematic limit
-/// (the leg's own model) is computed once; the traction limit at each turn's grade and on the
-/// ground under the contact patch there, so a turn at a terrain boundary is judged alike for the
-/// legs on both sides.
-pub fn check_turns(drive: &RouteDrive, leg: usize, plan: &LegPlan, speed_mps: f64) -> TurnCheck {
+/// Checks every turn of leg `leg` with the leg's speed profile scaled so its largest value is
+/// `top_speed_mps` (the leg's own speed for the report, other speeds for the margins; each turn
+/// is judged at the speed planned where it is, times that scale; docs/method.md, Verdicts). The
+/// kinematic limit is the leg's own model's at that speed; the traction limit at each turn's
+/// grade and on the ground under the contact patch there, so a turn at a terrain boundary is
+/// judged alike for the legs on both sides.
+pub fn check_turns(drive: &RouteDrive, leg: usize, plan: &LegPlan, top_speed_mps: f64) -> TurnCheck {
     let ld = &drive.legs[leg];
-    let kinematic = kinematic_curvature_limit(&drive.limits, &ld.controller, &ld.actual, speed_mps);
-    let at = |g: f64, ground: &Ground| Achievable {
-        kinematic_per_m: kinematic,
-        traction_per_m: Some(traction_curvature_limit(&drive.vehicle, ground, speed_mps, Slope::grade(g))),
+    let scale = if plan.speed_mps > 0.0 { top_speed_mps / plan.speed_mps } else { 1.0 };
+    // Most legs plan one speed: the kinematic limit is then computed once.
+    let mut kinematic_at = (f64::NAN, 0.0);
+    let mut at = |speed_mps: f64, t: Option<&TurnPoint>| {
+        if kinematic_at.0 != speed_mps {
+            kinematic_at = (speed_mps, kinematic_curvature_limit(&drive.limits, &ld.controller, &ld.actual, speed_mps));
+        }
+        let (ground, slope, sign) = t.map_or((&ld.ground, Slope::LEVEL, 1.0), |t| (&t.ground, t.slope(), t.sign()));
+        Achievable {
+            kinematic_per_m: kinematic_at.1,
+            traction_per_m: Some(traction_curvature_limit_toward(&drive.vehicle, ground, speed_mps, slope, sign)),
+        }
     };
     let tightest = plan.turns.iter().find(|t| t.s_m == plan.tightest_at_m);
     let mut check = TurnCheck {
-        achievable: tightest.map_or_else(|| at(0.0, &ld.ground), |t| at(t.grade_rad, &t.ground)),
+        achievable: match tightest {
+            Some(t) => at(t.speed_mps * scale, Some(t)),
+            None => at(top_speed_mps, None),
+        },
         worst_ratio: 0.0,
         worst_at_m: plan.tightest_at_m,
         worst_per_m: plan.tightest_per_m,
+        worst_speed_mps: tightest.map_or(top_speed_mps, |t| t.speed_mps * scale),
         failing: Vec::new(),
     };
     // The failing run being built: (last vertex, its representative and ratio). Consecutive
@@ -198,16 +262,17 @@ pub fn check_turns(drive: &RouteDrive, leg: usize, plan: &LegPlan, speed_mps: f6
     let mut run: Option<(TurnPoint, TurnPoint, f64, Achievable)> = None;
     let close = |run: &mut Option<(TurnPoint, TurnPoint, f64, Achievable)>, out: &mut Vec<FailingTurn>| {
         if let Some((_, t, _, a)) = run.take() {
-            out.push(failing_turn(&t, &a));
+            out.push(failing_turn(&t, &a, t.speed_mps * scale));
         }
     };
     for t in &plan.turns {
-        let a = at(t.grade_rad, &t.ground);
+        let speed_mps = t.speed_mps * scale;
+        let a = at(speed_mps, Some(t));
         let ach = a.curvature_per_m();
         let ratio = if ach > 0.0 { t.curvature_per_m / ach } else { f64::INFINITY };
         if ratio > check.worst_ratio {
-            (check.worst_ratio, check.worst_at_m, check.worst_per_m, check.achievable) =
-                (ratio, t.s_m, t.curvature_per_m, a);
+            (check.worst_ratio, check.worst_at_m, check.worst_per_m, check.achievable, check.worst_speed_mps) =
+                (ratio, t.s_m, t.curvature_per_m, a, speed_mps);
         }
         if ratio > 1.0 {
             match &mut run {
@@ -230,7 +295,7 @@ pub fn check_turns(drive: &RouteDrive, leg: usize, plan: &LegPlan, speed_mps: f6
     check
 }
 
-fn failing_turn(t: &TurnPoint, a: &Achievable) -> FailingTurn {
+fn failing_turn(t: &TurnPoint, a: &Achievable, speed_mps: f64) -> FailingTurn {
     let ach = a.curvature_per_m();
     FailingTurn {
         at_m: t.s_m,
@@ -239,9 +304,11 @@ fn failing_turn(t: &TurnPoint, a: &Achievable) -> FailingTurn {
         lon_deg: None,
         lat_deg: None,
         radius_m: 1.0 / t.curvature_per_m,
+        speed_mps,
         tightest_radius_m: if ach > 0.0 { 1.0 / ach } else { f64::INFINITY },
         limited_by: a.binding(),
         grade_pct: 100.0 * t.grade_rad.tan(),
+        cross_slope_pct: 100.0 * t.cross_slope,
         sharp_corner: t.sharp,
         turn_deg: t.turn_rad.to_degrees(),
     }
@@ -249,16 +316,20 @@ fn failing_turn(t: &TurnPoint, a: &Achievable) -> FailingTurn {
 
 impl FailingTurn {
     /// The reason line for this turn, in plain words (docs/method.md, Verdicts).
-    pub fn reason(&self, speed_mps: f64, terrain: &str, scale_m: f64) -> String {
+    pub fn reason(&self, terrain: &str, scale_m: f64) -> String {
+        let speed_mps = self.speed_mps;
         let limiter = match self.limited_by {
             CurvatureLimit::Kinematic => "slip and the yaw-rate limit".to_string(),
             CurvatureLimit::Traction => format!("thrust against traction on {terrain}"),
         };
-        let grade = if self.grade_pct.abs() >= 0.5 {
+        let mut grade = if self.grade_pct.abs() >= 0.5 {
             format!(", {:.0} % {}", self.grade_pct.abs(), if self.grade_pct > 0.0 { "uphill" } else { "downhill" })
         } else {
             String::new()
         };
+        if self.cross_slope_pct.abs() >= 0.5 {
+            grade.push_str(&format!(", {:.0} % cross slope", self.cross_slope_pct.abs()));
+        }
         let tightest = if self.tightest_radius_m.is_finite() {
             format!("the tightest is {:.1} m", self.tightest_radius_m)
         } else {

@@ -137,7 +137,7 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
     let dir = plan.direction_at(0.0);
     let mut truth = Pose::new(start[0], start[1], dir[1].atan2(dir[0]));
     let mut believed = truth;
-    let mut follower = Follower::new(plan, &drive.speeds_mps, drive.limits);
+    let mut follower = Follower::new(plan, drive.speeds.view(), drive.limits);
     let mut ends: Vec<Option<EndError>> = vec![None; n_legs];
     let mut path = keep_path.then(|| {
         let cap = (3.0 * plan.length_m() / setup.path_spacing_m) as usize + 64;

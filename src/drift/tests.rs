@@ -232,6 +232,31 @@ fn a_gyro_bias_on_a_straight_gives_the_closed_form_cross_track_error() {
 }
 
 #[test]
+fn the_samples_drive_the_planner_s_speed_profile() {
+    // With only a gyro bias b random (no noise, no covariance, no angle random walk) every
+    // sample's heading error is b T, T the drive's duration, so the ratio of the heading spreads
+    // of two runs with the same seed is the ratio of their durations, whatever the draws. Derived
+    // here for a trapezoidal profile at the side-acceleration limit a = 1 m/s^2 (kinematics of
+    // constant acceleration): 60 m at 1 m/s takes 1 + 59 + 1 = 61 s. With the planner's profile
+    // at 1 m/s to 29.9 m, down to 0.5 m/s at 30.1 m and 0.5 m/s on, the follower reaches
+    // 0.5 m/s at 30.1 m (the braking envelope: the ramp between is steeper than a allows), so
+    // 1 s up to speed (0.5 m), 0.5 s braking from 1 to 0.5 m/s (0.375 m), 0.5 s to a stop
+    // (0.125 m): T = 1 + (30.1 - 0.875) + 0.5 + (29.9 - 0.125) / 0.5 + 0.5 = 90.775 s. The
+    // final creep onto the end point adds a little to both, hence 2 %.
+    let quiet = terrain(Model::ideal(0.9), None, [0.0; 3]);
+    let p = with_imu(profile_with(quiet.clone(), quiet), 20.0, 0.0);
+    let mut s = settings(50, Odometry::Calibrated);
+    s.heading = HeadingSource::Gyro;
+    let pts = vec![[0.0, 0.0], [29.9, 0.0], [30.1, 0.0], [60.0, 0.0]];
+    let flat = run_drift(&route(vec![leg("a", pts.clone())]), &p, &s, &NoProgress).expect("run");
+    let mut slowing = leg("a", pts);
+    slowing.set_speed_profile(vec![1.0, 1.0, 0.5, 0.5]);
+    let profiled = run_drift(&route(vec![slowing]), &p, &s, &NoProgress).expect("run");
+    let ratio = stats(&profiled, 0).heading_sd_deg / stats(&flat, 0).heading_sd_deg;
+    assert_relative_eq!(ratio, 90.775 / 61.0, max_relative = 0.02);
+}
+
+#[test]
 fn a_gyro_keeps_the_heading_that_odometry_loses() {
     // A slipping terrain whose odometry yaw is off (track expansion 1.6 against an ideal
     // odometry model) turns the believed heading on every curve; a gyro of 10 deg/h does not.

@@ -78,7 +78,7 @@ pub struct Relaxed {
 /// at arc length `at_m`, where the turn is (docs/method.md, Achievable curvature and Effort).
 /// The single place relax reads it.
 pub fn traction_limit_per_m(drive: &RouteDrive, leg: &LegDrive, speed_mps: f64, at_m: f64) -> Option<f64> {
-    let slope = crate::effort::Slope::grade(drive.plan.grade_at(at_m));
+    let slope = crate::effort::Slope::new(drive.plan.grade_at(at_m), drive.plan.cross_slope_at(at_m));
     Some(crate::turn_limit::traction_curvature_limit(&drive.vehicle, &leg.ground, speed_mps, slope))
 }
 

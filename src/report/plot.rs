@@ -591,7 +591,8 @@ where
 {
     let cr = p.cr;
     let total_m = cr.drive.plan.length_m().max(1.0);
-    let max_corr = cr.report.legs.iter().map(|l| l.corridor_m).fold(0.0, f64::max);
+    let corridor = corridor_line(cr);
+    let max_corr = corridor.iter().map(|p| p.1).fold(0.0, f64::max);
     let y_max = (cr.report.max_deviation_m.max(max_corr) * 1.18).max(0.1);
     let mut chart = super::axis::distance_chart(area, total_m, 0.0..y_max, "deviation (m)")?;
     for leg in &cr.report.legs {
@@ -600,15 +601,6 @@ where
         let color = terrain_color(&leg.terrain);
         chart.draw_series(std::iter::once(Rectangle::new([(a, 0.0), (b, y_max * 0.03)], color.filled())))?;
     }
-    let corridor: Vec<(f64, f64)> = cr
-        .report
-        .legs
-        .iter()
-        .flat_map(|l| {
-            let (a, b) = cr.drive.plan.leg_bounds_m(l.index - 1);
-            [(a, l.corridor_m), (b, l.corridor_m)]
-        })
-        .collect();
     chart.draw_series(DashedLineSeries::new(corridor.iter().copied(), 10, 6, FAIL_RED.stroke_width(2)))?;
     let shown = per_column(&p.deviation, 0.0, total_m, columns(&chart));
     chart.draw_series(LineSeries::new(shown.iter().copied(), BLACK.stroke_width(2)))?;
@@ -630,6 +622,25 @@ where
     }
     draw_legend_box(&chart, &entries, &[&shown, &corridor], 14)?;
     Ok(())
+}
+
+/// The corridor along the route as (arc length, corridor) points: the corridor profile where a
+/// leg has one (linear between its points), a step at a leg boundary; a stretch of one value is
+/// two points.
+fn corridor_line(cr: &CheckedRoute) -> Vec<(f64, f64)> {
+    let mut line: Vec<(f64, f64)> = Vec::new();
+    for (j, seg) in cr.drive.speeds.segments().iter().enumerate() {
+        let (s0, s1) = cr.drive.plan.segment_bounds_m(j);
+        let [c0, c1] = seg.corridor_m;
+        let n = line.len();
+        let flat_run = n >= 2 && c0 == c1 && line[n - 1].1 == c0 && line[n - 2].1 == c0;
+        if flat_run {
+            line[n - 1].0 = s1;
+        } else {
+            line.extend([(s0, c0), (s1, c1)]);
+        }
+    }
+    line
 }
 
 #[cfg(test)]

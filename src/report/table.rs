@@ -60,12 +60,28 @@ fn traction_cell(l: &LegReport) -> Cell {
         .set_alignment(CellAlignment::Right)
 }
 
+/// Columns shown only when a route has their data.
+#[derive(Clone, Copy)]
+struct Optional {
+    /// Steepest cross slope, when the route was put on an elevation raster.
+    cross_slope: bool,
+    drift: bool,
+}
+
+impl Optional {
+    fn of(r: &RouteReport) -> Optional {
+        Optional { cross_slope: r.legs.iter().any(|l| l.max_cross_slope_pct.is_some()), drift: r.drift.is_some() }
+    }
+}
+
 /// The per-leg columns in display order, each with its priority on a narrow terminal (higher
 /// stays longer): label, terrain and verdict always; then the deviation, the margins (the highest
 /// speed that passes, the traction needed against what the terrain gives: each readable on its
 /// own), the curvature the plan needs against what the vehicle achieves, and the corridor; time,
-/// energy and thrust go first. A new column slots in with its own priority.
-fn leg_columns(with_drift: bool, color: bool) -> Vec<Column<'static, LegReport>> {
+/// energy and thrust go first. A new column slots in with its own priority. The steepest cross
+/// slope shows only when a leg has one (the route was put on an elevation raster), the drift
+/// only when it was estimated.
+fn leg_columns(shown: Optional, color: bool) -> Vec<Column<'static, LegReport>> {
     let mut cols = vec![
         Column::new("leg", ALWAYS, |l: &LegReport| Cell::new(leg_label(l))).wrap_at(20),
         Column::new("terrain", ALWAYS, |l: &LegReport| Cell::new(&l.terrain)),
@@ -80,10 +96,15 @@ fn leg_columns(with_drift: bool, color: bool) -> Vec<Column<'static, LegReport>>
         Column::new("time\ns", 30, |l: &LegReport| num(l.time_s, 0)),
         Column::new("energy\nWh", 25, |l: &LegReport| num(l.energy_wh, 1)),
         Column::new("peak\nthrust N", 10, |l: &LegReport| num(l.peak_side_thrust_n, 0)),
+    ];
+    if shown.cross_slope {
+        cols.push(Column::new("cross\nslope %", 45, |l: &LegReport| opt_num(l.max_cross_slope_pct, 0, "-")));
+    }
+    cols.extend([
         Column::new("traction\nneeds/has", 82, traction_cell),
         Column::new("passes up\nto m/s", 85, |l: &LegReport| opt_num(l.max_passing_speed_mps, 2, "none")),
-    ];
-    if with_drift {
+    ]);
+    if shown.drift {
         cols.push(Column::new("drift\nCEP95 m", 65, |l: &LegReport| opt_num(l.drift_cep95_m, 1, "-")));
     }
     cols.push(Column::new("verdict", ALWAYS, move |l: &LegReport| verdict_cell(l.verdict, color)));
@@ -92,7 +113,7 @@ fn leg_columns(with_drift: bool, color: bool) -> Vec<Column<'static, LegReport>>
 
 fn route_table(r: &RouteReport, opts: &TableOptions) -> Fitted {
     let color = opts.color;
-    fitted_table(&leg_columns(r.drift.is_some(), color), &r.legs, opts.max_width, |t| {
+    fitted_table(&leg_columns(Optional::of(r), color), &r.legs, opts.max_width, |t| {
         if color {
             t.enforce_styling();
         }

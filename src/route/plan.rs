@@ -29,6 +29,9 @@ pub struct PlanPath {
     leg_bounds_m: Vec<(f64, f64)>,
     /// Altitude at each point when every leg carries it.
     altitude_m: Option<Vec<f64>>,
+    /// Cross slope at each point (tangent, positive when the ground is higher on the left) when
+    /// every leg carries it (from an elevation raster).
+    cross_slope: Option<Vec<f64>>,
     /// Index of each leg's first point.
     leg_first_point: Vec<usize>,
     /// Signed curvature each segment bends with when the plan's curvature is read
@@ -41,6 +44,13 @@ pub struct PlanPath {
 #[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
 pub struct Cursor {
     segment: usize,
+}
+
+impl Cursor {
+    /// The segment the cursor is at.
+    pub fn segment(&self) -> usize {
+        self.segment
+    }
 }
 
 /// The nearest point of the plan to a query point.
@@ -58,20 +68,33 @@ impl PlanPath {
     pub fn new(route: &Route) -> PlanPath {
         let mut points: Vec<[f64; 2]> = Vec::new();
         let mut alt: Vec<f64> = Vec::new();
+        let mut cross: Vec<f64> = Vec::new();
         let has_alt = route.legs.iter().all(|l| l.altitude_m.is_some());
+        let has_cross = route.legs.iter().all(|l| l.cross_slope.is_some());
         let mut leg_first_index = Vec::with_capacity(route.legs.len());
         for leg in &route.legs {
             if !points.is_empty() {
                 points.pop();
                 alt.pop();
+                cross.pop();
             }
             leg_first_index.push(points.len());
             points.extend_from_slice(&leg.points);
             if let Some(a) = &leg.altitude_m {
                 alt.extend_from_slice(a);
             }
+            if let Some(c) = &leg.cross_slope {
+                cross.extend_from_slice(c);
+            }
         }
-        Self::from_parts(points, &leg_first_index, has_alt.then_some(alt))
+        Self::from_parts(points, &leg_first_index, has_alt.then_some(alt)).with_cross_slope(has_cross.then_some(cross))
+    }
+
+    /// This plan with a cross slope at every point (tangent, positive when the ground is higher
+    /// on the left); ignored unless it has one value per point.
+    pub fn with_cross_slope(mut self, cross_slope: Option<Vec<f64>>) -> PlanPath {
+        self.cross_slope = cross_slope.filter(|c| c.len() == self.points.len());
+        self
     }
 
     /// A plan from raw points and the index of each leg's first point (for tests and tools).
@@ -110,7 +133,18 @@ impl PlanPath {
             .collect();
         let bend_per_m = curvature::segment_bends(&points);
         let leg_first_point = leg_first_index.to_vec();
-        PlanPath { points, s_m, dir, segment_leg, leg_bounds_m, altitude_m, leg_first_point, bend_per_m }
+        let altitude_m = altitude_m.filter(|a| a.len() == points.len());
+        PlanPath {
+            points,
+            s_m,
+            dir,
+            segment_leg,
+            leg_bounds_m,
+            altitude_m,
+            cross_slope: None,
+            leg_first_point,
+            bend_per_m,
+        }
     }
 
     pub fn length_m(&self) -> f64 {
@@ -128,6 +162,44 @@ impl PlanPath {
     /// (start, end) arc length of leg `leg`.
     pub fn leg_bounds_m(&self, leg: usize) -> (f64, f64) {
         self.leg_bounds_m[leg]
+    }
+
+    /// Number of segments (points less one).
+    pub fn segment_count(&self) -> usize {
+        self.points.len().saturating_sub(1)
+    }
+
+    /// The leg segment `segment` belongs to.
+    pub fn segment_leg(&self, segment: usize) -> usize {
+        self.segment_leg.get(segment).map_or(0, |&l| l as usize)
+    }
+
+    /// (start, end) arc length of segment `segment` (joining points `segment` and
+    /// `segment + 1`).
+    #[inline]
+    pub fn segment_bounds_m(&self, segment: usize) -> (f64, f64) {
+        let i = segment.min(self.points.len().saturating_sub(2));
+        (self.s_m.get(i).copied().unwrap_or(0.0), self.s_m.get(i + 1).copied().unwrap_or(0.0))
+    }
+
+    /// Indices of the first and last plan points of leg `leg` (the last is the next leg's first).
+    pub fn leg_point_range(&self, leg: usize) -> (usize, usize) {
+        let last_point = self.points.len().saturating_sub(1);
+        let first = self.leg_first_point.get(leg).copied().unwrap_or(0).min(last_point);
+        (first, self.leg_first_point.get(leg + 1).copied().unwrap_or(last_point).min(last_point))
+    }
+
+    /// Arc length of point `i`.
+    pub fn point_s_m(&self, i: usize) -> f64 {
+        self.s_m.get(i).copied().unwrap_or_else(|| self.length_m())
+    }
+
+    /// The segment containing arc length `s_m`, found from a cursor near it (a few steps when
+    /// `s_m` moves little between calls, as the follower's progress does); the cursor moves to it.
+    #[inline]
+    pub fn segment_at_cursor(&self, s_m: f64, cursor: &mut Cursor) -> usize {
+        cursor.segment = self.segment_from(s_m, cursor.segment);
+        cursor.segment
     }
 
     /// The leg containing arc length `s_m` (a boundary belongs to the leg it starts).
@@ -217,6 +289,50 @@ impl PlanPath {
 
     pub fn has_altitude(&self) -> bool {
         self.altitude_m.is_some()
+    }
+
+    /// Cross slope at arc length `s_m` (tangent, positive when the ground is higher on the left
+    /// of the plan's direction), linear between points; 0 without cross slopes.
+    pub fn cross_slope_at(&self, s_m: f64) -> f64 {
+        let i = self.segment_at(s_m);
+        self.value_on_segment(self.cross_slope.as_deref(), i, s_m)
+    }
+
+    pub fn has_cross_slope(&self) -> bool {
+        self.cross_slope.is_some()
+    }
+
+    /// Grade (rad, as [`PlanPath::grade_at`]) and cross slope (as [`PlanPath::cross_slope_at`])
+    /// at arc length `s_m`, found from a cursor near it: O(1) for a progress point that moves a
+    /// little between calls. Same values as the two plain queries.
+    #[inline]
+    pub fn slope_at_cursor(&self, s_m: f64, cursor: &mut Cursor) -> (f64, f64) {
+        let hint = cursor.segment;
+        let i = self.segment_at_cursor(s_m, cursor);
+        let cross = self.value_on_segment(self.cross_slope.as_deref(), i, s_m);
+        let Some(alt) = self.altitude_m.as_deref() else { return (0.0, cross) };
+        let (a, b) = ((s_m - 0.5).max(0.0), (s_m + 0.5).min(self.length_m()));
+        if b <= a {
+            return (0.0, cross);
+        }
+        let za = self.value_on_segment(Some(alt), self.segment_from(a, hint.min(i)), a);
+        let zb = self.value_on_segment(Some(alt), self.segment_from(b, i), b);
+        ((zb - za).atan2(b - a), cross)
+    }
+
+    /// A per-point value at arc length `s_m` on segment `i`, linear between its ends (0 without
+    /// values).
+    #[inline]
+    fn value_on_segment(&self, values: Option<&[f64]>, i: usize, s_m: f64) -> f64 {
+        let Some(v) = values else { return 0.0 };
+        let (Some(&v0), Some(&v1), Some(&s0), Some(&s1)) =
+            (v.get(i), v.get(i + 1), self.s_m.get(i), self.s_m.get(i + 1))
+        else {
+            return v.first().copied().unwrap_or(0.0);
+        };
+        let len = s1 - s0;
+        let t = if len > 0.0 { ((s_m - s0) / len).clamp(0.0, 1.0) } else { 0.0 };
+        v0 + t * (v1 - v0)
     }
 
     /// The terrain under a contact patch `contact_length_m` long centred at arc length `s_m`
@@ -485,6 +601,26 @@ mod tests {
         // A stale cursor far away still gives the same answer.
         let mut far = Cursor { segment: 190 };
         assert_eq!(plan.nearest_within_at([1.0, 0.0], 0.0, 2.0, &mut far), plan.nearest_within([1.0, 0.0], 0.0, 2.0));
+    }
+
+    #[test]
+    fn slope_lookups_from_a_cursor_match_the_plain_ones() {
+        let pts: Vec<[f64; 2]> = (0..300).map(|i| [i as f64 * 0.3, (i as f64 * 0.05).sin() * 4.0]).collect();
+        let alt: Vec<f64> = (0..300).map(|i| (i as f64 * 0.07).cos() * 3.0).collect();
+        let cross: Vec<f64> = (0..300).map(|i| 0.01 * i as f64 - 1.0).collect();
+        let plan = PlanPath::from_parts(pts, &[0, 120], Some(alt)).with_cross_slope(Some(cross));
+        let mut cursor = Cursor::default();
+        for k in 0..1200 {
+            let s = k as f64 * 0.083;
+            let (g, c) = plan.slope_at_cursor(s, &mut cursor);
+            assert_eq!(g, plan.grade_at(s), "grade at {s}");
+            assert_eq!(c, plan.cross_slope_at(s), "cross slope at {s}");
+        }
+        // Halfway between points 10 and 11 the cross slope is the mean of theirs.
+        let mid = 0.5 * (plan.point_s_m(10) + plan.point_s_m(11));
+        assert_relative_eq!(plan.cross_slope_at(mid), 0.5 * (0.1 - 1.0 + 0.11 - 1.0), epsilon = 1e-12);
+        let flat = PlanPath::from_parts(vec![[0.0, 0.0], [5.0, 0.0]], &[0], None);
+        assert_eq!(flat.slope_at_cursor(2.0, &mut Cursor::default()), (0.0, 0.0));
     }
 
     #[test]

@@ -55,6 +55,10 @@ pub struct VehicleSpec {
     pub max_yaw_rate_radps: f64,
     /// Usable battery energy, when known (optional key `battery_wh`).
     pub battery_wh: Option<f64>,
+    /// Height of the centre of gravity above the ground, when known (optional key
+    /// `cog_height_m`): it shifts load to the downhill side on a cross slope and sets the
+    /// tipping limit B / (2 h). Without it neither is judged (docs/method.md, Effort).
+    pub cog_height_m: Option<f64>,
 }
 
 /// How the onboard controller turns a (v, omega) command into side speeds.

@@ -100,6 +100,9 @@ fn write_vehicle(out: &mut String, v: &VehicleSpec) {
     if let Some(wh) = v.battery_wh {
         assign(out, "battery_wh", &float(wh));
     }
+    if let Some(h) = v.cog_height_m {
+        assign(out, "cog_height_m", &float(h));
+    }
     out.push('\n');
 }
 

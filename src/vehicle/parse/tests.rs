@@ -294,6 +294,19 @@ fn battery_optional_and_positive() {
 }
 
 #[test]
+fn centre_of_gravity_height_optional_and_positive() {
+    assert_eq!(parse(BASE).expect("base").vehicle.cog_height_m, None);
+    assert_eq!(parse(DEMO_PROFILE_TOML).expect("demo").vehicle.cog_height_m, Some(0.55));
+    let text = replaced("max_yaw_rate_radps = 1.2", "max_yaw_rate_radps = 1.2\ncog_height_m = 0.7");
+    assert_eq!(parse(&text).expect("height").vehicle.cog_height_m, Some(0.7));
+    let e = error_of(&replaced("max_yaw_rate_radps = 1.2", "max_yaw_rate_radps = 1.2\ncog_height_m = -0.7"));
+    assert!(e.contains("vehicle.cog_height_m: must be a positive number, got -0.7"), "{e}");
+    let text = replaced("max_yaw_rate_radps = 1.2", "max_yaw_rate_radps = 1.2\ncog_height_m = 550");
+    let (_, warnings) = super::parse_profile_with_warnings(Path::new("test.toml"), &text).expect("unusual, kept");
+    assert!(warnings.iter().any(|w| w.contains("vehicle.cog_height_m: 550 m is unusual")), "{warnings:?}");
+}
+
+#[test]
 fn syntax_error_has_line_and_column() {
     let e = parse(&replaced("mass_kg = 480.0", "mass_kg = = 480.0")).expect_err("bad syntax");
     let VehicleError::Syntax { message, .. } = &e else { panic!("not a syntax error: {e}") };

@@ -20,6 +20,7 @@ pub(super) const VEHICLE_KEYS: &[&str] = &[
     "cruise_speed_mps",
     "max_yaw_rate_radps",
     "battery_wh",
+    "cog_height_m",
 ];
 
 const LENGTH: Plausible =
@@ -32,6 +33,7 @@ const THRUST: Plausible = Plausible { unit: "N", max: 1e8, usual: (1.0, 1e6), hi
 const POWER: Plausible = Plausible { unit: "W", max: 1e9, usual: (10.0, 1e7), hint: "is it in watts, not kilowatts?" };
 const YAW_RATE: Plausible =
     Plausible { unit: "rad/s", max: 100.0, usual: (0.01, 10.0), hint: "is it in rad/s, not deg/s?" };
+const COG_HEIGHT: Plausible = Plausible { usual: (0.05, 5.0), ..LENGTH };
 const ENERGY: Plausible = Plausible { unit: "Wh", max: 1e9, usual: (1.0, 1e7), hint: "is it in watt-hours?" };
 
 pub(super) fn parse_vehicle(s: &Section) -> VehicleSpec {
@@ -70,6 +72,7 @@ pub(super) fn parse_vehicle(s: &Section) -> VehicleSpec {
         cruise_speed_mps,
         max_yaw_rate_radps: s.plausible_number("max_yaw_rate_radps", Rule::Positive, &YAW_RATE),
         battery_wh: s.optional_plausible_number("battery_wh", Rule::Positive, &ENERGY),
+        cog_height_m: s.optional_plausible_number("cog_height_m", Rule::Positive, &COG_HEIGHT),
     }
 }
 

@@ -1,14 +1,19 @@
 //! The path follower being predicted (docs/method.md, Following): pure pursuit on a forward-only progress
-//! point, a speed profile ramped at the side-acceleration limit that slows for slower legs and
-//! stops at the end, a yaw-rate clamp, side speeds from the controller's inverse model,
-//! curvature-keeping side-speed saturation and a per-side acceleration limit.
+//! point, the planner's speed profile ramped at the side-acceleration limit that slows in time for
+//! slower stretches ahead and stops at the end (`speed_plan`), a yaw-rate clamp, side speeds from
+//! the controller's inverse model, curvature-keeping side-speed saturation and a per-side
+//! acceleration limit.
 //!
 //! Pure pursuit: Coulter 1992, "Implementation of the pure pursuit path tracking algorithm",
 //! CMU-RI-TR-92-01. Units: metres, seconds, radians; poses in the local frame.
 
+mod speed_plan;
+
 use crate::kinematics::{Model, MotionModel, Pose};
 use crate::route::plan::Nearest;
 use crate::route::{Cursor, PlanPath};
+
+pub use speed_plan::{driven_speed_mps, segment_time_s, ScaledLeg, SegmentPlan, SpeedPlan, SpeedView, CREEP_SPEED_MPS};
 
 /// Controller limits and rates, taken from the profile.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -34,9 +39,6 @@ impl FollowerLimits {
 /// How far ahead, in lookaheads, a lost vehicle's progress point may move to the plan point
 /// nearest to it (see [`Follower::update_progress`]).
 pub const LOST_SEARCH_LOOKAHEADS: f64 = 3.0;
-
-/// Speed the controller creeps at on the final approach so it always reaches the end point.
-const CREEP_SPEED_MPS: f64 = 0.05;
 
 /// Pure-pursuit curvature to a goal at body-frame `(x_m, y_m)`: kappa = 2 y / L^2 with L the
 /// distance to the goal (Coulter 1992, the arc through the goal point). A goal behind the
@@ -83,8 +85,8 @@ pub struct Command {
 #[derive(Debug, Clone)]
 pub struct Follower<'a> {
     plan: &'a PlanPath,
-    /// Target speed of each leg.
-    leg_speed_mps: &'a [f64],
+    /// The planner's speed profile with its braking envelope.
+    speeds: SpeedView<'a>,
     limits: FollowerLimits,
     progress_m: f64,
     speed_mps: f64,
@@ -97,7 +99,7 @@ pub struct Follower<'a> {
 }
 
 /// The state a follower carries from one control step to the next, to resume it later (with the
-/// same plan and limits, possibly other leg speeds).
+/// same plan and limits, possibly another speed plan).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct FollowerState {
     progress_m: f64,
@@ -128,16 +130,18 @@ impl<'a> Follower<'a> {
         }
     }
 
-    /// A follower resumed from `state`, driving legs at `leg_speed_mps`.
-    pub fn resume(plan: &'a PlanPath, leg_speed_mps: &'a [f64], limits: FollowerLimits, state: FollowerState) -> Self {
+    /// A follower resumed from `state`, driving the speed plan `speeds`.
+    pub fn resume(plan: &'a PlanPath, speeds: SpeedView<'a>, limits: FollowerLimits, state: FollowerState) -> Self {
         let FollowerState { progress_m, speed_mps, left_mps, right_mps, cursor, leg } = state;
-        Follower { plan, leg_speed_mps, limits, progress_m, speed_mps, left_mps, right_mps, cursor, leg }
+        Follower { plan, speeds, limits, progress_m, speed_mps, left_mps, right_mps, cursor, leg }
     }
 
-    pub fn new(plan: &'a PlanPath, leg_speed_mps: &'a [f64], limits: FollowerLimits) -> Self {
+    /// A follower at rest at the start of `plan`, driving the speed plan `speeds` (built for
+    /// this plan and the same acceleration limit as `limits`).
+    pub fn new(plan: &'a PlanPath, speeds: SpeedView<'a>, limits: FollowerLimits) -> Self {
         Follower {
             plan,
-            leg_speed_mps,
+            speeds,
             limits,
             progress_m: 0.0,
             speed_mps: 0.0,
@@ -195,19 +199,28 @@ impl<'a> Follower<'a> {
         self.leg = self.plan.leg_at_cursor(self.progress_m, &mut self.cursor);
     }
 
-    /// Target speed at the progress point: the leg's speed, limited so the vehicle can slow to
-    /// the next leg's speed at its start and stop at the end within the acceleration limit.
+    /// Target speed at the progress point: the planner's speed there (linear in arc length
+    /// between its points), limited so the vehicle, braking at the acceleration limit a, keeps
+    /// every slower target ahead, sqrt(v(s')^2 + 2 a (s' - s)) for all s' >= s (the braking
+    /// envelope of [`SpeedPlan`], O(1) here), and stops at the end, sqrt(2 a d). Never below the
+    /// creep speed, so the vehicle always reaches the end.
     #[inline]
     fn target_speed_mps(&self) -> f64 {
         let a = self.limits.max_side_accel_mps2;
-        let leg = self.leg;
-        let mut v = self.leg_speed_mps[leg];
-        if let Some(&next_v) = self.leg_speed_mps.get(leg + 1) {
-            let to_boundary = (self.plan.leg_bounds_m(leg).1 - self.progress_m).max(0.0);
-            v = v.min((next_v * next_v + 2.0 * a * to_boundary).sqrt());
-        }
+        let mut cursor = self.cursor;
+        let i = self.plan.segment_at_cursor(self.progress_m, &mut cursor);
+        let (s0, s1) = self.plan.segment_bounds_m(i);
+        let v = self.speeds.target_mps(i, self.progress_m - s0, s1 - s0).max(CREEP_SPEED_MPS);
         let remaining = (self.plan.length_m() - self.progress_m).max(0.0);
         v.min((2.0 * a * remaining).sqrt().max(CREEP_SPEED_MPS))
+    }
+
+    /// The planner's speed (without the envelope) at the progress point.
+    pub fn planned_speed_mps(&self) -> f64 {
+        let mut cursor = self.cursor;
+        let i = self.plan.segment_at_cursor(self.progress_m, &mut cursor);
+        let (s0, s1) = self.plan.segment_bounds_m(i);
+        self.speeds.planned_mps(i, self.progress_m - s0, s1 - s0)
     }
 
     /// One control step: pure pursuit on `pose` (the pose the controller believes), then the
@@ -321,8 +334,8 @@ mod tests {
     #[test]
     fn speed_ramps_at_the_acceleration_limit_and_sides_respect_limits() {
         let plan = PlanPath::from_parts(vec![[0.0, 0.0], [50.0, 0.0]], &[0], None);
-        let speeds = [1.5];
-        let mut f = Follower::new(&plan, &speeds, limits());
+        let speeds = SpeedPlan::per_leg(&plan, &[1.5], &[0.5], &limits());
+        let mut f = Follower::new(&plan, speeds.view(), limits());
         let model = Model::ideal(0.9);
         let mut prev = Command::default();
         for k in 1..=10 {
@@ -339,10 +352,10 @@ mod tests {
         // A goal far to the left asks for a tight turn; the side-speed difference is bounded by
         // the yaw-rate clamp once the speed has ramped up.
         let plan = PlanPath::from_parts(vec![[0.0, 0.0], [0.1, 0.0], [0.1, 30.0]], &[0], None);
-        let speeds = [2.0];
         let mut lim = limits();
         lim.max_side_accel_mps2 = 100.0;
-        let mut f = Follower::new(&plan, &speeds, lim);
+        let speeds = SpeedPlan::per_leg(&plan, &[2.0], &[0.5], &lim);
+        let mut f = Follower::new(&plan, speeds.view(), lim);
         let model = Model::ideal(0.9);
         let c = f.command(Pose::default(), &model);
         let omega = (c.right_mps - c.left_mps) / 0.9;
@@ -352,8 +365,8 @@ mod tests {
     #[test]
     fn progress_never_moves_back() {
         let plan = PlanPath::from_parts(vec![[0.0, 0.0], [10.0, 0.0]], &[0], None);
-        let speeds = [1.0];
-        let mut f = Follower::new(&plan, &speeds, limits());
+        let speeds = SpeedPlan::per_leg(&plan, &[1.0], &[0.5], &limits());
+        let mut f = Follower::new(&plan, speeds.view(), limits());
         f.update_progress(Pose::new(1.0, 0.2, 0.0));
         let s = f.progress_m();
         assert_relative_eq!(s, 1.0);
