@@ -27,7 +27,10 @@ fn crawl() -> Route {
         name: "crawl".into(),
         source: PathBuf::from("<synthetic>"),
         origin: None,
-        legs: vec![leg("asphalt", vec![[0.0, 0.0], [600.0, 0.0]], 0), leg("gravel", vec![[600.0, 0.0], [600.0, 400.0]], 1)],
+        legs: vec![
+            leg("asphalt", vec![[0.0, 0.0], [600.0, 0.0]], 0),
+            leg("gravel", vec![[600.0, 0.0], [600.0, 400.0]], 1),
+        ],
         warnings: Vec::new(),
     }
 }

@@ -116,12 +116,8 @@ fn every_failing_sharp_corner_is_listed_with_its_position_and_points_at_relax() 
     // Each corner's reason is marked at the corner (20 m and 40 m along the route, from the
     // geometry above) as a turn.
     assert_eq!(l.reason_spots.len(), l.reasons.len(), "one spot per reason");
-    let turns: Vec<f64> = l
-        .reason_spots
-        .iter()
-        .filter(|s| s.about == super::ReasonAbout::Turn)
-        .filter_map(|s| s.at_m)
-        .collect();
+    let turns: Vec<f64> =
+        l.reason_spots.iter().filter(|s| s.about == super::ReasonAbout::Turn).filter_map(|s| s.at_m).collect();
     assert_eq!(turns.len(), 2, "{:?}", l.reason_spots);
     assert_relative_eq!(turns[0], 20.0, epsilon = 1e-9);
     assert_relative_eq!(turns[1], 40.0, epsilon = 1e-9);
@@ -148,7 +144,8 @@ fn deviation_beyond_the_corridor_fails_and_beyond_half_of_it_earns_a_caution() {
     assert_eq!(caution.report.legs[0].verdict, Verdict::Caution, "{:?}", caution.report.legs[0].reasons);
     assert!(caution.report.legs[0].reasons.iter().any(|r| r.contains("over half the")));
     // The deviation reason is marked where the trace reaches its largest deviation on the leg.
-    let peak = fail.trace.steps.iter().fold(&fail.trace.steps[0], |m, s| if s.deviation_m > m.deviation_m { s } else { m });
+    let peak =
+        fail.trace.steps.iter().fold(&fail.trace.steps[0], |m, s| if s.deviation_m > m.deviation_m { s } else { m });
     let spot = l.reason_spots.iter().find(|s| s.about == super::ReasonAbout::Deviation).expect("a deviation spot");
     assert_relative_eq!(spot.at_m.expect("a position"), peak.progress_m, epsilon = 1e-9);
     let pass = at(4.0 * steady);

@@ -29,11 +29,12 @@ pub(crate) struct Axis {
 
 /// Decimals that print every multiple of `step` exactly (at most 6).
 fn decimals_for(step: f64) -> usize {
-    (0..=6).find(|&d| {
-        let scaled = step * 10f64.powi(d as i32);
-        (scaled - scaled.round()).abs() < 1e-6 * scaled.abs().max(1.0)
-    })
-    .unwrap_or(6)
+    (0..=6)
+        .find(|&d| {
+            let scaled = step * 10f64.powi(d as i32);
+            (scaled - scaled.round()).abs() < 1e-6 * scaled.abs().max(1.0)
+        })
+        .unwrap_or(6)
 }
 
 /// A tick label: `decimals` places, and zero printed without a sign ("0.0", never "-0.0").
@@ -318,7 +319,13 @@ pub(crate) fn equal_ranges(points: impl Iterator<Item = [f64; 2]>, w_px: f64, h_
 
 /// Ranges centred on `centre` showing at least `extent` metres across and up, equal metres per
 /// pixel, scaled by `pad`.
-pub(crate) fn equal_about(centre: [f64; 2], extent: [f64; 2], w_px: f64, h_px: f64, pad: f64) -> ((f64, f64), (f64, f64)) {
+pub(crate) fn equal_about(
+    centre: [f64; 2],
+    extent: [f64; 2],
+    w_px: f64,
+    h_px: f64,
+    pad: f64,
+) -> ((f64, f64), (f64, f64)) {
     let m_per_px = (extent[0] / w_px).max(extent[1] / h_px) * pad;
     let (hw, hh) = (0.5 * m_per_px * w_px, 0.5 * m_per_px * h_px);
     ((centre[0] - hw, centre[0] + hw), (centre[1] - hh, centre[1] + hh))
@@ -396,7 +403,13 @@ where
     DB: DrawingBackend,
     DB::ErrorType: 'static,
 {
-    chart(area, Span::Linear(0.0, x_max_m), Span::Linear(y.start, y.end), ("distance along the route (m)", y_desc), FULL)
+    chart(
+        area,
+        Span::Linear(0.0, x_max_m),
+        Span::Linear(y.start, y.end),
+        ("distance along the route (m)", y_desc),
+        FULL,
+    )
 }
 
 #[cfg(test)]
@@ -434,7 +447,11 @@ mod tests {
         let mantissa = step / 10f64.powf(step.log10().floor());
         assert!([1.0, 2.0, 2.5, 5.0].iter().any(|m| (m - mantissa).abs() < 1e-9), "step {step}");
         // Whole metres need no decimals: "50", not "50.0".
-        assert!(t.iter().all(|&v| !axis.label(v).contains('.')), "{:?}", t.iter().map(|&v| axis.label(v)).collect::<Vec<_>>());
+        assert!(
+            t.iter().all(|&v| !axis.label(v).contains('.')),
+            "{:?}",
+            t.iter().map(|&v| axis.label(v)).collect::<Vec<_>>()
+        );
         let small = Axis::linear(0.0, 0.93, 300, &dejavu(16), false);
         let step = small.ticks()[1] - small.ticks()[0];
         assert_eq!(small.label(small.ticks()[1]), tick_label(step, decimals_for(step)));

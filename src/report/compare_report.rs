@@ -10,15 +10,17 @@ use plotters::coord::Shift;
 use plotters::prelude::*;
 use serde::Serialize;
 
-use super::fitted_table::{fitted_table, Column, ALWAYS};
+use super::axis::{map_chart, FULL};
 use super::decimate::{simplify_path, thin};
 use super::figure::{DrawResult, Figure};
-use super::axis::{map_chart, FULL};
+use super::fitted_table::{fitted_table, Column, ALWAYS};
 use super::legend::{draw_legend_column, draw_shape, Glyph};
 use super::marks::{peak_steps, shape_of, spot_entries, spots, verdict_color, Spot};
 use super::palette::{route_color, terrain_color, CAUTION_AMBER, FAIL_RED};
 use super::placer::Rect;
-use super::plot::{chart_placer, draw_polyline, draw_terrain_map, map_entries, map_polygons, metres_per_px, terrain_entries, to_px};
+use super::plot::{
+    chart_placer, draw_polyline, draw_terrain_map, map_entries, map_polygons, metres_per_px, terrain_entries, to_px,
+};
 use super::table::TableOptions;
 use super::text::{draw_label, font, titled};
 use super::ReportError;
@@ -318,14 +320,16 @@ where
         .iter()
         .take(12)
         .map(|r| {
-            let text = format!("{}. {} - {}", r.rank, crate::limits::printable(&r.route), r.verdict.name().to_uppercase());
+            let text =
+                format!("{}. {} - {}", r.rank, crate::limits::printable(&r.route), r.verdict.name().to_uppercase());
             (Glyph::Line(route_color(r.rank - 1), 3), text)
         })
         .collect();
     if c.ranking.len() > 12 {
         entries.push((Glyph::None, format!("and {} more alternatives", c.ranking.len() - 12)));
     }
-    entries.extend(terrain_entries(c.run.routes.iter().flat_map(|cr| cr.report.legs.iter().map(|l| l.terrain.as_str()))));
+    entries
+        .extend(terrain_entries(c.run.routes.iter().flat_map(|cr| cr.report.legs.iter().map(|l| l.terrain.as_str()))));
     let has = |v: Verdict| c.run.routes.iter().any(|cr| cr.report.legs.iter().any(|l| l.verdict == v));
     if has(Verdict::Caution) {
         entries.push((Glyph::Halo(CAUTION_AMBER), "leg with a caution".to_string()));

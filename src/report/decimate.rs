@@ -232,7 +232,13 @@ mod tests {
             .map(|i| {
                 let x = 530.0 * i as f64 / (n - 1) as f64;
                 let y = 0.02 * (x * 7.0).sin();
-                let y = if i == peak { 0.93 } else if i == dip { -0.4 } else { y };
+                let y = if i == peak {
+                    0.93
+                } else if i == dip {
+                    -0.4
+                } else {
+                    y
+                };
                 (x, y)
             })
             .collect();
@@ -246,6 +252,36 @@ mod tests {
         assert!(out.windows(2).all(|w| w[0].0 <= w[1].0));
         assert_eq!(out.first(), pts.first());
         assert_eq!(out.last(), pts.last());
+    }
+
+    #[test]
+    fn the_highest_and_lowest_point_of_every_column_survive() {
+        // 50 000 points of a noisy series over 0..100 m, cut to 300 columns. The column of a
+        // point is worked out here from its x (floor((x - x0) * columns / width)), and the
+        // extremes of every column by a plain scan, independently of the decimator's grouping.
+        let n = 50_000;
+        let pts: Vec<(f64, f64)> = (0..n)
+            .map(|i| {
+                let x = 100.0 * i as f64 / (n - 1) as f64;
+                (x, (x * 3.7).sin() + 0.3 * ((i * 7919 % 101) as f64 / 101.0 - 0.5))
+            })
+            .collect();
+        let columns = 300;
+        let out = per_column(&pts, 0.0, 100.0, columns);
+        let mut lo = vec![f64::INFINITY; columns + 1];
+        let mut hi = vec![f64::NEG_INFINITY; columns + 1];
+        for &(x, y) in &pts {
+            let c = ((x / 100.0 * columns as f64).floor() as usize).min(columns);
+            lo[c] = lo[c].min(y);
+            hi[c] = hi[c].max(y);
+        }
+        for c in 0..=columns {
+            if lo[c].is_finite() {
+                assert!(out.iter().any(|p| p.1 == lo[c]), "column {c}: minimum {} lost", lo[c]);
+                assert!(out.iter().any(|p| p.1 == hi[c]), "column {c}: maximum {} lost", hi[c]);
+            }
+        }
+        assert!(out.len() <= 4 * (columns + 1), "{} points", out.len());
     }
 
     #[test]

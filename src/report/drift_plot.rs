@@ -132,13 +132,23 @@ where
     draw_terrain_map(&mut chart, polygons)?;
     let tol = 0.5 * metres_per_px(&chart);
     for path in &r.sample_paths {
-        draw_polyline(&mut chart, &mut placer, &simplify_path(path, tol, &[]), RGBColor(90, 90, 90).mix(0.35).stroke_width(1))?;
+        draw_polyline(
+            &mut chart,
+            &mut placer,
+            &simplify_path(path, tol, &[]),
+            RGBColor(90, 90, 90).mix(0.35).stroke_width(1),
+        )?;
     }
     for l in &r.legs {
         let (a, b) = plan.leg_bounds_m(l.index - 1);
         let n = (((b - a) / 0.5).ceil() as usize).clamp(1, 4000);
         let pts: Vec<[f64; 2]> = (0..=n).map(|k| plan.point_at(a + (b - a) * k as f64 / n as f64)).collect();
-        draw_polyline(&mut chart, &mut placer, &simplify_path(&pts, tol, &[]), terrain_color(&l.terrain).stroke_width(5))?;
+        draw_polyline(
+            &mut chart,
+            &mut placer,
+            &simplify_path(&pts, tol, &[]),
+            terrain_color(&l.terrain).stroke_width(5),
+        )?;
     }
     for (_, outline, end, cep95_m) in &ellipses {
         let ring: Vec<[f64; 2]> = circle(*end, *cep95_m).into_iter().map(|(x, y)| [x, y]).collect();
@@ -150,7 +160,8 @@ where
     let lp = to_px(&chart, (loss[0], loss[1]));
     draw_shape(&area, lp, Shape::TriangleUp, LOSS, 8)?;
     placer.mark(Rect::around(lp, 10));
-    let ends: Vec<(usize, (i32, i32))> = ellipses.iter().map(|(i, _, end, _)| (*i, to_px(&chart, (end[0], end[1])))).collect();
+    let ends: Vec<(usize, (i32, i32))> =
+        ellipses.iter().map(|(i, _, end, _)| (*i, to_px(&chart, (end[0], end[1])))).collect();
     for (_, p) in &ends {
         draw_shape(&area, *p, Shape::Dot, INK, 4)?;
         placer.mark(Rect::around(*p, 6));
@@ -162,7 +173,11 @@ where
     Ok(())
 }
 
-fn draw_legend<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, r: &DriftReport, polygons: &[MapPolygon]) -> DrawResult<()>
+fn draw_legend<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    r: &DriftReport,
+    polygons: &[MapPolygon],
+) -> DrawResult<()>
 where
     DB::ErrorType: 'static,
 {
@@ -200,8 +215,10 @@ where
     chart.draw_series(cep95.iter().map(|&p| Circle::new(p, 4, c95.filled())))?;
     chart.draw_series(LineSeries::new(cep50.clone(), c50.stroke_width(2)))?;
     chart.draw_series(cep50.iter().map(|&p| Circle::new(p, 4, c50.filled())))?;
-    let entries =
-        [(Glyph::Line(c95, 2), "CEP95 at leg ends".to_string()), (Glyph::Line(c50, 2), "CEP50 at leg ends".to_string())];
+    let entries = [
+        (Glyph::Line(c95, 2), "CEP95 at leg ends".to_string()),
+        (Glyph::Line(c50, 2), "CEP50 at leg ends".to_string()),
+    ];
     draw_legend_box(&chart, &entries, &[&cep95, &cep50], 15)?;
     Ok(())
 }

@@ -70,7 +70,8 @@ fn rgb_pixels_in_bands(fig: &impl Figure, band_bytes: usize) -> Result<Vec<u8>, 
     let s = SUPERSAMPLE;
     let (big_w, big_h) = (w as usize * s as usize, h as usize * s as usize);
     // Rows of the supersampled image per band: a multiple of the factor, within the budget.
-    let band_rows = ((band_bytes / (3 * big_w.max(1))) / s as usize * s as usize).max(s as usize).min(big_h.max(s as usize));
+    let band_rows =
+        ((band_bytes / (3 * big_w.max(1))) / s as usize * s as usize).max(s as usize).min(big_h.max(s as usize));
     let mut out = vec![0u8; w as usize * h as usize * 3];
     let mut band = vec![255u8; band_rows * big_w * 3];
     let mut y0 = 0usize;
@@ -199,7 +200,8 @@ impl Supersampled<'_> {
         }
         edges.sort_by(|a, b| a.y0.total_cmp(&b.y0));
         let y_lo = edges.iter().map(|e| e.y0).fold(f64::INFINITY, f64::min).floor().max(0.0) as i32;
-        let y_hi = edges.iter().map(|e| e.y1).fold(f64::NEG_INFINITY, f64::max).ceil().min(f64::from(rows) - 1.0) as i32;
+        let y_hi =
+            edges.iter().map(|e| e.y1).fold(f64::NEG_INFINITY, f64::max).ceil().min(f64::from(rows) - 1.0) as i32;
         let (mut active, mut next, mut xs): (Vec<usize>, usize, Vec<(f64, i32)>) = (Vec::new(), 0, Vec::new());
         for y in y_lo..=y_hi {
             let yc = f64::from(y) + 0.5;
@@ -282,7 +284,12 @@ impl DrawingBackend for Supersampled<'_> {
         let (a, b) = (self.corner(point), self.corner((point.0 + 1, point.1 + 1)));
         self.inner.draw_rect(a, b, &color, true)
     }
-    fn draw_line<S: BackendStyle>(&mut self, from: BackendCoord, to: BackendCoord, style: &S) -> Result<(), BitmapError> {
+    fn draw_line<S: BackendStyle>(
+        &mut self,
+        from: BackendCoord,
+        to: BackendCoord,
+        style: &S,
+    ) -> Result<(), BitmapError> {
         let wide = self.wide(style);
         // A wide straight line is a filled quadrilateral (plotters' bitmap lines are one pixel).
         self.stroke(&[self.pt(from), self.pt(to)], wide.color, wide.width)
@@ -355,8 +362,8 @@ impl DrawingBackend for Supersampled<'_> {
         self.fill_nonzero(&pts, style.color())
     }
     fn draw_text<T: BackendTextStyle>(&mut self, text: &str, style: &T, pos: BackendCoord) -> Result<(), BitmapError> {
-        let font = FontDesc::new(style.family(), style.size() * f64::from(self.s), style.style())
-            .transform(style.transform());
+        let font =
+            FontDesc::new(style.family(), style.size() * f64::from(self.s), style.style()).transform(style.transform());
         let big = TextStyle { font, color: style.color(), pos: style.anchor() };
         let p = (pos.0 * self.s, pos.1 * self.s - self.y0);
         // Text wholly outside the band (in any rotation) draws nothing.

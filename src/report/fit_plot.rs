@@ -207,9 +207,8 @@ where
     let (y0, y1) = robust_range(ys.chain(std::iter::once(0.0)));
     let axes = ("forward from the window start, m", "left, m");
     let body = captioned(area, caption)?;
-    let fit = |w: f64, h: f64| {
-        super::axis::equal_about([0.5 * (x0 + x1), 0.5 * (y0 + y1)], [x1 - x0, y1 - y0], w, h, 1.0)
-    };
+    let fit =
+        |w: f64, h: f64| super::axis::equal_about([0.5 * (x0 + x1), 0.5 * (y0 + y1)], [x1 - x0, y1 - y0], w, h, 1.0);
     let mut chart = equal_chart(&body, fit, axes, SMALL)?;
     let win = {
         let (xr, yr) = (chart.x_range(), chart.y_range());
@@ -224,7 +223,9 @@ where
     }))?;
     let (measured, predicted) = (route_color(1), route_color(4));
     chart.draw_series(shown.iter().map(|e| Circle::new((e.measured[0], e.measured[1]), 3, measured.filled())))?;
-    chart.draw_series(shown.iter().map(|e| Cross::new((e.predicted[0], e.predicted[1]), 3, predicted.stroke_width(2))))?;
+    chart.draw_series(
+        shown.iter().map(|e| Cross::new((e.predicted[0], e.predicted[1]), 3, predicted.stroke_width(2))),
+    )?;
     let data: Vec<(f64, f64)> =
         shown.iter().flat_map(|e| [(e.measured[0], e.measured[1]), (e.predicted[0], e.predicted[1])]).collect();
     let entries = [
@@ -258,7 +259,10 @@ where
             sw.horizons_s.iter().zip(row).filter_map(|(he, e)| e.map(|e| (*he, 100.0 * e))).collect();
         chart.draw_series(pts.iter().map(|p| Circle::new(*p, 3, color.filled())))?;
         chart.draw_series(LineSeries::new(pts.iter().copied(), color.stroke_width(2)))?;
-        entries.push((Glyph::Line(color, 2), format!("trained at {} s", super::axis::tick_label(*h, 3).trim_end_matches('0').trim_end_matches('.'))));
+        entries.push((
+            Glyph::Line(color, 2),
+            format!("trained at {} s", super::axis::tick_label(*h, 3).trim_end_matches('0').trim_end_matches('.')),
+        ));
         data.extend(pts);
     }
     draw_legend_box(&chart, &entries, &[&data], 13)?;

@@ -42,7 +42,13 @@ pub(crate) enum Glyph {
 }
 
 /// Draws `shape` of half-size `r` pixels centred on `c` (pixels of `area`).
-pub(crate) fn draw_shape<DB>(area: &DrawingArea<DB, Shift>, c: (i32, i32), shape: Shape, color: RGBColor, r: i32) -> DrawResult<()>
+pub(crate) fn draw_shape<DB>(
+    area: &DrawingArea<DB, Shift>,
+    c: (i32, i32),
+    shape: Shape,
+    color: RGBColor,
+    r: i32,
+) -> DrawResult<()>
 where
     DB: DrawingBackend,
     DB::ErrorType: 'static,
@@ -121,7 +127,11 @@ where
 /// Draws a legend column: a heading, then a glyph and a line of text per entry (cut with an
 /// ellipsis to the column's width). Entries that do not fit the column's height are summed up
 /// in a last line.
-pub(crate) fn draw_legend_column<DB>(area: &DrawingArea<DB, Shift>, heading: &str, entries: &[(Glyph, String)]) -> DrawResult<()>
+pub(crate) fn draw_legend_column<DB>(
+    area: &DrawingArea<DB, Shift>,
+    heading: &str,
+    entries: &[(Glyph, String)],
+) -> DrawResult<()>
 where
     DB: DrawingBackend,
     DB::ErrorType: 'static,

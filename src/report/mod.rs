@@ -51,6 +51,9 @@ pub enum ReportError {
 pub struct CheckOutputs {
     pub report_json: Option<PathBuf>,
     pub trace_csv: Option<PathBuf>,
+    /// Write every n-th step of the trace (with each leg's first and last step and every change
+    /// of `traction_limited`); 0 or 1 writes every step.
+    pub trace_every: usize,
     pub predicted_geojson: Option<PathBuf>,
     pub plot: Option<PathBuf>,
 }
@@ -72,7 +75,7 @@ pub fn write_check_outputs(run: &crate::check::CheckRun, out: &CheckOutputs) -> 
         write_atomic(p, json::check_json(run).as_bytes())?;
     }
     if let Some(p) = &out.trace_csv {
-        write_atomic(p, trace_csv::trace_csv(run).as_bytes())?;
+        write_atomic(p, trace_csv::trace_csv_every(run, out.trace_every).as_bytes())?;
     }
     if let Some(p) = &out.plot {
         plot::write_plot(run, p)?;

@@ -14,13 +14,8 @@ pub(crate) const CAUTION_AMBER: RGBColor = RGBColor(240, 170, 0);
 pub(crate) const INK: RGBColor = RGBColor(30, 30, 30);
 
 /// Predicted paths by rank (compare) and chart series, in order of use.
-pub(crate) const ROUTE_COLORS: [RGBColor; 5] = [
-    RGBColor(0, 0, 0),
-    RGBColor(0, 45, 255),
-    RGBColor(75, 90, 0),
-    RGBColor(195, 75, 210),
-    RGBColor(225, 60, 135),
-];
+pub(crate) const ROUTE_COLORS: [RGBColor; 5] =
+    [RGBColor(0, 0, 0), RGBColor(0, 45, 255), RGBColor(75, 90, 0), RGBColor(195, 75, 210), RGBColor(225, 60, 135)];
 
 /// The `i`-th route or series colour (cycling).
 pub(crate) fn route_color(i: usize) -> RGBColor {
@@ -151,9 +146,12 @@ mod tests {
         // Machado, Oliveira & Fernandes 2009, "A physiologically-based model for simulation of
         // color vision deficiency", severity 1.0 matrices on linear RGB (from memory).
         let identity = [[1.0, 0.0, 0.0], [0.0, 1.0, 0.0], [0.0, 0.0, 1.0]];
-        let protanopia = [[0.152286, 1.052583, -0.204868], [0.114503, 0.786281, 0.099216], [-0.003882, -0.048116, 1.051998]];
-        let deuteranopia = [[0.367322, 0.860646, -0.227968], [0.280085, 0.672501, 0.047413], [-0.011820, 0.042940, 0.968881]];
-        let tritanopia = [[1.255528, -0.076749, -0.178779], [-0.078411, 0.930809, 0.147602], [0.004733, 0.691367, 0.303900]];
+        let protanopia =
+            [[0.152286, 1.052583, -0.204868], [0.114503, 0.786281, 0.099216], [-0.003882, -0.048116, 1.051998]];
+        let deuteranopia =
+            [[0.367322, 0.860646, -0.227968], [0.280085, 0.672501, 0.047413], [-0.011820, 0.042940, 0.968881]];
+        let tritanopia =
+            [[1.255528, -0.076749, -0.178779], [-0.078411, 0.930809, 0.147602], [0.004733, 0.691367, 0.303900]];
         let lin = |v: u8| {
             let v = f64::from(v) / 255.0;
             if v <= 0.04045 {
@@ -162,10 +160,16 @@ mod tests {
                 ((v + 0.055) / 1.055).powf(2.4)
             }
         };
-        for (name, m) in [("normal", identity), ("protanopia", protanopia), ("deuteranopia", deuteranopia), ("tritanopia", tritanopia)] {
+        for (name, m) in [
+            ("normal", identity),
+            ("protanopia", protanopia),
+            ("deuteranopia", deuteranopia),
+            ("tritanopia", tritanopia),
+        ] {
             let seen = |c: RGBColor| {
                 let v = [lin(c.0), lin(c.1), lin(c.2)];
-                let s: Vec<f64> = m.iter().map(|row| (row[0] * v[0] + row[1] * v[1] + row[2] * v[2]).clamp(0.0, 1.0)).collect();
+                let s: Vec<f64> =
+                    m.iter().map(|row| (row[0] * v[0] + row[1] * v[1] + row[2] * v[2]).clamp(0.0, 1.0)).collect();
                 lab_of_linear([s[0], s[1], s[2]])
             };
             for (i, a) in ROUTE_COLORS.iter().enumerate() {

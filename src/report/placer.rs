@@ -148,8 +148,20 @@ impl Placer {
                 for (dx, dy) in dirs {
                     let r = f64::from(clear) * scale;
                     let p = (anchor.0 + (dx * r).round() as i32, anchor.1 + (dy * r).round() as i32);
-                    let x0 = if dx > 0.1 { p.0 } else if dx < -0.1 { p.0 - w } else { p.0 - w / 2 };
-                    let y0 = if dy > 0.1 { p.1 } else if dy < -0.1 { p.1 - h } else { p.1 - h / 2 };
+                    let x0 = if dx > 0.1 {
+                        p.0
+                    } else if dx < -0.1 {
+                        p.0 - w
+                    } else {
+                        p.0 - w / 2
+                    };
+                    let y0 = if dy > 0.1 {
+                        p.1
+                    } else if dy < -0.1 {
+                        p.1 - h
+                    } else {
+                        p.1 - h / 2
+                    };
                     let rect = Rect::new(x0, y0, x0 + w, y0 + h);
                     if !rect.inside(&self.bounds) {
                         continue;

@@ -13,12 +13,14 @@ use std::path::Path;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
-use super::axis::{map_chart, map_chart_of, equal_about, LinearChart, SMALL, FULL};
+use super::axis::{equal_about, map_chart, map_chart_of, LinearChart, FULL, SMALL};
 use super::decimate::{clip_polyline, per_column, simplify_path};
 use super::figure::{write_figure, DrawResult, Figure};
 use super::inset::{zoom_title, zooms, Zoom};
 use super::legend::{draw_legend_box, draw_legend_column, draw_shape, Glyph, Shape};
-use super::marks::{limited_runs, peak_steps, shape_of, spot_entries, spots, verdict_color, verdict_text_color, Spot, LIMITED_COLOR};
+use super::marks::{
+    limited_runs, peak_steps, shape_of, spot_entries, spots, verdict_color, verdict_text_color, Spot, LIMITED_COLOR,
+};
 use super::palette::{CAUTION_AMBER, FAIL_RED, INK};
 use super::placer::{Placer, Rect};
 use super::text::{draw_label, font, titled};
@@ -176,7 +178,10 @@ fn extent(cr: &CheckedRoute) -> [[f64; 2]; 2] {
 /// in file order, each clipped to the chart's view. A polygon without holes is one filled
 /// shape; one with holes is filled triangle by triangle (ear clipping, geo's
 /// `TriangulateEarcut`), each triangle outlined in its fill so no seam shows.
-pub(crate) fn draw_terrain_map<DB: DrawingBackend>(chart: &mut LinearChart<'_, DB>, polygons: &[MapPolygon]) -> DrawResult<()>
+pub(crate) fn draw_terrain_map<DB: DrawingBackend>(
+    chart: &mut LinearChart<'_, DB>,
+    polygons: &[MapPolygon],
+) -> DrawResult<()>
 where
     DB::ErrorType: 'static,
 {
@@ -269,7 +274,8 @@ where
     if pts.len() < 2 {
         return Ok(());
     }
-    chart.draw_series(std::iter::once(PathElement::new(pts.iter().map(|p| (p[0], p[1])).collect::<Vec<_>>(), style)))?;
+    chart
+        .draw_series(std::iter::once(PathElement::new(pts.iter().map(|p| (p[0], p[1])).collect::<Vec<_>>(), style)))?;
     let px: Vec<(i32, i32)> = pts.iter().map(|p| to_px(chart, (p[0], p[1]))).collect();
     placer.mark_line(&px, (style.stroke_width as i32 / 2).max(1));
     Ok(())
@@ -396,7 +402,11 @@ fn leg_label_anchors(p: &RoutePanel<'_>) -> Vec<(usize, [f64; 2])> {
         .enumerate()
         .filter(|(_, l)| l.verdict != Verdict::Pass)
         .map(|(i, l)| {
-            let worst = p.spots.iter().filter(|s| s.leg == l.index).max_by(|a, b| a.verdict.cmp(&b.verdict).then(b.at_m.total_cmp(&a.at_m)));
+            let worst = p
+                .spots
+                .iter()
+                .filter(|s| s.leg == l.index)
+                .max_by(|a, b| a.verdict.cmp(&b.verdict).then(b.at_m.total_cmp(&a.at_m)));
             let anchor = worst.map_or_else(
                 || {
                     let (a, b) = plan.leg_bounds_m(i);
@@ -425,7 +435,13 @@ where
     let (cx, cy) = ((a.0 + b.0) / 2, (a.1 + b.1) / 2);
     let r = ((b.0 - a.0) / 2).max(8);
     let frame = Rect::around((cx, cy), r);
-    let ring = vec![(frame.x0, frame.y0), (frame.x1, frame.y0), (frame.x1, frame.y1), (frame.x0, frame.y1), (frame.x0, frame.y0)];
+    let ring = vec![
+        (frame.x0, frame.y0),
+        (frame.x1, frame.y0),
+        (frame.x1, frame.y1),
+        (frame.x0, frame.y1),
+        (frame.x0, frame.y0),
+    ];
     area.draw(&PathElement::new(ring.clone(), WHITE.stroke_width(4)))?;
     area.draw(&PathElement::new(ring.clone(), INK.stroke_width(2)))?;
     placer.mark_line(&ring, 2);
@@ -441,7 +457,8 @@ where
 {
     let r = &p.cr.report;
     let profile = if run.demo_profile { "built-in demo profile" } else { run.vehicle_name.as_str() };
-    let title = format!("route '{}': {}   ({:.0} m, {})", r.route, r.verdict.name().to_uppercase(), r.length_m, profile);
+    let title =
+        format!("route '{}': {}   ({:.0} m, {})", r.route, r.verdict.name().to_uppercase(), r.length_m, profile);
     let body = titled(area, &title, 26)?;
     let (w, _) = body.dim_in_pixel();
     let (top, rest) = body.split_vertically(MAP_PX);
@@ -502,7 +519,8 @@ fn legend_entries(p: &RoutePanel<'_>, dropped: &[String]) -> Vec<(Glyph, String)
     }
     entries.extend(spot_entries(&p.spots));
     if !p.zooms.is_empty() {
-        entries.push((Glyph::Line(INK, 2), format!("zoom frame (A-{}, below)", p.zooms.last().map_or('A', |z| z.letter))));
+        entries
+            .push((Glyph::Line(INK, 2), format!("zoom frame (A-{}, below)", p.zooms.last().map_or('A', |z| z.letter))));
     }
     entries.extend(map_entries(&p.polygons));
     if !p.unzoomed.is_empty() {
@@ -531,7 +549,11 @@ fn columns<DB: DrawingBackend>(chart: &LinearChart<'_, DB>) -> usize {
 
 /// Outer-track thrust (with each leg's limit: traction or rating) or drawn power (with the
 /// rating) against distance along the route.
-fn draw_effort<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, p: &RoutePanel<'_>, panel: EffortPanel) -> DrawResult<()>
+fn draw_effort<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    p: &RoutePanel<'_>,
+    panel: EffortPanel,
+) -> DrawResult<()>
 where
     DB::ErrorType: 'static,
 {
@@ -597,14 +619,20 @@ where
     let mut chart = super::axis::distance_chart(area, total_m, 0.0..y_max, "deviation (m)")?;
     for leg in &cr.report.legs {
         let (a, b) = cr.drive.plan.leg_bounds_m(leg.index - 1);
-        chart.draw_series(std::iter::once(PathElement::new(vec![(a, 0.0), (a, y_max)], RGBColor(190, 190, 190).stroke_width(1))))?;
+        chart.draw_series(std::iter::once(PathElement::new(
+            vec![(a, 0.0), (a, y_max)],
+            RGBColor(190, 190, 190).stroke_width(1),
+        )))?;
         let color = terrain_color(&leg.terrain);
         chart.draw_series(std::iter::once(Rectangle::new([(a, 0.0), (b, y_max * 0.03)], color.filled())))?;
     }
     chart.draw_series(DashedLineSeries::new(corridor.iter().copied(), 10, 6, FAIL_RED.stroke_width(2)))?;
     let shown = per_column(&p.deviation, 0.0, total_m, columns(&chart));
     chart.draw_series(LineSeries::new(shown.iter().copied(), BLACK.stroke_width(2)))?;
-    let mut entries = vec![(Glyph::Dashed(FAIL_RED, 2), "corridor".to_string()), (Glyph::Line(BLACK, 2), "predicted deviation".to_string())];
+    let mut entries = vec![
+        (Glyph::Dashed(FAIL_RED, 2), "corridor".to_string()),
+        (Glyph::Line(BLACK, 2), "predicted deviation".to_string()),
+    ];
     // The largest deviation, marked and labelled with its value.
     if let Some(&(x, y)) = shown.iter().max_by(|a, b| a.1.total_cmp(&b.1).then(b.0.total_cmp(&a.0))) {
         if y > 0.0 {
@@ -666,7 +694,10 @@ mod tests {
             name: "crawl".into(),
             source: "crawl.csv".into(),
             origin: None,
-            legs: vec![leg("asphalt", vec![[0.0, 0.0], [200.0, 0.0]]), leg("gravel", vec![[200.0, 0.0], [200.0, 100.0]])],
+            legs: vec![
+                leg("asphalt", vec![[0.0, 0.0], [200.0, 0.0]]),
+                leg("gravel", vec![[200.0, 0.0], [200.0, 100.0]]),
+            ],
             warnings: Vec::new(),
         };
         let cr = crate::check::check_route(route, &crate::vehicle::Profile::demo());

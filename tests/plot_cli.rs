@@ -1,0 +1,96 @@
+//! End-to-end tests of the plot and trace outputs sized by need: the check plot of a failing
+//! route carries a zoom of the failing spot, a crawl route plots small, and `--trace-every`
+//! thins the trace but keeps every leg's first and last step.
+
+mod common;
+
+use common::{example, run, s, text};
+
+/// A route that crawls at 0.05 m/s: 60 m in two legs (about 24 000 control steps).
+fn crawl_csv() -> String {
+    let mut out = String::from("x_m,y_m,z_m,terrain,speed_mps\n");
+    for i in 0..=40 {
+        out += &format!("{i}.0,0.0,0.0,asphalt,0.05\n");
+    }
+    for i in 1..=20 {
+        out += &format!("40.0,{i}.0,0.0,gravel,0.05\n");
+    }
+    out
+}
+
+/// The data rows of a trace CSV as (leg, t_s) pairs.
+fn rows(csv: &str) -> Vec<(u32, f64)> {
+    csv.lines()
+        .skip(1)
+        .map(|l| {
+            let f: Vec<&str> = l.split(',').collect();
+            (f[4].parse().expect("leg"), f[0].parse().expect("t_s"))
+        })
+        .collect()
+}
+
+#[test]
+fn the_plot_of_a_failing_route_zooms_on_the_failing_leg() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let svg = dir.path().join("plot.svg");
+    let o = run(&["check", s(&example("supply-run.geojson")), "--plot", s(&svg), "-q"]);
+    assert_eq!(o.status.code(), Some(1), "supply-run fails on leg 4: {}", text(&o.stderr));
+    let svg = std::fs::read_to_string(&svg).expect("svg");
+    // The zoom's title names its letter and the failing leg; the top view labels the frame.
+    assert!(svg.contains("A: leg 4 FAIL, from"), "no zoom on leg 4");
+    assert!(svg.contains(">\nA\n</text>") || svg.contains(">A</text>"), "the zoom frame is not lettered");
+    assert!(svg.contains("turn too tight"), "the failing turn is not marked");
+}
+
+#[test]
+fn a_crawl_route_plots_small_and_the_html_too() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let route = dir.path().join("crawl.csv");
+    std::fs::write(&route, crawl_csv()).expect("route");
+    let (svg, html) = (dir.path().join("crawl.svg"), dir.path().join("crawl.html"));
+    let o = run(&["check", s(&route), "--plot", s(&svg), "--html", s(&html), "-q"]);
+    assert!(matches!(o.status.code(), Some(0 | 1)), "{}", text(&o.stderr));
+    let svg_bytes = std::fs::metadata(&svg).expect("svg").len();
+    let html_bytes = std::fs::metadata(&html).expect("html").len();
+    // A screen shows a few thousand points per series; 2 MB is far above what that needs.
+    assert!(svg_bytes < 2_000_000, "svg {svg_bytes} bytes");
+    assert!(html_bytes < 2_000_000, "html {html_bytes} bytes");
+}
+
+#[test]
+fn trace_every_writes_about_a_tenth_and_keeps_each_legs_first_and_last_step() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let route = dir.path().join("crawl.csv");
+    std::fs::write(&route, crawl_csv()).expect("route");
+    let (full, thin) = (dir.path().join("full.csv"), dir.path().join("thin.csv"));
+    let o = run(&["check", s(&route), "--trace", s(&full), "-q"]);
+    assert!(matches!(o.status.code(), Some(0 | 1)), "{}", text(&o.stderr));
+    let o = run(&["check", s(&route), "--trace", s(&thin), "--trace-every", "10", "-q"]);
+    assert!(matches!(o.status.code(), Some(0 | 1)), "{}", text(&o.stderr));
+    let full = rows(&std::fs::read_to_string(&full).expect("full"));
+    let thin = rows(&std::fs::read_to_string(&thin).expect("thin"));
+    assert!(full.len() > 10_000, "{} rows", full.len());
+    let tenth = full.len() as f64 / 10.0;
+    assert!((thin.len() as f64 - tenth).abs() < 0.02 * tenth + 50.0, "{} rows of {}", thin.len(), full.len());
+    // Each leg's first and last row of the full trace are in the thin one, and the thin rows
+    // are a subsequence of the full ones (same times, same order).
+    for leg in [1, 2] {
+        let of_leg: Vec<&(u32, f64)> = full.iter().filter(|r| r.0 == leg).collect();
+        let (first, last) = (of_leg.first().expect("leg rows"), of_leg.last().expect("leg rows"));
+        for want in [first, last] {
+            assert!(thin.iter().any(|r| r.0 == want.0 && (r.1 - want.1).abs() < 1e-9), "leg {leg}: {want:?} missing");
+        }
+    }
+    assert!(thin.windows(2).all(|w| w[0].1 < w[1].1));
+}
+
+#[test]
+fn trace_every_needs_a_trace_and_a_positive_count() {
+    let route = example("yard-lap.csv");
+    let o = run(&["check", s(&route), "--trace-every", "10", "-q"]);
+    assert_eq!(o.status.code(), Some(2), "--trace-every without --trace");
+    let dir = tempfile::tempdir().expect("tempdir");
+    let t = dir.path().join("t.csv");
+    let o = run(&["check", s(&route), "--trace", s(&t), "--trace-every", "0", "-q"]);
+    assert_eq!(o.status.code(), Some(2), "--trace-every 0");
+}
