@@ -165,7 +165,9 @@ impl Axis {
 
 /// Multiples of `step` within `lo..=hi` (with a little slack for rounding).
 fn ticks_of(lo: f64, hi: f64, step: f64) -> Vec<f64> {
-    if !(step > 0.0) || !((hi - lo) / step).is_finite() || (hi - lo) / step > 10_000.0 {
+    // A NaN step fails `step > 0.0` too.
+    let usable = step > 0.0 && ((hi - lo) / step).is_finite() && (hi - lo) / step <= 10_000.0;
+    if !usable {
         return vec![lo, hi];
     }
     let eps = step * 1e-9;

@@ -11,6 +11,8 @@ use super::figure::DrawResult;
 use super::palette::INK;
 use super::text::{ellipsized, font, wrapped};
 
+/// A line segment between two pixel points.
+type Segment = ((i32, i32), (i32, i32));
 /// A marker shape.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub(crate) enum Shape {
@@ -61,7 +63,7 @@ where
         area.draw(&PathElement::new(ring, INK.stroke_width(1)))?;
         Ok(())
     };
-    let strokes = |segs: &[((i32, i32), (i32, i32))], w: u32| -> DrawResult<()> {
+    let strokes = |segs: &[Segment], w: u32| -> DrawResult<()> {
         for (a, b) in segs {
             area.draw(&PathElement::new(vec![*a, *b], WHITE.stroke_width(w + 3)))?;
         }

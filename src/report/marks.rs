@@ -13,7 +13,7 @@ use crate::assess::{leg_steps, LegReport, ReasonAbout, Verdict};
 use crate::check::CheckedRoute;
 
 /// Colour of the band under traction-limited stretches of the predicted path.
-pub(crate) const LIMITED_COLOR: RGBColor = RGBColor(225, 60, 135);
+pub(crate) const LIMITED_COLOR: RGBColor = RGBColor(120, 20, 200);
 
 /// One reason marked at its place.
 #[derive(Debug, Clone, PartialEq)]

@@ -519,8 +519,11 @@ fn legend_entries(p: &RoutePanel<'_>, dropped: &[String]) -> Vec<(Glyph, String)
     }
     entries.extend(spot_entries(&p.spots));
     if !p.zooms.is_empty() {
-        entries
-            .push((Glyph::Line(INK, 2), format!("zoom frame (A-{}, below)", p.zooms.last().map_or('A', |z| z.letter))));
+        let letters = match p.zooms.last().map_or('A', |z| z.letter) {
+            'A' => "A".to_string(),
+            last => format!("A-{last}"),
+        };
+        entries.push((Glyph::Line(INK, 2), format!("zoom frame ({letters}, below)")));
     }
     entries.extend(map_entries(&p.polygons));
     if !p.unzoomed.is_empty() {

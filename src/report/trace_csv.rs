@@ -31,7 +31,7 @@ pub(crate) fn csv_field(s: &str) -> String {
 /// of `every`, the first or last step of a leg, or a change of `traction_limited`.
 pub fn keeps_step(steps: &[Step], i: usize, every: usize) -> bool {
     let Some(s) = steps.get(i) else { return false };
-    if every <= 1 || i % every == 0 {
+    if every <= 1 || i.is_multiple_of(every) {
         return true;
     }
     let (prev, next) = (i.checked_sub(1).and_then(|j| steps.get(j)), steps.get(i + 1));
