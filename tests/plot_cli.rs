@@ -94,3 +94,34 @@ fn trace_every_needs_a_trace_and_a_positive_count() {
     let o = run(&["check", s(&route), "--trace", s(&t), "--trace-every", "0", "-q"]);
     assert_eq!(o.status.code(), Some(2), "--trace-every 0");
 }
+
+#[test]
+fn a_speed_change_caution_is_marked_where_the_speed_changes_not_at_a_turn() {
+    // The demo vehicle with a 400 N thrust rating per side: starting up to 1.2 m/s on slush
+    // needs more (m a / 2 plus rolling resistance), a caution at 0 m. The route is 30 m straight,
+    // then a gentle 300 m radius arc well within what slush allows, so no turn reason exists.
+    let dir = tempfile::tempdir().expect("tempdir");
+    let demo = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/src/vehicle/demo.toml")).expect("demo");
+    assert!(demo.contains("max_side_thrust_n = 2500.0"), "the demo profile's rating moved");
+    let weak = dir.path().join("weak.toml");
+    std::fs::write(&weak, demo.replace("max_side_thrust_n = 2500.0", "max_side_thrust_n = 400.0")).expect("profile");
+    let mut csv = String::from("x_m,y_m,z_m,terrain,speed_mps\n");
+    for i in 0..=30 {
+        csv += &format!("{i}.0,0.0,0.0,slush,1.2\n");
+    }
+    for k in 1..=40 {
+        let a = f64::from(k) / 300.0;
+        csv += &format!("{:.4},{:.4},0.0,slush,1.2\n", 30.0 + 300.0 * a.sin(), 300.0 * (1.0 - a.cos()));
+    }
+    let route = dir.path().join("weak.csv");
+    std::fs::write(&route, csv).expect("route");
+    let (svg, report) = (dir.path().join("weak.svg"), dir.path().join("weak.json"));
+    let o = run(&["check", s(&route), "--vehicle", s(&weak), "--plot", s(&svg), "--report", s(&report), "-q"]);
+    assert_eq!(o.status.code(), Some(0), "a caution only: {}", text(&o.stderr));
+    let json = std::fs::read_to_string(&report).expect("report");
+    assert!(json.contains("changing speed needs up to"), "no speed-change caution: {json}");
+    assert!(!json.contains("turn radius") && !json.contains("turn needs radius"), "a turn reason: {json}");
+    let svg = std::fs::read_to_string(&svg).expect("svg");
+    assert!(svg.contains("speed change beyond traction"), "the speed change is not marked");
+    assert!(!svg.contains("turn too tight") && !svg.contains("tight turn"), "a turn is marked");
+}
