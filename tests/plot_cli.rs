@@ -125,3 +125,16 @@ fn a_speed_change_caution_is_marked_where_the_speed_changes_not_at_a_turn() {
     assert!(svg.contains("speed change beyond traction"), "the speed change is not marked");
     assert!(!svg.contains("turn too tight") && !svg.contains("tight turn"), "a turn is marked");
 }
+
+#[test]
+fn the_compare_plot_zooms_on_the_failing_alternative() {
+    // store-alternatives.geojson: 'ridge' passes, 'direct' fails at its corners (legs 1 and 2).
+    let dir = tempfile::tempdir().expect("tempdir");
+    let svg = dir.path().join("overlay.svg");
+    let o = run(&["compare", s(&example("store-alternatives.geojson")), "--plot", s(&svg), "-q"]);
+    assert!(matches!(o.status.code(), Some(0 | 1)), "{}", text(&o.stderr));
+    // SVG text escapes the quotes.
+    let svg = std::fs::read_to_string(&svg).expect("svg").replace("&apos;", "'");
+    assert!(svg.contains("'direct' A: leg 1 FAIL, from"), "no zoom on the failing alternative");
+    assert!(!svg.contains("'ridge' A:") && !svg.contains("'ridge' B:"), "a zoom on the passing alternative");
+}

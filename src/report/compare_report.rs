@@ -1,6 +1,8 @@
 //! Reports of a comparison of alternative routes: the ranking table, the JSON document
 //! (`"format": "skidroute-compare/1"`) and one overlay plot of all alternatives in a common
-//! frame (the first route's), SVG or PNG.
+//! frame (the first route's), SVG or PNG, with a row of up to three zooms of the worst spots of
+//! all alternatives below it (failing before cautioned, then by rank; see `report::inset`), each
+//! drawn in its own route's frame and framed and lettered on the overlay.
 
 use std::fmt::Write;
 use std::path::Path;
@@ -14,12 +16,15 @@ use super::axis::{map_chart, FULL};
 use super::decimate::{simplify_path, thin};
 use super::figure::{DrawResult, Figure};
 use super::fitted_table::{fitted_table, Column, ALWAYS};
+use super::inset::{zoom_title, Zoom, MAX_ZOOMS};
 use super::legend::{draw_legend_column, draw_shape, Glyph};
+use super::marks::LIMITED_COLOR;
 use super::marks::{peak_steps, shape_of, spot_entries, spots, verdict_color, Spot};
 use super::palette::{route_color, terrain_color, CAUTION_AMBER, FAIL_RED};
 use super::placer::Rect;
 use super::plot::{
-    chart_placer, draw_polyline, draw_terrain_map, map_entries, map_polygons, metres_per_px, terrain_entries, to_px,
+    chart_placer, draw_polyline, draw_terrain_map, draw_zoom, draw_zoom_frame, map_entries, map_polygons,
+    metres_per_px, terrain_entries, to_px, RoutePanel, ZOOM_PX,
 };
 use super::table::TableOptions;
 use super::text::{draw_label, font, titled};
@@ -176,11 +181,15 @@ struct OverlayFigure<'a> {
     peaks: Vec<Vec<(usize, [f64; 2])>>,
     /// Each route's spots (see `report::marks`).
     spots: Vec<Vec<Spot>>,
+    /// The routes with a zoom, as drawn by the check plot, and the zooms: the panel's index, the
+    /// zoom (lettered across all routes) and its shift from the route's frame to the common one.
+    panels: Vec<RoutePanel<'a>>,
+    zooms: Vec<(usize, Zoom, [f64; 2])>,
 }
 
 impl Figure for OverlayFigure<'_> {
     fn size_px(&self) -> (u32, u32) {
-        (WIDTH_PX, HEIGHT_PX)
+        (WIDTH_PX, HEIGHT_PX + if self.zooms.is_empty() { 0 } else { ZOOM_PX })
     }
     fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> DrawResult<()>
     where
@@ -210,7 +219,45 @@ fn overlay_figure(c: &Comparison) -> Result<OverlayFigure<'_>, String> {
         paths.push(thin(&f.predicted, tol_m, &keep));
     }
     let spots = c.run.routes.iter().map(spots).collect();
-    Ok(OverlayFigure { c, framed, paths, peaks, spots })
+    let (panels, zooms) = overlay_zooms(c, &framed);
+    Ok(OverlayFigure { c, framed, paths, peaks, spots, panels, zooms })
+}
+
+/// The zooms of the overlay: every route's own zooms (worked out as for its check plot), the
+/// failing ones first, then by rank, at most [`MAX_ZOOMS`], lettered from A; each with the shift
+/// that takes its window into the common frame (at the predicted step nearest its centre).
+fn overlay_zooms<'a>(c: &'a Comparison, framed: &[FramedRoute]) -> (Vec<RoutePanel<'a>>, Vec<(usize, Zoom, [f64; 2])>) {
+    let mut candidates: Vec<(Verdict, usize, usize, Zoom)> = Vec::new();
+    let mut panels = Vec::new();
+    for r in &c.ranking {
+        let Some(cr) = c.run.routes.get(r.run_index) else { continue };
+        let panel = RoutePanel::new(cr, &c.run);
+        if panel.zooms.is_empty() {
+            continue;
+        }
+        for z in &panel.zooms {
+            candidates.push((z.worst, r.rank, panels.len(), z.clone()));
+        }
+        panels.push((r.run_index, panel));
+    }
+    candidates.sort_by(|a, b| b.0.cmp(&a.0).then(a.1.cmp(&b.1)));
+    let mut zooms = Vec::new();
+    for (k, (_, _, pi, mut z)) in candidates.into_iter().take(MAX_ZOOMS).enumerate() {
+        let Some((run_index, panel)) = panels.get(pi) else { continue };
+        let Some(f) = framed.get(*run_index) else { continue };
+        let near = |i: &usize| {
+            let p = panel.cr.trace.steps[*i].pose;
+            (p.x_m - z.centre[0]).hypot(p.y_m - z.centre[1])
+        };
+        let steps = 0..panel.cr.trace.steps.len().min(f.predicted.len());
+        let shift = steps.min_by(|a, b| near(a).total_cmp(&near(b))).map_or([0.0, 0.0], |i| {
+            let p = panel.cr.trace.steps[i].pose;
+            [f.predicted[i][0] - p.x_m, f.predicted[i][1] - p.y_m]
+        });
+        z.letter = char::from(b'A' + k as u8);
+        zooms.push((pi, z, shift));
+    }
+    (panels.into_iter().map(|(_, p)| p).collect(), zooms)
 }
 
 /// The overlay plot as an SVG document string.
@@ -243,8 +290,14 @@ where
 {
     let (c, framed) = (fig.c, &fig.framed);
     root.fill(&WHITE)?;
+    let (top, zoom_row) = if fig.zooms.is_empty() {
+        (root.clone(), None)
+    } else {
+        let (top, row) = root.split_vertically(HEIGHT_PX);
+        (top, Some(row))
+    };
     let title = format!("{} alternatives, ranked by verdict then {}", c.ranking.len(), ranked_on(c));
-    let body = titled(root, &title, 26)?;
+    let body = titled(&top, &title, 26)?;
     let (w, _) = body.dim_in_pixel();
     let (map, legend) = body.split_horizontally(w.saturating_sub(LEGEND_WIDTH_PX));
     let all = framed.iter().flat_map(|f| f.plan_legs.iter().flatten().chain(f.predicted.iter())).copied();
@@ -302,7 +355,22 @@ where
         let p = to_px(&chart, (end[0], end[1]));
         draw_label(&area, &mut placer, p, 8, &rank.to_string(), &f, *color)?;
     }
-    draw_legend(&legend, c, &spot_list, &polygons)?;
+    for (_, z, shift) in &fig.zooms {
+        let mut framed_zoom = z.clone();
+        framed_zoom.centre = [z.centre[0] + shift[0], z.centre[1] + shift[1]];
+        draw_zoom_frame(&mut chart, &area, &mut placer, &framed_zoom)?;
+    }
+    if let Some(row) = zoom_row {
+        let cells = row.split_evenly((1, MAX_ZOOMS));
+        for ((pi, z, _), cell) in fig.zooms.iter().zip(cells.iter()) {
+            let Some(panel) = fig.panels.get(*pi) else { continue };
+            let title =
+                format!("'{}' {}", crate::limits::printable(&panel.cr.report.route), zoom_title(z, &panel.spots));
+            draw_zoom(cell, panel, z, &title)?;
+        }
+    }
+    let limited = fig.zooms.iter().any(|(pi, _, _)| fig.panels.get(*pi).is_some_and(RoutePanel::has_limited));
+    draw_legend(&legend, c, &spot_list, &polygons, !fig.zooms.is_empty(), limited)?;
     Ok(())
 }
 
@@ -311,6 +379,8 @@ fn draw_legend<DB: DrawingBackend>(
     c: &Comparison,
     spot_list: &[Spot],
     polygons: &[crate::site::terrain_map::MapPolygon],
+    zoomed: bool,
+    limited: bool,
 ) -> DrawResult<()>
 where
     DB::ErrorType: 'static,
@@ -338,6 +408,12 @@ where
         entries.push((Glyph::Halo(FAIL_RED), "failing leg".to_string()));
     }
     entries.extend(spot_entries(spot_list));
+    if zoomed {
+        entries.push((Glyph::Line(BLACK, 2), "predicted path in a zoom (below)".to_string()));
+    }
+    if limited {
+        entries.push((Glyph::Line(LIMITED_COLOR, 6), "traction or a rating limits it".to_string()));
+    }
     entries.extend(map_entries(polygons));
     draw_legend_column(area, "predicted path, by rank", &entries)
 }

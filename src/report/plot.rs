@@ -37,7 +37,7 @@ const WIDTH_PX: u32 = 1400;
 /// Heights of a route's title, top view, zoom row and each chart row, pixels.
 const TITLE_PX: u32 = 74;
 const MAP_PX: u32 = 760;
-const ZOOM_PX: u32 = 440;
+pub(crate) const ZOOM_PX: u32 = 440;
 const CHART_PX: u32 = 270;
 /// Width of the legend column beside the top view.
 const LEGEND_WIDTH_PX: u32 = 330;
@@ -50,10 +50,10 @@ const SERIES_COLUMNS: usize = 8192;
 
 /// One route's part of the check plot, worked out once before drawing (PNG output draws the
 /// figure once per band, so nothing here is recomputed per band).
-struct RoutePanel<'a> {
-    cr: &'a CheckedRoute,
-    spots: Vec<Spot>,
-    zooms: Vec<Zoom>,
+pub(crate) struct RoutePanel<'a> {
+    pub(crate) cr: &'a CheckedRoute,
+    pub(crate) spots: Vec<Spot>,
+    pub(crate) zooms: Vec<Zoom>,
     unzoomed: Vec<usize>,
     polygons: Vec<MapPolygon>,
     /// Corners of the box around the plan and the predicted path.
@@ -73,7 +73,7 @@ struct RoutePanel<'a> {
 }
 
 impl<'a> RoutePanel<'a> {
-    fn new(cr: &'a CheckedRoute, run: &CheckRun) -> Self {
+    pub(crate) fn new(cr: &'a CheckedRoute, run: &CheckRun) -> Self {
         let spots = spots(cr);
         let extent = extent(cr);
         let view_half_m = (0.5 * (extent[1][0] - extent[0][0]).max(extent[1][1] - extent[0][1])).max(1.0);
@@ -108,6 +108,11 @@ impl<'a> RoutePanel<'a> {
             thrust: series(|s| s.effort.outer_thrust_n),
             power: series(|s| s.effort.drawn_power_w),
         }
+    }
+
+    /// True when traction or a rating bound the motion somewhere on the route.
+    pub(crate) fn has_limited(&self) -> bool {
+        !self.limited.is_empty()
     }
 
     fn height_px(&self) -> u32 {
@@ -420,7 +425,7 @@ fn leg_label_anchors(p: &RoutePanel<'_>) -> Vec<(usize, [f64; 2])> {
 }
 
 /// A zoom's frame and letter on the whole view.
-fn draw_zoom_frame<DB: DrawingBackend>(
+pub(crate) fn draw_zoom_frame<DB: DrawingBackend>(
     chart: &mut LinearChart<'_, DB>,
     area: &DrawingArea<DB, Shift>,
     placer: &mut Placer,
@@ -472,7 +477,7 @@ where
         let (row, below) = rest.split_vertically(ZOOM_PX);
         let cells = row.split_evenly((1, super::inset::MAX_ZOOMS));
         for (z, cell) in p.zooms.iter().zip(cells.iter()) {
-            dropped.extend(draw_zoom(cell, p, z)?);
+            dropped.extend(draw_zoom(cell, p, z, &zoom_title(z, &p.spots))?);
         }
         below
     };
@@ -485,11 +490,17 @@ where
     Ok(())
 }
 
-fn draw_zoom<DB: DrawingBackend>(cell: &DrawingArea<DB, Shift>, p: &RoutePanel<'_>, z: &Zoom) -> DrawResult<Vec<String>>
+/// Draws zoom `z` of a route in `cell` under `title`; returns the labels left out for want of room.
+pub(crate) fn draw_zoom<DB: DrawingBackend>(
+    cell: &DrawingArea<DB, Shift>,
+    p: &RoutePanel<'_>,
+    z: &Zoom,
+    title: &str,
+) -> DrawResult<Vec<String>>
 where
     DB::ErrorType: 'static,
 {
-    let body = titled(cell, &zoom_title(z, &p.spots), 16)?;
+    let body = titled(cell, title, 16)?;
     let frame = if p.cr.route.origin.is_some() { "of the route start" } else { "in the map frame" };
     let side = 2.0 * z.half_m;
     let mut chart = map_chart_of(&body, |w, h| equal_about(z.centre, [side, side], w, h, 1.0), frame, SMALL)?;
