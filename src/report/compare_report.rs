@@ -184,8 +184,11 @@ struct OverlayFigure<'a> {
     /// The routes with a zoom, as drawn by the check plot, and the zooms: the panel's index, the
     /// zoom (lettered across all routes) and its shift from the route's frame to the common one.
     panels: Vec<RoutePanel<'a>>,
-    zooms: Vec<(usize, Zoom, [f64; 2])>,
+    zooms: Vec<PlacedZoom>,
 }
+
+/// A zoom of the overlay: its route's panel (an index), the zoom, its shift into the common frame.
+type PlacedZoom = (usize, Zoom, [f64; 2]);
 
 impl Figure for OverlayFigure<'_> {
     fn size_px(&self) -> (u32, u32) {
@@ -226,7 +229,7 @@ fn overlay_figure(c: &Comparison) -> Result<OverlayFigure<'_>, String> {
 /// The zooms of the overlay: every route's own zooms (worked out as for its check plot), the
 /// failing ones first, then by rank, at most [`MAX_ZOOMS`], lettered from A; each with the shift
 /// that takes its window into the common frame (at the predicted step nearest its centre).
-fn overlay_zooms<'a>(c: &'a Comparison, framed: &[FramedRoute]) -> (Vec<RoutePanel<'a>>, Vec<(usize, Zoom, [f64; 2])>) {
+fn overlay_zooms<'a>(c: &'a Comparison, framed: &[FramedRoute]) -> (Vec<RoutePanel<'a>>, Vec<PlacedZoom>) {
     let mut candidates: Vec<(Verdict, usize, usize, Zoom)> = Vec::new();
     let mut panels = Vec::new();
     for r in &c.ranking {
