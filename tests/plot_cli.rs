@@ -138,3 +138,25 @@ fn the_compare_plot_zooms_on_the_failing_alternative() {
     assert!(svg.contains("'direct' A: leg 1 FAIL, from"), "no zoom on the failing alternative");
     assert!(!svg.contains("'ridge' A:") && !svg.contains("'ridge' B:"), "a zoom on the passing alternative");
 }
+
+#[test]
+fn the_html_table_shows_margins_and_the_cross_slope_when_there_is_one() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let (with, without) = (dir.path().join("with.html"), dir.path().join("without.html"));
+    let route = example("hillside-traverse.geojson");
+    let (map, dem) = (example("hillside-map.geojson"), example("hillside-dem.tif"));
+    let o = run(&["check", s(&route), "--terrain-map", s(&map), "--elevation", s(&dem), "--html", s(&with), "-q"]);
+    assert_eq!(o.status.code(), Some(1), "the drift leg fails: {}", text(&o.stderr));
+    // Without the raster the route is level (the map still gives its terrain).
+    let o = run(&["check", s(&route), "--terrain-map", s(&map), "--html", s(&without), "-q"]);
+    assert!(matches!(o.status.code(), Some(0 | 1)), "{}", text(&o.stderr));
+    let with = std::fs::read_to_string(&with).expect("html");
+    let without = std::fs::read_to_string(&without).expect("html");
+    for head in ["<th>traction needs/has</th>", "<th>traction-limited s</th>", "<th>passes up to m/s</th>"] {
+        assert!(with.contains(head) && without.contains(head), "{head} missing");
+    }
+    assert!(with.contains("<th>cross slope %</th>"), "no cross slope column on the raster");
+    assert!(!without.contains("<th>cross slope %</th>"), "a cross slope column without a raster");
+    // The fail on deep snow: 27 % across where 25 % holds (example-routes/README.md).
+    assert!(with.contains("<td class=n>27</td>"), "the 27 % cross slope is not shown");
+}
