@@ -160,3 +160,31 @@ fn the_html_table_shows_margins_and_the_cross_slope_when_there_is_one() {
     // The fail on deep snow: 27 % across where 25 % holds (example-routes/README.md).
     assert!(with.contains("<td class=n>27</td>"), "the 27 % cross slope is not shown");
 }
+
+#[test]
+fn a_long_vehicle_name_wraps_in_the_plot_title_instead_of_running_off() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let demo = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/src/vehicle/demo.toml")).expect("demo");
+    let long = "six-wheel demonstration carrier with the long-range battery pack, winter tracks and the spring trial \
+                calibration from the north yard";
+    let profile = dir.path().join("long.toml");
+    let named: Vec<String> = demo
+        .lines()
+        .map(|l| if l.starts_with("name = ") { format!("name = \"{long}\"") } else { l.to_string() })
+        .collect();
+    assert!(named.iter().any(|l| l.contains(long)), "the demo profile has no name line");
+    let named = named.join("\n");
+    std::fs::write(&profile, named).expect("profile");
+    let svg = dir.path().join("long.svg");
+    let o = run(&["check", s(&example("yard-lap.csv")), "--vehicle", s(&profile), "--plot", s(&svg), "-q"]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
+    let svg = std::fs::read_to_string(&svg).expect("svg").replace("&apos;", "'");
+    // The title's text elements: the first starts with the route, a later one ends the name.
+    let texts: Vec<&str> = svg.split("<text").skip(1).filter_map(|t| t.split('>').nth(1)).collect();
+    let first = texts.iter().position(|t| t.contains("route 'yard-lap': PASS")).expect("title");
+    assert!(!texts[first].contains("north yard"), "the whole title on one line: {}", texts[first]);
+    assert!(
+        texts[first + 1..].iter().any(|t| t.trim_end_matches("</text").trim().ends_with("north yard)")),
+        "name cut"
+    );
+}
