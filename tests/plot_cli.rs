@@ -188,3 +188,35 @@ fn a_long_vehicle_name_wraps_in_the_plot_title_instead_of_running_off() {
         "name cut"
     );
 }
+
+#[test]
+fn rank_numbers_at_a_shared_end_point_do_not_overlap() {
+    // Both alternatives of store-alternatives.geojson end at the same point.
+    let dir = tempfile::tempdir().expect("tempdir");
+    let svg = dir.path().join("overlay.svg");
+    let o = run(&["compare", s(&example("store-alternatives.geojson")), "--plot", s(&svg), "-q"]);
+    assert!(matches!(o.status.code(), Some(0 | 1)), "{}", text(&o.stderr));
+    let svg = std::fs::read_to_string(&svg).expect("svg");
+    // Each text element as (attributes, content); the rank numbers are the texts "1" and "2" in
+    // the largest label font drawn on the map (tick labels are smaller).
+    let attr = |a: &str, name: &str| -> Option<f64> {
+        let rest = a.split(&format!(" {name}=\"")).nth(1)?;
+        rest.split('"').next()?.parse().ok()
+    };
+    let texts: Vec<(f64, f64, f64, String)> = svg
+        .split("<text")
+        .skip(1)
+        .filter_map(|t| {
+            let (a, rest) = t.split_once('>')?;
+            let content = rest.split("</text").next()?.trim().to_string();
+            Some((attr(a, "x")?, attr(a, "y")?, attr(a, "font-size")?, content))
+        })
+        .collect();
+    let rank =
+        |n: &str| texts.iter().filter(|t| t.3 == n).max_by(|a, b| a.2.total_cmp(&b.2)).cloned().expect("rank label");
+    let (one, two) = (rank("1"), rank("2"));
+    // A digit of DejaVu Sans is about 0.64 em wide and 1 em tall (common practice, no source).
+    let (w, h) = (0.64 * one.2, one.2);
+    let apart = (one.0 - two.0).abs() >= w || (one.1 - two.1).abs() >= h;
+    assert!(apart, "rank labels overlap: {one:?} and {two:?}");
+}
