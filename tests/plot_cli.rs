@@ -220,3 +220,51 @@ fn rank_numbers_at_a_shared_end_point_do_not_overlap() {
     let apart = (one.0 - two.0).abs() >= w || (one.1 - two.1).abs() >= h;
     assert!(apart, "rank labels overlap: {one:?} and {two:?}");
 }
+
+#[test]
+fn leg_labels_on_many_short_failing_legs_do_not_overlap() {
+    // 24 legs of 6 m in a zigzag of right-angle-ish corners, deep snow and slush by turns, at
+    // 1.5 m/s: every leg fails, and their labels crowd the top view.
+    let mut csv = String::from("x_m,y_m,z_m,terrain,speed_mps\n");
+    let (mut x, mut y) = (0.0, 0.0);
+    for k in 0..24 {
+        let terrain = if k % 2 == 0 { "deep-snow" } else { "slush" };
+        for _ in 0..3 {
+            csv += &format!("{x:.1},{y:.1},0.0,{terrain},1.5\n");
+            x += 2.0;
+        }
+        y += if k % 2 == 0 { 3.0 } else { -3.0 };
+    }
+    let dir = tempfile::tempdir().expect("tempdir");
+    let route = dir.path().join("short.csv");
+    std::fs::write(&route, csv).expect("route");
+    let svg = dir.path().join("short.svg");
+    let o = run(&["check", s(&route), "--plot", s(&svg), "-q"]);
+    assert_eq!(o.status.code(), Some(1), "{}", text(&o.stderr));
+    let svg = std::fs::read_to_string(&svg).expect("svg");
+    let attr = |a: &str, name: &str| -> Option<f64> {
+        a.split(&format!(" {name}=\"")).nth(1)?.split('"').next()?.parse().ok()
+    };
+    // Boxes of the "leg N FAIL" labels (drawn from their top left corner: text-anchor start,
+    // dy 0.76em). Widths are underestimated at 0.5 em a character, heights at 0.8 em (DejaVu
+    // Sans averages about 0.6 em; common practice, no source), so a reported overlap is real.
+    let boxes: Vec<(f64, f64, f64, f64, String)> = svg
+        .split("<text")
+        .skip(1)
+        .filter_map(|t| {
+            let (a, rest) = t.split_once('>')?;
+            let content = rest.split("</text").next()?.trim();
+            let is_leg =
+                content.starts_with("leg ") && content.ends_with(" FAIL") && a.contains("text-anchor=\"start\"");
+            let (x, y, fs) = (attr(a, "x")?, attr(a, "y")?, attr(a, "font-size")?);
+            is_leg.then(|| (x, y, x + 0.5 * fs * content.len() as f64, y + 0.8 * fs, content.to_string()))
+        })
+        .collect();
+    assert!(boxes.len() >= 10, "only {} leg labels drawn", boxes.len());
+    for (i, a) in boxes.iter().enumerate() {
+        for b in &boxes[i + 1..] {
+            let overlap = a.0 < b.2 && b.0 < a.2 && a.1 < b.3 && b.1 < a.3;
+            assert!(!overlap, "{a:?} overlaps {b:?}");
+        }
+    }
+}
