@@ -213,7 +213,7 @@ fn piped_tables_keep_every_column() {
     for header in ["RMS dev.", "peak", "energy", "corridor", "verdict"] {
         assert!(table.contains(header), "{header} missing: {table}");
     }
-    assert!(widest(&table.split("\n  leg").next().unwrap_or("")) > 60);
+    assert!(widest(table.split("\n  leg").next().unwrap_or("")) > 60);
     assert!(!table.contains("--wide shows all"));
 }
 
