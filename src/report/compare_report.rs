@@ -31,7 +31,7 @@ use super::text::{draw_label, font, titled};
 use super::ReportError;
 use crate::assess::Verdict;
 use crate::check::CheckedRoute;
-use crate::compare::{common_frame, Comparison, FramedRoute, Ranked};
+use crate::compare::{common_frame, Comparison, FramedRoute, RankBy, Ranked};
 use crate::CAUTION;
 
 /// Format tag of the comparison document.
@@ -97,18 +97,24 @@ fn legs_list(legs: &[usize]) -> String {
     }
 }
 
-/// The ranking's columns with their priorities on a narrow terminal (higher stays longer).
-fn ranking_columns() -> Vec<Column<'static, Ranked>> {
+/// The ranking's columns with their priorities on a narrow terminal (higher stays longer); the
+/// measure the routes are ranked by stays with rank, route and verdict.
+fn ranking_columns(by: RankBy) -> Vec<Column<'static, Ranked>> {
+    let ranked = |measure: RankBy, otherwise: u8| if measure == by { 95 } else { otherwise };
     vec![
         Column::new("rank", ALWAYS, |r: &Ranked| Cell::new(r.rank)),
         Column::new("route", ALWAYS, |r: &Ranked| Cell::new(&r.route)).wrap_at(20),
         Column::new("verdict", ALWAYS, |r: &Ranked| Cell::new(r.verdict.name().to_uppercase())),
         Column::new("length\nm", 40, |r: &Ranked| num(r.length_m, 0)),
-        Column::new("time\ns", 50, |r: &Ranked| num(r.time_s, 0)),
-        Column::new("energy\nWh", 60, |r: &Ranked| r.energy_wh.map_or_else(|| Cell::new("-"), |e| num(e, 1))),
-        Column::new("max dev.\nm", 55, |r: &Ranked| num(r.max_deviation_m, 2)),
+        Column::new("time\ns", ranked(RankBy::Time, 50), |r: &Ranked| num(r.time_s, 0)),
+        Column::new("energy\nWh", ranked(RankBy::Energy, 60), |r: &Ranked| {
+            r.energy_wh.map_or_else(|| Cell::new("-"), |e| num(e, 1))
+        }),
+        Column::new("max dev.\nm", ranked(RankBy::Deviation, 55), |r: &Ranked| num(r.max_deviation_m, 2)),
         Column::new("failing\nlegs", 70, |r: &Ranked| Cell::new(legs_list(&r.failing_legs))),
-        Column::new("drift CEP95\nm", 15, |r: &Ranked| r.drift_cep95_m.map_or_else(|| Cell::new("-"), |d| num(d, 2))),
+        Column::new("drift CEP95\nm", ranked(RankBy::Drift, 15), |r: &Ranked| {
+            r.drift_cep95_m.map_or_else(|| Cell::new("-"), |d| num(d, 2))
+        }),
         Column::new("source", 20, |r: &Ranked| Cell::new(crate::limits::printable(&r.source))).wrap_at(30),
     ]
 }
@@ -136,7 +142,7 @@ pub fn compare_table(c: &Comparison, opts: &TableOptions) -> String {
     if opts.strict {
         let _ = writeln!(out, "--strict: a CAUTION counts as a failure (exit code 1 unless an alternative passes)");
     }
-    let fitted = fitted_table(&ranking_columns(), &c.ranking, opts.max_width, |_| {});
+    let fitted = fitted_table(&ranking_columns(c.by), &c.ranking, opts.max_width, |_| {});
     let t = &fitted.table;
     let _ = writeln!(out, "{t}");
     if !fitted.hidden.is_empty() {

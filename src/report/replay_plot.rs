@@ -56,7 +56,7 @@ where
         Some(false) => "holds",
         None => "unknown",
     };
-    let median = t.translation_rel.map_or("n/a".to_string(), |s| format!("{:.1} %", 100.0 * s.median));
+    let median = t.validation.translation_rel.map_or("n/a".to_string(), |s| format!("{:.1} %", 100.0 * s.median));
     let title = format!("{}: {} replayed, median translation error {median}, {verdict}", t.terrain, t.model);
     let body = titled(area, &title, 20)?;
     let panels = body.split_evenly((1, 2));
