@@ -28,7 +28,7 @@ impl Cdr {
         Cdr(vec![0x00, 0x01, 0x00, 0x00])
     }
     fn align(&mut self, n: usize) {
-        while (self.0.len() - 4) % n != 0 {
+        while !(self.0.len() - 4).is_multiple_of(n) {
             self.0.push(0);
         }
     }

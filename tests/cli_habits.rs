@@ -213,7 +213,7 @@ fn piped_tables_keep_every_column() {
     for header in ["RMS dev.", "peak", "energy", "corridor", "verdict"] {
         assert!(table.contains(header), "{header} missing: {table}");
     }
-    assert!(widest(&table.split("\n  leg").next().unwrap_or("")) > 60);
+    assert!(widest(table.split("\n  leg").next().unwrap_or("")) > 60);
     assert!(!table.contains("--wide shows all"));
 }
 
@@ -275,4 +275,25 @@ fn json_lines_of_a_large_folder_are_streamed_in_input_order() {
     assert!(lines.lines().nth(71).is_some_and(|l| l.contains("r071")));
     assert_eq!(lines, text(&held.stdout));
     assert!(lines.contains("\"verdict\":\"fail\"") && lines.contains("\"verdict\":\"pass\""));
+}
+
+/// On a narrow terminal the measure `compare` ranks by stays in the table, whatever its place
+/// among the other columns (runs under `script`, skipped where it is not installed).
+#[test]
+fn compare_keeps_the_ranked_measure_on_a_narrow_terminal() {
+    if !Path::new("/usr/bin/script").exists() {
+        eprintln!("skipping: /usr/bin/script (util-linux) is not installed");
+        return;
+    }
+    let bin_path = env!("CARGO_BIN_EXE_skidroute");
+    let route = example("store-alternatives.geojson");
+    for (by, header) in [("drift", "drift CEP95"), ("deviation", "max dev."), ("energy", "energy")] {
+        let cmd = format!("COLUMNS=50 NO_COLOR=1 '{bin_path}' compare --by {by} '{}'", s(&route));
+        let out =
+            std::process::Command::new("/usr/bin/script").args(["-qec", &cmd, "/dev/null"]).output().expect("script");
+        let shown = text(&out.stdout).replace('\r', "");
+        let table: Vec<&str> = shown.lines().filter(|l| l.starts_with(['┌', '│', '╞', '├', '└', '╭'])).collect();
+        assert!(shown.contains("left out to fit the terminal"), "{shown}");
+        assert!(table.iter().any(|l| l.contains(header)), "--by {by}: {shown}");
+    }
 }

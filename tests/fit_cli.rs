@@ -201,3 +201,22 @@ fn logs_with_real_defects_are_checked_and_dead_encoders_refused() {
     );
     assert!(!dir.path().join("x.toml").exists());
 }
+
+#[test]
+fn the_fit_plot_with_a_sweep_never_labels_a_tick_minus_zero() {
+    let dir = tempfile::tempdir().unwrap();
+    write(dir.path(), "grass.csv", &format!("{HEADER}{}", rows("grass", 0.0, 240.0, 1)));
+    let o =
+        run(dir.path(), &["fit", "grass.csv", "--out", "out.toml", "--plot", "fit.svg", "--sweep", "1,2,4", "--quiet"]);
+    let (out, err) = text(&o);
+    assert_eq!(o.status.code(), Some(0), "{out}\n{err}");
+    let svg = std::fs::read_to_string(dir.path().join("fit.svg")).unwrap();
+    assert!(svg.contains("horizon sweep"), "no sweep panel");
+    let texts: Vec<&str> =
+        svg.split("<text").skip(1).filter_map(|t| t.split_once('>')?.1.split("</text").next()).map(str::trim).collect();
+    assert!(texts.iter().any(|t| *t == "0.0" || *t == "0"), "no zero tick at all: the check would prove nothing");
+    for t in &texts {
+        let minus_zero = t.strip_prefix('-').is_some_and(|n| !n.is_empty() && n.chars().all(|c| c == '0' || c == '.'));
+        assert!(!minus_zero, "a tick reads {t:?}");
+    }
+}

@@ -81,8 +81,8 @@ fn relax_refuses_to_overwrite_its_input_or_change_format() {
 }
 
 /// The direct route of the example file has two corners far enough apart for a fillet each;
-/// each change reports its own displacement. The first is a sharp 60 deg vertex: r (1/cos(theta/2)
-/// - 1) from the vertex to the arc (plane geometry). The second was already rounded a little
+/// each change reports its own displacement. The first is a sharp 60 deg vertex:
+/// r (1/cos(theta/2) - 1) from the vertex to the arc (plane geometry). The second was already rounded a little
 /// (its old radius), so the plan moves less than from a sharp vertex, and at least what two
 /// concentric-bisector arcs of radius r and r_old are apart, (r - r_old) (1/cos(theta/2) - 1).
 #[test]

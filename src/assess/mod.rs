@@ -3,7 +3,7 @@
 //! there and the slope of the turn, climbs, descents and cross slopes against traction and the
 //! tipping limit (`slopes.rs`), the predicted deviation against the corridor where it happens,
 //! time and effort, the margins to failure, and a verdict with reasons in plain words (every
-//! reason through one function, `add`).
+//! reason through one function, `add_at`, which also records what the reason is about and where).
 //!
 //! Units: metres, seconds, 1/m; deviations are distances to the plan near the progress point.
 
@@ -109,6 +109,45 @@ pub struct LegReport {
     /// carry reasons for a caution).
     #[serde(skip)]
     pub reason_verdicts: Vec<Verdict>,
+    /// What each reason is about and where, in the order of `reasons` (for marking them on plots).
+    #[serde(skip)]
+    pub reason_spots: Vec<ReasonSpot>,
+}
+
+/// What a reason of a leg is about.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum ReasonAbout {
+    /// A turn of the plan beyond (or near) what the vehicle can drive.
+    Turn,
+    /// The peak of the predicted deviation.
+    Deviation,
+    /// The planned speed (the whole leg).
+    Speed,
+    /// Where the simulation stopped (stalled, circling, out of budget).
+    Stop,
+    /// The steepest climb.
+    Climb,
+    /// The steepest descent.
+    Descent,
+    /// A speed change beyond traction or the thrust rating.
+    SpeedChange,
+    /// The power rating.
+    Power,
+    /// A simulated turn widened by traction.
+    TurnTraction,
+    /// Lateral acceleration.
+    Lateral,
+    /// Slope across the direction of travel.
+    CrossSlope,
+    /// Anything else (no position).
+    Other,
+}
+
+/// Where a reason applies: what it is about and its distance along the route, when it has one.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ReasonSpot {
+    pub about: ReasonAbout,
+    pub at_m: Option<f64>,
 }
 
 /// The assessment of one route.
@@ -265,13 +304,15 @@ struct LegEffort {
     peak_thrust_at_m: f64,
     peak_thrust_limit_n: f64,
     peak_power_w: f64,
+    peak_power_at_m: f64,
     /// Time bound by traction or a rating, and time widened by traction in a turn (and where
     /// that first happened).
     limited_s: f64,
     turn_limited_s: f64,
     turn_limited_from_m: Option<f64>,
-    /// Time the drive was slowed by its power rating.
+    /// Time the drive was slowed by its power rating, and where that first happened.
     power_limited_s: f64,
+    power_limited_from_m: Option<f64>,
     /// Largest lateral acceleration |vx omega| against its caution threshold (as a share of
     /// it), the acceleration and where.
     peak_lateral_share: f64,
@@ -293,7 +334,9 @@ fn leg_effort(drive: &RouteDrive, steps: &[Step]) -> LegEffort {
             let (left, right) = side_thrust_limits_n(&drive.vehicle, &ground, Slope::new(f.grade_rad, f.cross_slope));
             e.peak_thrust_limit_n = if f.left_thrust_n.abs() >= f.right_thrust_n.abs() { left } else { right };
         }
-        e.peak_power_w = e.peak_power_w.max(f.drawn_power_w);
+        if f.drawn_power_w > e.peak_power_w {
+            (e.peak_power_w, e.peak_power_at_m) = (f.drawn_power_w, s.progress_m);
+        }
         if s.traction_limited() {
             e.limited_s += dt;
         }
@@ -302,7 +345,10 @@ fn leg_effort(drive: &RouteDrive, steps: &[Step]) -> LegEffort {
                 e.turn_limited_s += dt;
                 e.turn_limited_from_m.get_or_insert(s.progress_m);
             }
-            StepLimit::Power => e.power_limited_s += dt,
+            StepLimit::Power => {
+                e.power_limited_s += dt;
+                e.power_limited_from_m.get_or_insert(s.progress_m);
+            }
             _ => {}
         }
         // Lateral acceleration as a share of its caution threshold on the ground there.
@@ -378,6 +424,7 @@ pub(crate) fn assess_leg(
         verdict: Verdict::Pass,
         reasons: Vec::new(),
         reason_verdicts: Vec::new(),
+        reason_spots: Vec::new(),
     };
     judge_turns(&mut leg, &turns, drive);
     let corridor_varies = route.legs.get(i).is_some_and(|l| l.corridors_m.is_some());
@@ -390,12 +437,14 @@ pub(crate) fn assess_leg(
 /// Most failing turns spelled out in the reasons of one leg; the JSON lists them all.
 pub const MAX_TURN_REASONS: usize = 10;
 
-/// Adds a verdict and its reason; every reason goes through here so that `reason_verdicts`
-/// stays in step with `reasons`.
-fn add(leg: &mut LegReport, v: Verdict, why: String) {
+/// Adds a verdict and its reason, what it is about and where (metres along the route); every
+/// reason goes through here so that `reason_verdicts` and `reason_spots` stay in step with
+/// `reasons`.
+fn add_at(leg: &mut LegReport, v: Verdict, why: String, about: ReasonAbout, at_m: Option<f64>) {
     leg.verdict = leg.verdict.max(v);
     leg.reasons.push(why);
     leg.reason_verdicts.push(v);
+    leg.reason_spots.push(ReasonSpot { about, at_m: at_m.filter(|x| x.is_finite()) });
 }
 
 /// The turn rules (docs/method.md, Verdicts): a turn the vehicle cannot drive at the speed planned
@@ -406,15 +455,12 @@ fn judge_turns(leg: &mut LegReport, turns: &TurnCheck, drive: &RouteDrive) {
     let (speed, terrain) = (turns.worst_speed_mps, leg.terrain.clone());
     let n = turns.failing.len();
     for t in turns.failing.iter().take(MAX_TURN_REASONS) {
-        add(leg, Verdict::Fail, t.reason(&terrain, scale_m));
+        add_at(leg, Verdict::Fail, t.reason(&terrain, scale_m), ReasonAbout::Turn, Some(t.at_m));
     }
     if n > MAX_TURN_REASONS {
         let more = n - MAX_TURN_REASONS;
-        add(
-            leg,
-            Verdict::Fail,
-            format!("and {more} more failing turns (all are listed in the JSON report's failing_turns)"),
-        );
+        let why = format!("and {more} more failing turns (all are listed in the JSON report's failing_turns)");
+        add_at(leg, Verdict::Fail, why, ReasonAbout::Turn, None);
     }
     let ach = turns.achievable.curvature_per_m();
     if n == 0 && turns.worst_ratio > CAUTION_CURVATURE_SHARE {
@@ -427,17 +473,14 @@ fn judge_turns(leg: &mut LegReport, turns: &TurnCheck, drive: &RouteDrive) {
                 "none (it cannot turn at all)".to_string()
             }
         };
-        add(
-            leg,
-            Verdict::Caution,
-            format!(
-                "turn radius {} ({:.0} m along the route) uses {:.0} % of what {terrain} allows at {speed:.1} m/s (tightest {})",
-                radius(turns.worst_per_m),
-                turns.worst_at_m,
-                100.0 * turns.worst_ratio,
-                radius(ach)
-            ),
+        let why = format!(
+            "turn radius {} ({:.0} m along the route) uses {:.0} % of what {terrain} allows at {speed:.1} m/s (tightest {})",
+            radius(turns.worst_per_m),
+            turns.worst_at_m,
+            100.0 * turns.worst_ratio,
+            radius(ach)
         );
+        add_at(leg, Verdict::Caution, why, ReasonAbout::Turn, Some(turns.worst_at_m));
     }
 }
 
@@ -453,20 +496,20 @@ fn judge_motion(leg: &mut LegReport, drive: &RouteDrive, trace: &Trace, i: usize
             "predicted deviation {:.2} m{at} leaves the {:.2} m corridor{there}",
             dev.worst_m, dev.worst_corridor_m
         );
-        add(leg, Verdict::Fail, why);
+        add_at(leg, Verdict::Fail, why, ReasonAbout::Deviation, Some(dev.worst_at_m));
     } else if dev.worst_share > CAUTION_CORRIDOR_SHARE {
         let why = format!(
             "predicted deviation {:.2} m{at} is over half the {:.2} m corridor{there}",
             dev.worst_m, dev.worst_corridor_m
         );
-        add(leg, Verdict::Caution, why);
+        add_at(leg, Verdict::Caution, why, ReasonAbout::Deviation, Some(dev.worst_at_m));
     }
     if leg.speed_mps > drive.limits.max_side_speed_mps {
         let why = format!(
             "planned speed {:.1} m/s is above the top side speed {:.1} m/s; the prediction drives slower",
             leg.speed_mps, drive.limits.max_side_speed_mps
         );
-        add(leg, Verdict::Caution, why);
+        add_at(leg, Verdict::Caution, why, ReasonAbout::Speed, None);
     }
     let (start_m, end_m) = drive.plan.leg_bounds_m(i);
     let here = |p: f64| p < end_m && p >= start_m;
@@ -475,15 +518,16 @@ fn judge_motion(leg: &mut LegReport, drive: &RouteDrive, trace: &Trace, i: usize
         Outcome::StepBudget { max_steps, progress_m } => {
             if progress_m < end_m {
                 let why = format!("the simulation stopped at its budget of {max_steps} control steps, {progress_m:.0} m along the route");
-                add(leg, Verdict::Fail, why);
+                add_at(leg, Verdict::Fail, why, ReasonAbout::Stop, here(progress_m).then_some(progress_m));
             }
         }
         Outcome::TimedOut { limit_s, progress_m } => {
             if here(progress_m) {
                 let why = format!("the vehicle did not get past {progress_m:.0} m along the route within {limit_s:.0} s (stalled or circling)");
-                add(leg, Verdict::Fail, why);
+                add_at(leg, Verdict::Fail, why, ReasonAbout::Stop, Some(progress_m));
             } else if progress_m < start_m {
-                add(leg, Verdict::Fail, "the vehicle never reached this leg (stalled or circling earlier)".to_string());
+                let why = "the vehicle never reached this leg (stalled or circling earlier)".to_string();
+                add_at(leg, Verdict::Fail, why, ReasonAbout::Stop, None);
             }
         }
         Outcome::Stalled { progress_m, grade_rad } => {
@@ -492,13 +536,10 @@ fn judge_motion(leg: &mut LegReport, drive: &RouteDrive, trace: &Trace, i: usize
                     "cannot climb: the simulated vehicle stalls {progress_m:.0} m along the route on the {:.0} % grade; the prediction ends there",
                     100.0 * grade_rad.tan()
                 );
-                add(leg, Verdict::Fail, why);
+                add_at(leg, Verdict::Fail, why, ReasonAbout::Climb, Some(progress_m));
             } else if progress_m < start_m {
-                add(
-                    leg,
-                    Verdict::Fail,
-                    "the vehicle never reached this leg (it stalled on a climb earlier)".to_string(),
-                );
+                let why = "the vehicle never reached this leg (it stalled on a climb earlier)".to_string();
+                add_at(leg, Verdict::Fail, why, ReasonAbout::Stop, None);
             }
         }
     }
@@ -519,20 +560,20 @@ fn judge_effort(leg: &mut LegReport, e: &LegEffort, plan: &LegPlan, drive: &Rout
             "changing speed needs up to {:.0} N per side ({:.0} m along the route; driving or braking); {gives}, so the vehicle will speed up or slow down more gently than planned",
             e.peak_thrust_n, e.peak_thrust_at_m
         );
-        add(leg, Verdict::Caution, why);
+        add_at(leg, Verdict::Caution, why, ReasonAbout::SpeedChange, Some(e.peak_thrust_at_m));
     }
     if e.power_limited_s > 0.0 {
         let why = format!(
             "the {:.0} W power rating slows the vehicle for {:.0} s on this leg (a climb or turn at this speed needs more)",
             veh.max_power_w, e.power_limited_s
         );
-        add(leg, Verdict::Caution, why);
+        add_at(leg, Verdict::Caution, why, ReasonAbout::Power, e.power_limited_from_m);
     } else if e.peak_power_w > veh.max_power_w {
         let why = format!(
             "accelerating draws up to {:.0} W, above the {:.0} W rating; acceleration will be slower",
             e.peak_power_w, veh.max_power_w
         );
-        add(leg, Verdict::Caution, why);
+        add_at(leg, Verdict::Caution, why, ReasonAbout::Power, Some(e.peak_power_at_m));
     }
     if leg.failing_turns.is_empty() && e.turn_limited_s > 0.0 {
         let why = format!(
@@ -540,7 +581,8 @@ fn judge_effort(leg: &mut LegReport, e: &LegEffort, plan: &LegPlan, drive: &Rout
             e.turn_limited_s,
             e.turn_limited_from_m.unwrap_or(plan.tightest_at_m)
         );
-        add(leg, Verdict::Caution, why);
+        let at_m = Some(e.turn_limited_from_m.unwrap_or(plan.tightest_at_m));
+        add_at(leg, Verdict::Caution, why, ReasonAbout::TurnTraction, at_m);
     }
     if e.peak_lateral_share > 1.0 {
         let mu = drive.ground_at(e.peak_lateral_at_m).traction_coefficient;
@@ -550,7 +592,7 @@ fn judge_effort(leg: &mut LegReport, e: &LegEffort, plan: &LegPlan, drive: &Rout
             e.peak_lateral_at_m,
             LATERAL_ACCEL_CAUTION_SHARE * mu * STANDARD_GRAVITY_MPS2
         );
-        add(leg, Verdict::Caution, why);
+        add_at(leg, Verdict::Caution, why, ReasonAbout::Lateral, Some(e.peak_lateral_at_m));
     }
 }
 

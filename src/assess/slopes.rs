@@ -13,7 +13,7 @@ use crate::effort::{EffortVehicle, Ground, Slope};
 use crate::rollout::RouteDrive;
 use crate::turn_limit::{cross_slope_limit, SideLimit, CROSS_SLOPE_CAUTION_SHARE};
 
-use super::{add, LegPlan, LegReport, Verdict};
+use super::{add_at, LegPlan, LegReport, ReasonAbout, Verdict};
 
 /// What one side needs to hold the vehicle's way on a slope (steady, driving straight), against
 /// its limit.
@@ -181,7 +181,7 @@ pub(super) fn judge_slopes(leg: &mut LegReport, plan: &LegPlan, drive: &RouteDri
             per_side(&n),
             gives(&n)
         );
-        add(leg, Verdict::Fail, why);
+        add_at(leg, Verdict::Fail, why, ReasonAbout::Climb, Some(n.at_m));
     }
     if let Some(n) = plan.slopes.hold.filter(|n| n.share() > 1.0) {
         let why = format!(
@@ -192,7 +192,7 @@ pub(super) fn judge_slopes(leg: &mut LegReport, plan: &LegPlan, drive: &RouteDri
             per_side(&n),
             gives(&n)
         );
-        add(leg, Verdict::Fail, why);
+        add_at(leg, Verdict::Fail, why, ReasonAbout::Descent, Some(n.at_m));
     }
     if let Some(c) = plan.slopes.cross {
         judge_cross_slope(leg, &c, veh, &terrain);
@@ -223,13 +223,13 @@ fn judge_cross_slope(leg: &mut LegReport, c: &CrossNeed, veh: &EffortVehicle, te
                 format!("cross slope {pct:.0} % at {at:.0} m along the route: the vehicle tips over; {}", tipping())
             }
         };
-        add(leg, Verdict::Fail, why);
+        add_at(leg, Verdict::Fail, why, ReasonAbout::CrossSlope, Some(c.at_m));
     } else if share > CROSS_SLOPE_CAUTION_SHARE {
         let what = match c.limited_by {
             SideLimit::Grip => format!("the {limit_pct:.0} % {terrain} holds before the vehicle slides sideways"),
             SideLimit::Tipping => format!("the {limit_pct:.0} % at which the vehicle tips over (B / 2h)"),
         };
         let why = format!("cross slope {pct:.0} % at {at:.0} m along the route uses {:.0} % of {what}", 100.0 * share);
-        add(leg, Verdict::Caution, why);
+        add_at(leg, Verdict::Caution, why, ReasonAbout::CrossSlope, Some(c.at_m));
     }
 }

@@ -113,6 +113,14 @@ fn every_failing_sharp_corner_is_listed_with_its_position_and_points_at_relax() 
         corner_reasons[0].contains("(20 m along the route)") && corner_reasons[1].contains("(40 m along the route)")
     );
     assert_eq!(l.max_passing_speed_mps, None, "traction-bound corners fail at any speed");
+    // Each corner's reason is marked at the corner (20 m and 40 m along the route, from the
+    // geometry above) as a turn.
+    assert_eq!(l.reason_spots.len(), l.reasons.len(), "one spot per reason");
+    let turns: Vec<f64> =
+        l.reason_spots.iter().filter(|s| s.about == super::ReasonAbout::Turn).filter_map(|s| s.at_m).collect();
+    assert_eq!(turns.len(), 2, "{:?}", l.reason_spots);
+    assert_relative_eq!(turns[0], 20.0, epsilon = 1e-9);
+    assert_relative_eq!(turns[1], 40.0, epsilon = 1e-9);
 }
 
 #[test]
@@ -135,6 +143,11 @@ fn deviation_beyond_the_corridor_fails_and_beyond_half_of_it_earns_a_caution() {
     let caution = at(1.5 * steady);
     assert_eq!(caution.report.legs[0].verdict, Verdict::Caution, "{:?}", caution.report.legs[0].reasons);
     assert!(caution.report.legs[0].reasons.iter().any(|r| r.contains("over half the")));
+    // The deviation reason is marked where the trace reaches its largest deviation on the leg.
+    let peak =
+        fail.trace.steps.iter().fold(&fail.trace.steps[0], |m, s| if s.deviation_m > m.deviation_m { s } else { m });
+    let spot = l.reason_spots.iter().find(|s| s.about == super::ReasonAbout::Deviation).expect("a deviation spot");
+    assert_relative_eq!(spot.at_m.expect("a position"), peak.progress_m, epsilon = 1e-9);
     let pass = at(4.0 * steady);
     assert_eq!(pass.report.legs[0].verdict, Verdict::Pass, "{:?}", pass.report.legs[0].reasons);
 }
@@ -164,6 +177,11 @@ fn a_climb_beyond_traction_fails_and_a_gentle_one_passes() {
         l.reasons
     );
     assert_relative_eq!(l.traction_coefficient_needed, 0.45, max_relative = 1e-9);
+    // The climb's reason is marked on the graded part, from 10 m to 40 m along the route; the
+    // grade is read over the 1.1 m contact length, so its first reading may start that much
+    // before 10 m.
+    let climb = l.reason_spots.iter().find(|s| s.about == super::ReasonAbout::Climb).expect("a climb spot");
+    assert!(climb.at_m.is_some_and(|x| (10.0 - 1.1..=40.0).contains(&x)), "{climb:?}");
     // 5 %: 0.15 + 0.05 = 0.2 < 0.25.
     let gentle = check_route(graded("deep-snow", 0.05), &profile());
     assert!(gentle.report.legs[0].reasons.iter().all(|r| !r.contains("climb")), "{:?}", gentle.report.legs[0].reasons);

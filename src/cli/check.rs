@@ -37,6 +37,11 @@ pub struct CheckArgs {
     /// Write the simulated trace (CSV, local frame).
     #[arg(long, value_name = "FILE")]
     pub trace: Option<PathBuf>,
+    /// Write every N-th control step to --trace (each leg's first and last step and every change
+    /// of traction_limited are always written).
+    #[arg(long, value_name = "N", default_value_t = 1, requires = "trace",
+          value_parser = clap::value_parser!(u64).range(1..))]
+    pub trace_every: u64,
     /// Write the predicted path as GeoJSON (GeoJSON routes only).
     #[arg(long, value_name = "FILE")]
     pub predicted: Option<PathBuf>,
@@ -79,7 +84,13 @@ pub struct CheckArgs {
 
 pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
     let CommonArgs { vehicle, json, report: report_json, plot, quiet } = a.common;
-    let outputs = CheckOutputs { report_json, trace_csv: a.trace, predicted_geojson: a.predicted, plot };
+    let outputs = CheckOutputs {
+        report_json,
+        trace_csv: a.trace,
+        trace_every: usize::try_from(a.trace_every).unwrap_or(usize::MAX),
+        predicted_geojson: a.predicted,
+        plot,
+    };
     let files = skidroute::batch::expand_inputs(&a.routes)?;
     let inputs: Vec<PathBuf> = files.iter().chain(vehicle.iter()).chain(a.site.inputs()).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, outputs.paths().chain(a.html.iter()))?;

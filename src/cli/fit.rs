@@ -20,15 +20,10 @@ use super::{emit, load_profile};
     mut_arg("plot", |a| a.help("Write a plot of the fit (.svg or .png)")),
 )]
 pub struct FitArgs {
-    /// Drive logs (CSV: t_s,left_mps,right_mps,x_m,y_m,yaw_rad,terrain; lat_deg,lon_deg may replace x_m,y_m),
-    /// or ROS 2 recordings (.mcap) read through --recording-map.
-    #[arg(required = true)]
-    pub logs: Vec<PathBuf>,
+    #[command(flatten)]
+    pub inputs: super::logs::LogInputArgs,
     #[command(flatten)]
     pub common: CommonArgs,
-    /// Recording map (TOML): which topics of the ROS 2 recordings hold side speeds, poses and terrain.
-    #[arg(long, value_name = "MAP")]
-    pub recording_map: Option<PathBuf>,
     /// Where to write the calibrated profile (TOML).
     #[arg(short, long, value_name = "FILE")]
     pub out: PathBuf,
@@ -56,10 +51,11 @@ pub fn run_fit(a: FitArgs) -> Result<ExitCode> {
     }
     let outputs = FitOutputs { profile: a.out.clone(), plot };
     let limits = a.limits.resolve()?;
-    let map = super::logs::recording_map(a.recording_map.as_ref(), a.logs.iter().chain(&a.validate), &limits)?;
+    let map =
+        super::logs::recording_map(a.inputs.recording_map.as_ref(), a.inputs.logs.iter().chain(&a.validate), &limits)?;
     let map_files = super::logs::map_files(map.as_ref());
     let inputs: Vec<PathBuf> =
-        a.logs.iter().chain(&a.validate).chain(vehicle.iter()).chain(&map_files).cloned().collect();
+        a.inputs.logs.iter().chain(&a.validate).chain(vehicle.iter()).chain(&map_files).cloned().collect();
     let output_paths: Vec<&PathBuf> =
         [&outputs.profile].into_iter().chain(outputs.plot.iter()).chain(report_json.iter()).collect();
     report::refuse_overwriting_inputs(&inputs, output_paths.iter().copied())?;
@@ -70,7 +66,7 @@ pub fn run_fit(a: FitArgs) -> Result<ExitCode> {
         None => "built-in demo profile".to_string(),
     };
     let width_m = base.vehicle.track_width_m;
-    let logs = super::logs::load_drive_logs(&a.logs, map.as_ref(), width_m, &limits, quiet || json)?;
+    let logs = super::logs::load_drive_logs(&a.inputs.logs, map.as_ref(), width_m, &limits, quiet || json)?;
     let validation = super::logs::load_drive_logs(&a.validate, map.as_ref(), width_m, &limits, quiet || json)?;
     let bar = Bar::new(quiet || json);
     let run = fit_logs(&logs, &validation, &base, &base_name, demo, &settings, &bar)?;

@@ -5,11 +5,24 @@
 use std::path::PathBuf;
 
 use anyhow::Result;
+use clap::Args;
 use skidroute::fit::log::DriveLog;
 use skidroute::limits::Limits;
 use skidroute::recording::{is_recording, read_drive_log, RecordingError, RecordingMap};
 
 use super::progress::Bar;
+
+/// The log inputs `fit` and `replay` share: drive logs or recordings, and the map for recordings.
+#[derive(Args)]
+pub struct LogInputArgs {
+    /// Drive logs (CSV: t_s,left_mps,right_mps,x_m,y_m,yaw_rad,terrain; lat_deg,lon_deg may replace x_m,y_m),
+    /// or ROS 2 recordings (.mcap) read through --recording-map.
+    #[arg(required = true)]
+    pub logs: Vec<PathBuf>,
+    /// Recording map (TOML): which topics of the ROS 2 recordings hold side speeds, poses and terrain.
+    #[arg(long, value_name = "MAP")]
+    pub recording_map: Option<PathBuf>,
+}
 
 /// The map of `--recording-map`, read once for the run. Without one, a recording among `logs`
 /// is refused here, before any log or profile is read.

@@ -19,15 +19,10 @@ use super::{emit, load_profile};
     mut_arg("plot", |a| a.help("Write a plot of replayed against logged paths (.svg or .png)")),
 )]
 pub struct ReplayArgs {
-    /// Drive logs (CSV: t_s,left_mps,right_mps,x_m,y_m,yaw_rad,terrain; lat_deg,lon_deg may replace x_m,y_m),
-    /// or ROS 2 recordings (.mcap) read through --recording-map.
-    #[arg(required = true)]
-    pub logs: Vec<PathBuf>,
+    #[command(flatten)]
+    pub inputs: super::logs::LogInputArgs,
     #[command(flatten)]
     pub common: CommonArgs,
-    /// Recording map (TOML): which topics of the ROS 2 recordings hold side speeds, poses and terrain.
-    #[arg(long, value_name = "MAP")]
-    pub recording_map: Option<PathBuf>,
     /// Window horizon, seconds; default: each terrain's calibration_horizon_s, else 2.
     #[arg(long, value_name = "SECONDS")]
     pub horizon_s: Option<f64>,
@@ -38,17 +33,22 @@ pub struct ReplayArgs {
 pub fn run_replay(a: ReplayArgs) -> Result<ExitCode> {
     let CommonArgs { vehicle, json, report: report_json, plot, quiet } = a.common;
     let limits = a.limits.resolve()?;
-    let map = super::logs::recording_map(a.recording_map.as_ref(), a.logs.iter(), &limits)?;
+    let map = super::logs::recording_map(a.inputs.recording_map.as_ref(), a.inputs.logs.iter(), &limits)?;
     let map_files = super::logs::map_files(map.as_ref());
     let outputs: Vec<&PathBuf> = report_json.iter().chain(plot.iter()).collect();
-    let inputs: Vec<PathBuf> = a.logs.iter().chain(vehicle.iter()).chain(&map_files).cloned().collect();
+    let inputs: Vec<PathBuf> = a.inputs.logs.iter().chain(vehicle.iter()).chain(&map_files).cloned().collect();
     report::refuse_overwriting_inputs(&inputs, outputs.iter().copied())?;
     check_outputs(plot.as_ref(), report_json.iter())?;
     let (profile, _) = load_profile(&vehicle, &limits)?;
     let profile_name =
         vehicle.as_ref().map_or_else(|| "built-in demo profile".to_string(), |p| p.display().to_string());
-    let logs =
-        super::logs::load_drive_logs(&a.logs, map.as_ref(), profile.vehicle.track_width_m, &limits, quiet || json)?;
+    let logs = super::logs::load_drive_logs(
+        &a.inputs.logs,
+        map.as_ref(),
+        profile.vehicle.track_width_m,
+        &limits,
+        quiet || json,
+    )?;
     let run = replay_logs(&logs, &profile, &profile_name, a.horizon_s)?;
     if let Some(p) = &report_json {
         report::write_atomic(p, replay_report::replay_json(&run).as_bytes())?;

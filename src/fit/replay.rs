@@ -23,8 +23,7 @@ use serde::Serialize;
 use super::bootstrap::{resample_medians, Interval};
 use super::hygiene::{check_logs, LogCheck};
 use super::log::DriveLog;
-use super::stats::Spread;
-use super::validate::{summarise, WindowError};
+use super::validate::{summarise, Validation, WindowError};
 use super::windows::{build_series, cut_windows, Series, Window};
 use super::{check_terrains, FitError, InputSummary, MIN_VALIDATION_WINDOWS};
 use crate::kinematics::{Model, MotionModel, Pose};
@@ -47,18 +46,9 @@ pub struct TerrainReplay {
     /// The profile's model family on this terrain.
     pub model: String,
     pub horizon_s: f64,
-    /// Moving windows replayed.
-    pub windows: usize,
-    /// Windows long enough (0.5 m) for the translation error.
-    pub translation_windows: usize,
-    /// Blocks of moving time the windows come from (bootstrap units).
-    pub blocks: usize,
-    /// Relative translation error (fraction).
-    pub translation_rel: Option<Spread>,
-    /// 95 % block-bootstrap interval of the median translation error.
-    pub translation_interval95: Option<Interval>,
-    /// Absolute yaw error, degrees.
-    pub yaw_deg: Option<Spread>,
+    /// Moving windows replayed, their blocks, and the errors (the same summary `fit` validates with).
+    #[serde(flatten)]
+    pub validation: Validation,
     /// The profile's `calibration_translation_error` for this terrain.
     pub calibration_translation_error: Option<f64>,
     /// True when the terrain's model no longer holds (rule in the module text); `None`: cannot tell.
@@ -200,12 +190,11 @@ fn replay_terrain(s: &Series, model: &Model, horizon_s: f64, calibration_error: 
         terrain: s.terrain.clone(),
         model: model.family().name().to_string(),
         horizon_s,
-        windows: validation.windows,
-        translation_windows: validation.translation_windows,
-        blocks: resampled.as_ref().map_or(0, |r| r.blocks),
-        translation_rel: validation.translation_rel,
-        translation_interval95: interval,
-        yaw_deg: validation.yaw_deg,
+        validation: Validation {
+            blocks: resampled.as_ref().map_or(0, |r| r.blocks),
+            translation_interval95: interval,
+            ..validation
+        },
         calibration_translation_error: calibration_error,
         changed,
         finding,
@@ -301,7 +290,7 @@ mod tests {
         let run = replay_logs(std::slice::from_ref(&l), &profile(a, chi, Some(0.02)), "p.toml", None).expect("replay");
         let t = &run.terrains[0];
         assert_eq!((t.terrain.as_str(), t.model.as_str()), ("grass", Family::ExtendedSymmetric.name()));
-        assert!(t.translation_rel.expect("errors").median < 0.01, "{:?}", t.translation_rel);
+        assert!(t.validation.translation_rel.expect("errors").median < 0.01, "{:?}", t.validation.translation_rel);
         assert_eq!(t.changed, Some(false), "{}", t.finding);
         assert!(!run.any_changed());
         assert!(run.not_in_logs.contains(&"asphalt".to_string()));

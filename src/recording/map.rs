@@ -346,6 +346,19 @@ impl<'a> Section<'a> {
     }
 }
 
+/// Short description of a TOML value for error messages.
+fn describe(v: &Value) -> String {
+    match v {
+        Value::Integer(i) => i.to_string(),
+        Value::Float(f) => crate::limits::show_number(*f),
+        Value::String(s) => format!("the string {:?}", crate::limits::clip(s)),
+        Value::Boolean(b) => format!("the boolean {b}"),
+        Value::Datetime(d) => format!("the date-time {d}"),
+        Value::Array(_) => "an array".to_string(),
+        Value::Table(_) => "a table".to_string(),
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -422,18 +435,5 @@ value = "grass"
         assert!(bad.expect_err("bad").to_string().contains("line 2: column end_s"));
         let header = parse_terrain_csv(Path::new("t.csv"), "from,to,terrain\n");
         assert!(header.expect_err("header").to_string().contains("line 1: header must be start_s,end_s,terrain"));
-    }
-}
-
-/// Short description of a TOML value for error messages.
-fn describe(v: &Value) -> String {
-    match v {
-        Value::Integer(i) => i.to_string(),
-        Value::Float(f) => crate::limits::show_number(*f),
-        Value::String(s) => format!("the string {:?}", crate::limits::clip(s)),
-        Value::Boolean(b) => format!("the boolean {b}"),
-        Value::Datetime(d) => format!("the date-time {d}"),
-        Value::Array(_) => "an array".to_string(),
-        Value::Table(_) => "a table".to_string(),
     }
 }

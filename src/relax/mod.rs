@@ -90,14 +90,19 @@ pub fn achievable_per_m(drive: &RouteDrive, leg: usize, speed_mps: f64, at_m: f6
     traction_limit_per_m(drive, ld, speed_mps, at_m).map_or(k, |t| t.min(k))
 }
 
-/// The speed leg `leg` plans at the plan vertex nearest to arc length `at_m` (its per-point
-/// profile, the speed the check judges a turn there at; the leg's one speed without a profile).
-pub(crate) fn planned_speed_at(drive: &RouteDrive, leg: usize, at_m: f64) -> f64 {
-    let plan = &drive.plan;
-    let i = plan.segment_at_cursor(at_m, &mut crate::route::Cursor::default());
-    let nearer_end = plan.point_s_m(i + 1) - at_m < at_m - plan.point_s_m(i);
-    let point = if nearer_end { i + 1 } else { i };
-    drive.speeds.speed_at_point(plan, leg, point)
+/// The speed planned on leg `leg` at arc length `at_m` of the plan: the leg's per-point profile
+/// at its first plan point at or after `at_m` (its last point beyond), else the leg's speed.
+pub(crate) fn planned_speed_mps(drive: &RouteDrive, leg: usize, at_m: f64) -> f64 {
+    let (mut lo, mut hi) = drive.plan.leg_point_range(leg);
+    while lo < hi {
+        let mid = lo + (hi - lo) / 2;
+        if drive.plan.point_s_m(mid) < at_m - 1e-9 {
+            lo = mid + 1;
+        } else {
+            hi = mid;
+        }
+    }
+    drive.speeds.speed_at_point(&drive.plan, leg, lo)
 }
 
 /// Relaxes every failing corner of a route. See the module documentation for the method.
@@ -118,9 +123,9 @@ pub fn relax_route(route: &Route, profile: &Profile, settings: &RelaxSettings) -
     let pts = drive.plan.points();
     let s_m = path::arc_lengths(pts);
     let verts = corners::simplified_vertices(pts, &path::leg_first_indices(route), settings.simplify_tolerance_m);
-    // Achievable curvature of leg `l` at the speed planned where a turn is (arc length `at_m`),
-    // at the grade there.
-    let ach = |l: usize, at_m: f64| achievable_per_m(&drive, l, planned_speed_at(&drive, l, at_m), at_m);
+    // Achievable curvature of leg `l` at the speed planned where a turn is (arc length `at_m`:
+    // a per-point speed profile is read there), at the grade there.
+    let ach = |l: usize, at_m: f64| achievable_per_m(&drive, l, planned_speed_mps(&drive, l, at_m), at_m);
     let found = corners::find_corners(&drive, &verts, &s_m, &ach);
     let vp = |j: usize| pts[verts[j]];
     let needed_radius_m = |legs: &[usize], at_m: f64| {

@@ -82,11 +82,11 @@ fn plan_corner(
     let radius_m = room_radius_m * 0.999;
     let passes = |v_mps: f64| {
         corner.legs.iter().all(|&l| {
-            let speed = v_mps.min(super::planned_speed_at(drive, l, corner.at_m));
+            let speed = v_mps.min(super::planned_speed_mps(drive, l, corner.at_m));
             1.0 / radius_m <= settings.target_share * achievable_per_m(drive, l, speed, corner.at_m)
         })
     };
-    let v_max = corner.legs.iter().map(|&l| super::planned_speed_at(drive, l, corner.at_m)).fold(0.0, f64::max);
+    let v_max = corner.legs.iter().map(|&l| super::planned_speed_mps(drive, l, corner.at_m)).fold(0.0, f64::max);
     if !(radius_m > 0.0) || !passes(settings.min_speed_mps) {
         let why = format!(
             "the segments beside it leave room for a radius of {radius_m:.2} m, and even at {:.1} m/s the terrain needs more",

@@ -233,3 +233,34 @@ fn fillets_are_sized_for_the_speed_planned_at_the_corner() {
     assert_relative_eq!(with_profile, slow, max_relative = 1e-9);
     assert!(with_profile < 0.5 * fast, "{with_profile} m against {fast} m at 1.5 m/s");
 }
+
+/// A planner that slows for a corner: relax reads the speed planned at the corner, not the leg's
+/// top speed. A 90 deg arc of radius 2 m on gravel between straights driven at 1.5 m/s: at that
+/// speed the arc is too tight (relax widens it, and `check` agrees it is tight); with the profile
+/// slowing to 0.3 m/s through the arc, `check` finds the arc within the caution share and relax
+/// leaves the route as it is.
+#[test]
+fn relax_reads_the_speed_planned_at_the_corner() {
+    let profile = Profile::demo();
+    let radius_m = 2.0;
+    let mut pts: Vec<[f64; 2]> = (0..=100).map(|i| [-20.0 + 0.2 * f64::from(i), 0.0]).collect();
+    for k in 1..=40 {
+        let a = std::f64::consts::FRAC_PI_2 * f64::from(k) / 40.0;
+        pts.push([radius_m * a.sin(), radius_m * (1.0 - a.cos())]);
+    }
+    for i in 1..=100 {
+        pts.push([radius_m, radius_m + 0.2 * f64::from(i)]);
+    }
+    let fast = route(vec![leg(pts.clone(), "gravel", 1.5)]);
+    assert!(!curvature_ok(&fast, &profile), "the arc must be tight at 1.5 m/s for this test to mean anything");
+    let relaxed = relax_route(&fast, &profile, &RelaxSettings::default()).expect("relax");
+    assert_eq!(relaxed.changes.len(), 1, "{:?}", relaxed.unrepaired);
+    // Slow from 5 m before the arc to 5 m after it (the straights are 0.2 m apart).
+    let speeds: Vec<f64> = (0..pts.len()).map(|i| if (75..=165).contains(&i) { 0.3 } else { 1.5 }).collect();
+    let mut slow_leg = leg(pts, "gravel", 1.5);
+    slow_leg.set_speed_profile(speeds);
+    let slow = route(vec![slow_leg]);
+    assert!(curvature_ok(&slow, &profile), "at 0.3 m/s the arc is within the caution share");
+    let relaxed = relax_route(&slow, &profile, &RelaxSettings::default()).expect("relax");
+    assert!(relaxed.changes.is_empty(), "{:?}", relaxed.changes);
+}

@@ -8,7 +8,14 @@ use std::path::Path;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
-use super::plot::terrain_color;
+use super::axis::{map_chart, FULL};
+use super::decimate::simplify_path;
+use super::figure::{DrawResult, Figure};
+use super::legend::{draw_legend_box, draw_legend_column, draw_shape, Glyph, Shape};
+use super::palette::{route_color, terrain_color, tint, INK};
+use super::placer::Rect;
+use super::plot::{chart_placer, draw_polyline, draw_terrain_map, map_entries, metres_per_px, terrain_entries, to_px};
+use super::text::{draw_label, font, titled};
 use super::ReportError;
 use crate::drift::DriftReport;
 use crate::route::{PlanPath, Route};
@@ -16,11 +23,10 @@ use crate::site::terrain_map::MapPolygon;
 
 const SIZE_PX: (u32, u32) = (1400, 1250);
 const LEGEND_WIDTH_PX: u32 = 330;
-const ELLIPSE_RED: RGBColor = RGBColor(210, 30, 30);
-const CEP_BLUE: RGBColor = RGBColor(30, 80, 200);
-const LOSS_ORANGE: RGBColor = RGBColor(235, 120, 0);
-
-use super::plot::DrawResult;
+/// The 95 % ellipses and CEP95 (route colours, apart from every terrain colour).
+const ELLIPSE: RGBColor = RGBColor(225, 60, 135);
+const CEP: RGBColor = RGBColor(0, 45, 255);
+const LOSS: RGBColor = RGBColor(240, 170, 0);
 
 /// The drift plot of one route.
 struct DriftFigure<'a> {
@@ -31,7 +37,7 @@ struct DriftFigure<'a> {
     polygons: &'a [MapPolygon],
 }
 
-impl super::plot::Figure for DriftFigure<'_> {
+impl Figure for DriftFigure<'_> {
     fn size_px(&self) -> (u32, u32) {
         SIZE_PX
     }
@@ -52,7 +58,7 @@ pub fn write_drift_plot(
     polygons: &[MapPolygon],
     path: &Path,
 ) -> Result<(), ReportError> {
-    super::plot::write_figure(&DriftFigure { plan: PlanPath::new(route), report, demo, polygons }, path)
+    super::figure::write_figure(&DriftFigure { plan: PlanPath::new(route), report, demo, polygons }, path)
 }
 
 fn draw<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, fig: &DriftFigure) -> DrawResult<()>
@@ -69,7 +75,7 @@ where
         r.odometry.name(),
         r.samples
     );
-    let body = root.titled(&title, ("sans-serif", 24))?;
+    let body = titled(root, &title, 24)?;
     let (w, h) = body.dim_in_pixel();
     let (top, bottom) = body.split_vertically((h as f64 * 0.72) as u32);
     let (map, legend) = top.split_horizontally(w.saturating_sub(LEGEND_WIDTH_PX));
@@ -121,33 +127,48 @@ where
         .chain(r.sample_paths.iter().flatten().copied())
         .chain(ellipses.iter().flat_map(|e| e.1.iter().copied()))
         .chain(ellipses.iter().flat_map(|e| circle(e.2, e.3).into_iter().map(|(x, y)| [x, y])));
-    let mut chart = super::plot::map_chart(area, extent, "")?;
-    super::plot::draw_terrain_map(&mut chart, polygons)?;
+    let mut chart = map_chart(area, extent, "", FULL)?;
+    let mut placer = chart_placer(&chart);
+    draw_terrain_map(&mut chart, polygons)?;
+    let tol = 0.5 * metres_per_px(&chart);
     for path in &r.sample_paths {
-        chart.draw_series(LineSeries::new(path.iter().map(|p| (p[0], p[1])), RGBColor(90, 90, 90).mix(0.35)))?;
+        draw_polyline(
+            &mut chart,
+            &mut placer,
+            &simplify_path(path, tol, &[]),
+            RGBColor(90, 90, 90).mix(0.35).stroke_width(1),
+        )?;
     }
     for l in &r.legs {
         let (a, b) = plan.leg_bounds_m(l.index - 1);
         let n = (((b - a) / 0.5).ceil() as usize).clamp(1, 4000);
-        let pts = (0..=n).map(|k| {
-            let p = plan.point_at(a + (b - a) * k as f64 / n as f64);
-            (p[0], p[1])
-        });
-        chart.draw_series(LineSeries::new(pts, terrain_color(&l.terrain).stroke_width(5)))?;
+        let pts: Vec<[f64; 2]> = (0..=n).map(|k| plan.point_at(a + (b - a) * k as f64 / n as f64)).collect();
+        draw_polyline(
+            &mut chart,
+            &mut placer,
+            &simplify_path(&pts, tol, &[]),
+            terrain_color(&l.terrain).stroke_width(5),
+        )?;
     }
+    for (_, outline, end, cep95_m) in &ellipses {
+        let ring: Vec<[f64; 2]> = circle(*end, *cep95_m).into_iter().map(|(x, y)| [x, y]).collect();
+        draw_polyline(&mut chart, &mut placer, &ring, CEP.stroke_width(2))?;
+        draw_polyline(&mut chart, &mut placer, outline, ELLIPSE.stroke_width(3))?;
+    }
+    let area = chart.plotting_area().strip_coord_spec();
     let loss = plan.point_at(r.loss_start_m);
-    chart.draw_series(std::iter::once(
-        EmptyElement::at((loss[0], loss[1])) + TriangleMarker::new((0, 0), 9, LOSS_ORANGE.filled()),
-    ))?;
-    for (index, outline, end, cep95_m) in &ellipses {
-        chart.draw_series(std::iter::once(PathElement::new(circle(*end, *cep95_m), CEP_BLUE.stroke_width(2))))?;
-        let ring: Vec<(f64, f64)> = outline.iter().map(|p| (p[0], p[1])).collect();
-        chart.draw_series(std::iter::once(PathElement::new(ring, ELLIPSE_RED.stroke_width(3))))?;
-        chart.draw_series(std::iter::once(
-            EmptyElement::at((end[0], end[1]))
-                + Circle::new((0, 0), 4, BLACK.filled())
-                + Text::new(format!("end of leg {index}"), (6, -20), ("sans-serif", 16).into_font()),
-        ))?;
+    let lp = to_px(&chart, (loss[0], loss[1]));
+    draw_shape(&area, lp, Shape::TriangleUp, LOSS, 8)?;
+    placer.mark(Rect::around(lp, 10));
+    let ends: Vec<(usize, (i32, i32))> =
+        ellipses.iter().map(|(i, _, end, _)| (*i, to_px(&chart, (end[0], end[1])))).collect();
+    for (_, p) in &ends {
+        draw_shape(&area, *p, Shape::Dot, INK, 4)?;
+        placer.mark(Rect::around(*p, 6));
+    }
+    let f = font(16);
+    for (index, p) in &ends {
+        draw_label(&area, &mut placer, *p, 8, &format!("end of leg {index}"), &f, INK)?;
     }
     Ok(())
 }
@@ -160,16 +181,16 @@ fn draw_legend<DB: DrawingBackend>(
 where
     DB::ErrorType: 'static,
 {
-    use super::plot::Glyph;
-    let mut entries = super::plot::terrain_entries(r.legs.iter().map(|l| l.terrain.as_str()));
+    let mut entries = terrain_entries(r.legs.iter().map(|l| l.terrain.as_str()));
     entries.extend([
-        (Glyph::Line(RGBColor(90, 90, 90), 1), format!("true paths ({} samples)", r.sample_paths.len())),
-        (Glyph::Line(ELLIPSE_RED, 3), "95 % ellipse, true position".to_string()),
-        (Glyph::Line(CEP_BLUE, 2), "CEP95 circle about leg end".to_string()),
-        (Glyph::Triangle(LOSS_ORANGE), "localization lost here".to_string()),
+        (Glyph::Line(tint(RGBColor(90, 90, 90), 0.5), 1), format!("true paths ({} samples)", r.sample_paths.len())),
+        (Glyph::Line(ELLIPSE, 3), "95 % ellipse, true position".to_string()),
+        (Glyph::Line(CEP, 2), "CEP95 circle about leg end".to_string()),
+        (Glyph::Mark(Shape::TriangleUp, LOSS), "localization lost here".to_string()),
+        (Glyph::Mark(Shape::Dot, INK), "leg end (planned)".to_string()),
     ]);
-    entries.extend(super::plot::map_entries(polygons));
-    super::plot::draw_legend(area, &entries)
+    entries.extend(map_entries(polygons));
+    draw_legend_column(area, "legend", &entries)
 }
 
 fn draw_cep<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, r: &DriftReport) -> DrawResult<()>
@@ -188,18 +209,17 @@ where
     let cep50 = pts(|s| s.cep50_m);
     let x_max = r.legs.last().map_or(1.0, |l| l.end_along_route_m).max(1.0);
     let y_max = cep95.iter().map(|p| p.1).fold(0.0, f64::max).max(0.01) * 1.15;
-    let mut chart = super::plot::distance_chart(area, x_max, 0.0..y_max, "radial error (m)")?;
-    chart
-        .draw_series(LineSeries::new(cep95.clone(), ELLIPSE_RED.stroke_width(2)))?
-        .label("CEP95 at leg ends")
-        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 24, y)], ELLIPSE_RED.stroke_width(2)));
-    chart.draw_series(cep95.iter().map(|&p| Circle::new(p, 4, ELLIPSE_RED.filled())))?;
-    chart
-        .draw_series(LineSeries::new(cep50.clone(), CEP_BLUE.stroke_width(2)))?
-        .label("CEP50 at leg ends")
-        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 24, y)], CEP_BLUE.stroke_width(2)));
-    chart.draw_series(cep50.iter().map(|&p| Circle::new(p, 4, CEP_BLUE.filled())))?;
-    super::plot::draw_series_labels(&mut chart, 16)?;
+    let mut chart = super::axis::distance_chart(area, x_max, 0.0..y_max, "radial error (m)")?;
+    let (c95, c50) = (CEP, route_color(2));
+    chart.draw_series(LineSeries::new(cep95.clone(), c95.stroke_width(2)))?;
+    chart.draw_series(cep95.iter().map(|&p| Circle::new(p, 4, c95.filled())))?;
+    chart.draw_series(LineSeries::new(cep50.clone(), c50.stroke_width(2)))?;
+    chart.draw_series(cep50.iter().map(|&p| Circle::new(p, 4, c50.filled())))?;
+    let entries = [
+        (Glyph::Line(c95, 2), "CEP95 at leg ends".to_string()),
+        (Glyph::Line(c50, 2), "CEP50 at leg ends".to_string()),
+    ];
+    draw_legend_box(&chart, &entries, &[&cep95, &cep50], 15)?;
     Ok(())
 }
 

@@ -6,14 +6,18 @@
 //!    by the chosen model, joined by a line;
 //! 3. with `--sweep`, validation error against evaluation horizon, one line per training horizon.
 //!
-//! Text uses the bundled DejaVu font (see [`super::plot::register_fonts`]).
+//! Text uses the bundled DejaVu font (see [`super::figure::register_fonts`]).
 
 use std::path::Path;
 
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
-use super::plot::terrain_color;
+use super::axis::{chart, equal_chart, LinearChart, Span, SMALL};
+use super::figure::{DrawResult, Figure};
+use super::legend::{draw_legend_box, Glyph};
+use super::palette::{route_color, terrain_color, INK};
+use super::text::{ellipsized, font, titled, wrapped};
 use super::ReportError;
 use crate::fit::stats::Spread;
 use crate::fit::validate::WindowError;
@@ -26,12 +30,10 @@ const BINS: usize = 16;
 /// Fewest windows for a bin's quartiles to be drawn.
 const MIN_PER_BIN: usize = 5;
 
-use super::plot::DrawResult;
-
 /// Writes the fit figure; the format follows the extension (`.svg` or `.png`).
 pub fn write_fit_plot(run: &FitRun, path: &Path) -> Result<(), ReportError> {
     let columns: u32 = if run.terrains.iter().any(|t| t.sweep.is_some()) { 3 } else { 2 };
-    super::plot::write_figure(&FitFigure { run, columns }, path)
+    super::figure::write_figure(&FitFigure { run, columns }, path)
 }
 
 /// The fit figure: a row of panels per terrain.
@@ -40,7 +42,7 @@ struct FitFigure<'a> {
     columns: u32,
 }
 
-impl super::plot::Figure for FitFigure<'_> {
+impl Figure for FitFigure<'_> {
     fn size_px(&self) -> (u32, u32) {
         (PANEL_W_PX * self.columns, ROW_H_PX * self.run.terrains.len().max(1) as u32)
     }
@@ -64,10 +66,12 @@ where
         match &t.outcome {
             TerrainOutcome::Fitted { .. } => draw_end_points(&panels[1], t)?,
             TerrainOutcome::Failed { reason } => {
-                let text = format!("{}: not fitted", t.terrain);
-                panels[1].draw(&Text::new(text, (20, 40), ("sans-serif", 20)))?;
-                let short: String = reason.chars().take(70).collect();
-                panels[1].draw(&Text::new(short, (20, 70), ("sans-serif", 14)))?;
+                let (w, _) = panels[1].dim_in_pixel();
+                let text = ellipsized(&format!("{}: not fitted", t.terrain), &font(20), w.saturating_sub(40));
+                panels[1].draw(&Text::new(text, (20, 40), font(20).color(&INK)))?;
+                for (k, line) in wrapped(reason, &font(14), w.saturating_sub(40), 4).into_iter().enumerate() {
+                    panels[1].draw(&Text::new(line, (20, 70 + 20 * k as i32), font(14).color(&INK)))?;
+                }
             }
         }
         if columns == 3 {
@@ -119,69 +123,61 @@ where
     let (y0, y1) = robust_range(t.turn_points.iter().map(|p| p.measured_per_m));
     let caption = format!("{}: yaw change per metre driven", t.terrain);
     let axes = ("commanded (ideal drive), rad/m", "measured, rad/m");
-    let mut chart = panel_chart(area, &caption, x0..x1, y0..y1, axes)?;
+    let body = captioned(area, &caption)?;
+    let mut chart = panel_chart(&body, x0..x1, y0..y1, axes)?;
     let color = terrain_color(&t.terrain);
     let step = t.turn_points.len().div_ceil(1500).max(1);
-    chart.draw_series(
-        t.turn_points
-            .iter()
-            .step_by(step)
-            .filter(|p| {
-                p.commanded_per_m >= x0 && p.commanded_per_m <= x1 && p.measured_per_m >= y0 && p.measured_per_m <= y1
-            })
-            .map(|p| Circle::new((p.commanded_per_m, p.measured_per_m), 1, color.mix(0.25).filled())),
-    )?;
+    let shown: Vec<(f64, f64)> = t
+        .turn_points
+        .iter()
+        .step_by(step)
+        .map(|p| (p.commanded_per_m, p.measured_per_m))
+        .filter(|&(x, y)| x >= x0 && x <= x1 && y >= y0 && y <= y1)
+        .collect();
+    chart.draw_series(shown.iter().map(|&p| Circle::new(p, 1, color.mix(0.25).filled())))?;
     let bins = binned(&t.turn_points, x0, x1);
+    let mut entries = Vec::new();
+    let dark = super::palette::route_color(0);
     if !bins.is_empty() {
         let mut band: Vec<(f64, f64)> = bins.iter().map(|(x, s)| (*x, s.q75)).collect();
         band.extend(bins.iter().rev().map(|(x, s)| (*x, s.q25)));
-        chart
-            .draw_series(std::iter::once(Polygon::new(band, color.mix(0.35).filled())))?
-            .label("quartile band")
-            .legend(move |(x, y)| Rectangle::new([(x, y - 5), (x + 20, y + 5)], color.mix(0.35).filled()));
-        chart
-            .draw_series(LineSeries::new(bins.iter().map(|(x, s)| (*x, s.median)), color.stroke_width(3)))?
-            .label("median")
-            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], color.stroke_width(3)));
+        chart.draw_series(std::iter::once(Polygon::new(band, color.mix(0.45).filled())))?;
+        chart.draw_series(LineSeries::new(bins.iter().map(|(x, s)| (*x, s.median)), dark.stroke_width(2)))?;
+        entries.push((Glyph::Fill(super::palette::tint(color, 0.4)), "quartile band".to_string()));
+        entries.push((Glyph::Line(dark, 2), "median".to_string()));
     }
     let (a, b) = (x0.max(y0), x1.min(y1));
+    let ideal = [(a, a), (b, b)];
     if b > a {
-        chart
-            .draw_series(DashedLineSeries::new(vec![(a, a), (b, b)], 8, 5, BLACK.stroke_width(1)))?
-            .label("ideal drive (1:1)")
-            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], BLACK.stroke_width(1)));
+        chart.draw_series(DashedLineSeries::new(ideal, 8, 5, INK.stroke_width(1)))?;
+        entries.push((Glyph::Dashed(INK, 1), "ideal drive (1:1)".to_string()));
     }
-    super::plot::draw_series_labels(&mut chart, 13)?;
+    draw_legend_box(&chart, &entries, &[&shown], 13)?;
     Ok(())
 }
 
-/// A linear panel of the fit figure: caption, axes and mesh in the figure's style.
+/// A linear panel of the fit figure on `body` (the area below its caption, see [`captioned`]):
+/// axes and mesh in the figure's style.
 fn panel_chart<'a, DB>(
-    area: &'a DrawingArea<DB, Shift>,
-    caption: &str,
+    body: &'a DrawingArea<DB, Shift>,
     x: std::ops::Range<f64>,
     y: std::ops::Range<f64>,
-    (x_desc, y_desc): (&str, &str),
-) -> DrawResult<super::plot::LinearChart<'a, DB>>
+    axes: (&str, &str),
+) -> DrawResult<LinearChart<'a, DB>>
 where
     DB: DrawingBackend,
     DB::ErrorType: 'static,
 {
-    let mut chart = ChartBuilder::on(area)
-        .caption(caption, ("sans-serif", 18))
-        .margin(10)
-        .x_label_area_size(40)
-        .y_label_area_size(60)
-        .build_cartesian_2d(x, y)?;
-    chart
-        .configure_mesh()
-        .x_desc(x_desc)
-        .y_desc(y_desc)
-        .label_style(("sans-serif", 13))
-        .axis_desc_style(("sans-serif", 14))
-        .light_line_style(RGBColor(238, 238, 238))
-        .draw()?;
-    Ok(chart)
+    chart(body, Span::Linear(x.start, x.end), Span::Linear(y.start, y.end), axes, SMALL)
+}
+
+/// Draws a panel's caption and returns the area below it.
+fn captioned<DB>(area: &DrawingArea<DB, Shift>, caption: &str) -> DrawResult<DrawingArea<DB, Shift>>
+where
+    DB: DrawingBackend,
+    DB::ErrorType: 'static,
+{
+    titled(area, caption, 17)
 }
 
 fn draw_end_points<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, t: &TerrainFit) -> DrawResult<()>
@@ -209,78 +205,66 @@ where
     let ys = ends.iter().flat_map(|e| [e.measured[1], e.predicted[1]]);
     let (x0, x1) = robust_range(xs.chain(std::iter::once(0.0)));
     let (y0, y1) = robust_range(ys.chain(std::iter::once(0.0)));
-    // Equal metres per pixel on both axes.
-    let (w, h) = area.dim_in_pixel();
-    let (pw, ph) = (f64::from(w.saturating_sub(90).max(10)), f64::from(h.saturating_sub(80).max(10)));
-    let m_per_px = ((x1 - x0) / pw).max((y1 - y0) / ph);
-    let (cx, cy) = (0.5 * (x0 + x1), 0.5 * (y0 + y1));
-    let (hx, hy) = (0.5 * m_per_px * pw, 0.5 * m_per_px * ph);
     let axes = ("forward from the window start, m", "left, m");
-    let mut chart = panel_chart(area, caption, (cx - hx)..(cx + hx), (cy - hy)..(cy + hy), axes)?;
-    chart.draw_series(ends.iter().map(|e| {
+    let body = captioned(area, caption)?;
+    let fit =
+        |w: f64, h: f64| super::axis::equal_about([0.5 * (x0 + x1), 0.5 * (y0 + y1)], [x1 - x0, y1 - y0], w, h, 1.0);
+    let mut chart = equal_chart(&body, fit, axes, SMALL)?;
+    let win = {
+        let (xr, yr) = (chart.x_range(), chart.y_range());
+        move |p: [f64; 3]| xr.contains(&p[0]) && yr.contains(&p[1])
+    };
+    let shown: Vec<&&WindowError> = ends.iter().filter(|e| win(e.measured) && win(e.predicted)).collect();
+    chart.draw_series(shown.iter().map(|e| {
         PathElement::new(
             vec![(e.measured[0], e.measured[1]), (e.predicted[0], e.predicted[1])],
             RGBColor(170, 170, 170),
         )
     }))?;
-    let measured = RGBColor(30, 90, 200);
-    let predicted = RGBColor(230, 110, 20);
-    chart
-        .draw_series(ends.iter().map(|e| Circle::new((e.measured[0], e.measured[1]), 3, measured.filled())))?
-        .label("measured end")
-        .legend(move |(x, y)| Circle::new((x + 10, y), 4, measured.filled()));
-    chart
-        .draw_series(ends.iter().map(|e| Cross::new((e.predicted[0], e.predicted[1]), 3, predicted.stroke_width(2))))?
-        .label(predicted_label.to_string())
-        .legend(move |(x, y)| Cross::new((x + 10, y), 4, predicted.stroke_width(2)));
-    super::plot::draw_series_labels(&mut chart, 13)?;
+    let (measured, predicted) = (route_color(1), route_color(4));
+    chart.draw_series(shown.iter().map(|e| Circle::new((e.measured[0], e.measured[1]), 3, measured.filled())))?;
+    chart.draw_series(
+        shown.iter().map(|e| Cross::new((e.predicted[0], e.predicted[1]), 3, predicted.stroke_width(2))),
+    )?;
+    let data: Vec<(f64, f64)> =
+        shown.iter().flat_map(|e| [(e.measured[0], e.measured[1]), (e.predicted[0], e.predicted[1])]).collect();
+    let entries = [
+        (Glyph::Mark(super::legend::Shape::Dot, measured), "measured end".to_string()),
+        (Glyph::Mark(super::legend::Shape::Cross, predicted), predicted_label.to_string()),
+    ];
+    draw_legend_box(&chart, &entries, &[&data], 13)?;
     Ok(())
 }
-
-const SWEEP_COLORS: [RGBColor; 6] = [
-    RGBColor(30, 90, 200),
-    RGBColor(230, 110, 20),
-    RGBColor(40, 160, 60),
-    RGBColor(200, 40, 40),
-    RGBColor(130, 60, 180),
-    RGBColor(120, 90, 60),
-];
 
 fn draw_sweep<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, t: &TerrainFit) -> DrawResult<()>
 where
     DB::ErrorType: 'static,
 {
     let Some(sw) = &t.sweep else {
-        area.draw(&Text::new(format!("{}: no sweep", t.terrain), (20, 40), ("sans-serif", 18)))?;
+        area.draw(&Text::new(format!("{}: no sweep", t.terrain), (20, 40), font(18).color(&INK)))?;
         return Ok(());
     };
     let h_lo = sw.horizons_s.first().copied().unwrap_or(1.0);
     let h_hi = sw.horizons_s.last().copied().unwrap_or(1.0).max(h_lo * 1.01);
-    let e_max = sw.error_rel.iter().flatten().flatten().fold(0.0f64, |a, b| a.max(*b)) * 100.0 * 1.1;
-    let mut chart = ChartBuilder::on(area)
-        .caption(format!("{}: horizon sweep, {}", t.terrain, sw.family), ("sans-serif", 18))
-        .margin(10)
-        .x_label_area_size(40)
-        .y_label_area_size(60)
-        .build_cartesian_2d((h_lo * 0.8..h_hi * 1.25).log_scale(), 0.0..e_max.max(1.0))?;
-    chart
-        .configure_mesh()
-        .x_desc("evaluated at horizon, s")
-        .y_desc("median translation error, %")
-        .label_style(("sans-serif", 13))
-        .axis_desc_style(("sans-serif", 14))
-        .light_line_style(RGBColor(238, 238, 238))
-        .draw()?;
+    let e_max = sw.error_rel.iter().flatten().flatten().fold(0.0f64, |a, b| a.max(*b)) * 100.0 * 1.15;
+    let body = captioned(area, &format!("{}: horizon sweep, {}", t.terrain, sw.family))?;
+    let x = Span::Log(h_lo * 0.8, h_hi * 1.25, sw.horizons_s.clone());
+    let axes = ("evaluated at horizon, s", "median translation error, %");
+    let mut chart = chart(&body, x, Span::Linear(0.0, e_max.max(1.0)), axes, SMALL)?;
+    let mut entries = Vec::new();
+    let mut data = Vec::new();
     for (i, (h, row)) in sw.horizons_s.iter().zip(&sw.error_rel).enumerate() {
-        let color = SWEEP_COLORS[i % SWEEP_COLORS.len()];
+        let color = route_color(i);
         let pts: Vec<(f64, f64)> =
             sw.horizons_s.iter().zip(row).filter_map(|(he, e)| e.map(|e| (*he, 100.0 * e))).collect();
         chart.draw_series(pts.iter().map(|p| Circle::new(*p, 3, color.filled())))?;
-        chart
-            .draw_series(LineSeries::new(pts, color.stroke_width(2)))?
-            .label(format!("trained at {h} s"))
-            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], color.stroke_width(2)));
+        chart.draw_series(LineSeries::new(pts.iter().copied(), color.stroke_width(2)))?;
+        entries.push((
+            Glyph::Line(color, 2),
+            format!("trained at {} s", super::axis::tick_label(*h, 3).trim_end_matches('0').trim_end_matches('.')),
+        ));
+        data.extend(pts);
     }
-    super::plot::draw_series_labels(&mut chart, 13)?;
+    draw_legend_box(&chart, &entries, &[&data], 13)?;
     Ok(())
 }

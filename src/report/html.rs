@@ -54,22 +54,30 @@ fn route_section(out: &mut String, r: &RouteReport, warnings: &[String]) {
         r.peak_power_w,
         if r.completed { "" } else { "; the vehicle did not reach the end" }
     );
+    // The cross slope shows only when a leg has one (the route was put on an elevation raster).
+    let cross = r.legs.iter().any(|l| l.max_cross_slope_pct.is_some());
     out.push_str(
         "<table><tr><th>leg</th><th>terrain</th><th>length m</th><th>speed m/s</th><th>tightest radius m</th>\
          <th>required curv. 1/m</th><th>achievable curv. 1/m</th><th>max dev. m</th><th>RMS dev. m</th>\
-         <th>corridor m</th><th>time s</th><th>energy Wh</th><th>peak side thrust N</th><th>peak power W</th>\
-         <th>drift CEP95 m</th><th>verdict</th></tr>\n",
+         <th>corridor m</th><th>time s</th><th>energy Wh</th><th>peak side thrust N</th><th>peak power W</th>",
+    );
+    if cross {
+        out.push_str("<th>cross slope %</th>");
+    }
+    out.push_str(
+        "<th>traction needs/has</th><th>traction-limited s</th><th>passes up to m/s</th><th>drift CEP95 m</th>\
+         <th>verdict</th></tr>\n",
     );
     for l in &r.legs {
         let label = match &l.name {
             Some(n) => format!("{} {}", l.index, escape(n)),
             None => l.index.to_string(),
         };
-        let _ = writeln!(
+        let _ = write!(
             out,
             "<tr><td>{label}</td><td>{}</td><td class=n>{:.1}</td><td class=n>{:.1}</td><td class=n>{}</td>\
              <td class=n>{:.3}</td><td class=n>{}</td><td class=n>{:.2}</td><td class=n>{:.2}</td><td class=n>{:.2}</td>\
-             <td class=n>{:.0}</td><td class=n>{:.1}</td><td class=n>{:.0}</td><td class=n>{:.0}</td><td class=n>{}</td><td>{}</td></tr>",
+             <td class=n>{:.0}</td><td class=n>{:.1}</td><td class=n>{:.0}</td><td class=n>{:.0}</td>",
             escape(&l.terrain),
             l.length_m,
             l.speed_mps,
@@ -83,6 +91,17 @@ fn route_section(out: &mut String, r: &RouteReport, warnings: &[String]) {
             l.energy_wh,
             l.peak_side_thrust_n,
             l.peak_power_w,
+        );
+        if cross {
+            let _ = write!(out, "<td class=n>{}</td>", opt(l.max_cross_slope_pct, 0, "-"));
+        }
+        let _ = writeln!(
+            out,
+            "<td class=n>{:.2}/{:.2}</td><td class=n>{:.1}</td><td class=n>{}</td><td class=n>{}</td><td>{}</td></tr>",
+            l.traction_coefficient_needed,
+            l.traction_coefficient,
+            l.traction_limited_s,
+            opt(l.max_passing_speed_mps, 2, "none"),
             opt(l.drift_cep95_m, 2, "-"),
             verdict_span(l.verdict)
         );

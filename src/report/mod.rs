@@ -4,16 +4,24 @@
 //! into place, so a failure never leaves a partial output.
 
 mod atomic;
+pub(crate) mod axis;
 pub mod compare_report;
+pub(crate) mod decimate;
 pub mod drift_plot;
 pub mod drift_report;
+pub(crate) mod figure;
 pub mod fit_json;
 pub mod fit_plot;
 pub mod fit_table;
 pub(crate) mod fitted_table;
 pub mod html;
+pub(crate) mod inset;
 pub mod json;
 pub mod jsonl;
+pub(crate) mod legend;
+pub(crate) mod marks;
+pub(crate) mod palette;
+pub(crate) mod placer;
 pub mod plot;
 pub mod predicted;
 mod preflight;
@@ -21,6 +29,7 @@ pub mod relaxed;
 pub mod replay_plot;
 pub mod replay_report;
 pub mod table;
+pub(crate) mod text;
 pub mod trace_csv;
 
 use std::path::{Path, PathBuf};
@@ -42,6 +51,9 @@ pub enum ReportError {
 pub struct CheckOutputs {
     pub report_json: Option<PathBuf>,
     pub trace_csv: Option<PathBuf>,
+    /// Write every n-th step of the trace (with each leg's first and last step and every change
+    /// of `traction_limited`); 0 or 1 writes every step.
+    pub trace_every: usize,
     pub predicted_geojson: Option<PathBuf>,
     pub plot: Option<PathBuf>,
 }
@@ -63,7 +75,7 @@ pub fn write_check_outputs(run: &crate::check::CheckRun, out: &CheckOutputs) -> 
         write_atomic(p, json::check_json(run).as_bytes())?;
     }
     if let Some(p) = &out.trace_csv {
-        write_atomic(p, trace_csv::trace_csv(run).as_bytes())?;
+        write_atomic(p, trace_csv::trace_csv_every(run, out.trace_every).as_bytes())?;
     }
     if let Some(p) = &out.plot {
         plot::write_plot(run, p)?;

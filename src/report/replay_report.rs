@@ -101,14 +101,16 @@ pub fn replay_table(run: &ReplayRun) -> String {
         t.add_row(vec![
             Cell::new(&r.terrain),
             Cell::new(&r.model),
-            Cell::new(format!("{} ({})", r.windows, r.translation_windows)).set_alignment(CellAlignment::Right),
-            spread(r.translation_rel, 100.0, 1),
+            Cell::new(format!("{} ({})", r.validation.windows, r.validation.translation_windows))
+                .set_alignment(CellAlignment::Right),
+            spread(r.validation.translation_rel, 100.0, 1),
             Cell::new(
-                r.translation_interval95
+                r.validation
+                    .translation_interval95
                     .map_or("n/a".to_string(), |i| format!("{:.1} to {:.1}", 100.0 * i.lo, 100.0 * i.hi)),
             )
             .set_alignment(CellAlignment::Right),
-            spread(r.yaw_deg, 1.0, 2),
+            spread(r.validation.yaw_deg, 1.0, 2),
             Cell::new(r.calibration_translation_error.map_or("none".to_string(), |e| format!("{:.1}", 100.0 * e)))
                 .set_alignment(CellAlignment::Right),
             changed_cell(r),

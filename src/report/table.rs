@@ -186,6 +186,13 @@ pub fn check_table(run: &CheckRun, opts: &TableOptions) -> String {
             let _ = writeln!(out, "  (a failure under --strict)");
         }
     }
+    if run.routes.iter().flat_map(|cr| &cr.report.legs).any(|l| l.max_passing_speed_mps.is_some()) {
+        let _ = writeln!(
+            out,
+            "\n\"passes up to\": the highest leg speed at which the leg does not fail, searched up to the vehicle's \
+             top side speed (a leg showing the top speed passes at any speed the vehicle can drive)"
+        );
+    }
     let _ = writeln!(out, "\ncaution: {CAUTION}");
     out
 }
