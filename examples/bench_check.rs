@@ -2,7 +2,9 @@
 //! reporting simulated controller steps per second on one core, and the wall time of checking
 //! each example route (reading, simulating, assessing and the margins' extra simulations;
 //! median of 21 runs; the target is under 100 ms each). Run with
-//! `cargo run --release --example bench_check`.
+//! `cargo run --release --example bench_check [SPACING_M] [--write ROUTE.csv]`: the plan's
+//! points are SPACING_M apart (1 m unless given; 0.1 m is a planner-dense path); `--write`
+//! also writes the route as CSV, to time the whole `skidroute check` process on it.
 
 use std::path::PathBuf;
 use std::time::Instant;
@@ -13,16 +15,15 @@ use skidroute::route::{Leg, Route, SourcePosition};
 use skidroute::vehicle::Profile;
 
 /// A 20 km route of gentle S-bends and straights over the demo terrains.
-fn synthetic_route(length_m: f64) -> Route {
+fn synthetic_route(length_m: f64, step_m: f64) -> Route {
     let terrains = ["asphalt", "gravel", "grass", "packed-snow", "deep-snow"];
     let (mut x, mut y, mut yaw) = (0.0_f64, 0.0_f64, 0.0_f64);
     let mut legs = Vec::new();
     let leg_len_m = 500.0;
-    let step_m = 1.0;
     let n_legs = (length_m / leg_len_m) as usize;
     for k in 0..n_legs {
         let mut points = vec![[x, y]];
-        for i in 0..(leg_len_m / step_m) as usize {
+        for i in 0..(leg_len_m / step_m).round() as usize {
             let s = (k as f64 * leg_len_m) + i as f64 * step_m;
             yaw += step_m * 0.04 * (s / 90.0).sin();
             x += step_m * yaw.cos();
@@ -40,33 +41,63 @@ fn synthetic_route(length_m: f64) -> Route {
             corridors_m: None,
             cross_slope: None,
             position: SourcePosition::Feature(k),
+            added_points: None,
         });
     }
     Route { name: "bench".into(), source: PathBuf::from("<synthetic>"), origin: None, legs, warnings: Vec::new() }
 }
 
+/// The route as CSV (`x_m,y_m,terrain,speed_mps`, millimetres), one row per point; a leg's first
+/// point repeats the previous leg's last one.
+fn route_csv(route: &Route) -> String {
+    use std::fmt::Write;
+    let mut out = String::from("x_m,y_m,terrain,speed_mps\n");
+    for leg in &route.legs {
+        for p in &leg.points {
+            let _ = writeln!(out, "{:.3},{:.3},{},{}", p[0], p[1], leg.terrain, leg.speed_mps.unwrap_or(1.2));
+        }
+    }
+    out
+}
+
 fn main() {
+    let args: Vec<String> = std::env::args().skip(1).collect();
+    let step_m: f64 = args.first().and_then(|s| s.parse().ok()).unwrap_or(1.0);
     let profile = Profile::demo();
-    let route = synthetic_route(20_000.0);
+    let route = synthetic_route(20_000.0, step_m);
+    if let Some(i) = args.iter().position(|a| a == "--write") {
+        if let Some(path) = args.get(i + 1) {
+            std::fs::write(path, route_csv(&route)).expect("writing the route");
+            println!("wrote {path}");
+        }
+    }
     let mut best = f64::INFINITY;
     let mut steps = 0;
-    for _ in 0..3 {
+    for _ in 0..5 {
         let t0 = Instant::now();
         let checked = check_route(route.clone(), &profile);
         best = best.min(t0.elapsed().as_secs_f64());
         steps = checked.trace.steps.len();
     }
     let drive = RouteDrive::new(&route, &profile);
-    let mut best_roll = f64::INFINITY;
-    for _ in 0..3 {
+    let mut rolls = Vec::new();
+    for _ in 0..7 {
         let t0 = Instant::now();
         let trace = roll_out(&drive);
-        best_roll = best_roll.min(t0.elapsed().as_secs_f64());
+        rolls.push(t0.elapsed().as_secs_f64());
         assert_eq!(trace.steps.len(), steps);
     }
-    println!("20 km synthetic route at 20 Hz: {steps} controller steps (one core, best of 3)");
-    println!("  rollout only: {:.3} s, {:.2} million steps per second", best_roll, steps as f64 / best_roll / 1e6);
-    println!("  whole check (rollout + assessment): {:.3} s", best);
+    rolls.sort_by(f64::total_cmp);
+    let rate = |t: f64| steps as f64 / t / 1e6;
+    println!("20 km synthetic route, points every {step_m} m, at 20 Hz: {steps} controller steps (one core)");
+    println!(
+        "  rollout only: median {:.3} s, {:.2} million steps per second (fastest {:.2}, slowest {:.2}; 7 runs)",
+        rolls[3],
+        rate(rolls[3]),
+        rate(rolls[0]),
+        rate(rolls[6])
+    );
+    println!("  whole check (rollout + assessment, no margins): best of 5 {:.3} s", best);
 
     let files: Vec<PathBuf> = std::fs::read_dir("example-routes")
         .map(|d| {

@@ -39,6 +39,7 @@ fn synthetic_route() -> Route {
             corridors_m: None,
             cross_slope: None,
             position: SourcePosition::Feature(k),
+            added_points: None,
         });
     }
     Route { name: "synthetic 2 km".into(), source: "synthetic".into(), origin: None, legs, warnings: Vec::new() }

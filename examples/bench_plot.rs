@@ -22,6 +22,7 @@ fn crawl() -> Route {
         corridors_m: None,
         cross_slope: None,
         position: SourcePosition::Feature(k),
+        added_points: None,
     };
     Route {
         name: "crawl".into(),

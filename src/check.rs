@@ -198,6 +198,82 @@ pub fn check_route_with(mut route: Route, profile: &Profile, limits: &Limits) ->
     CheckedRoute { route, drive, trace, report, steps_simulated }
 }
 
+/// Checks one route held in memory, for a planner screening candidate paths in a loop: no file
+/// is read or written, nothing is printed. The route's legs are checked first (every terrain
+/// known to `profile`, at least two finite points a leg, the legs joined, and the rollout's
+/// step bound within the default [`Limits`]); then the route is simulated and assessed as
+/// `skidroute check` does, without the margin search (each leg's
+/// [`max_passing_speed_mps`](crate::assess::LegReport::max_passing_speed_mps) stays `None`;
+/// [`check_route`] adds it). The trace is not kept.
+///
+/// ```
+/// use skidroute::check::screen_route;
+/// use skidroute::route::{Leg, Route, SourcePosition};
+/// use skidroute::vehicle::Profile;
+///
+/// let profile = Profile::demo();
+/// // 200 m: a straight, then a gentle left bend, points every metre, on gravel at 1.2 m/s.
+/// let mut points = vec![[0.0, 0.0]];
+/// let (mut x, mut y, mut yaw) = (0.0_f64, 0.0_f64, 0.0_f64);
+/// for i in 0..200 {
+///     if i >= 100 {
+///         yaw += 0.01;
+///     }
+///     x += yaw.cos();
+///     y += yaw.sin();
+///     points.push([x, y]);
+/// }
+/// let leg = Leg { speed_mps: Some(1.2), ..Leg::new("gravel", points, SourcePosition::Feature(0)) };
+/// let legs = vec![leg];
+/// let route = Route { name: "candidate".into(), source: "planner".into(), origin: None, legs, warnings: vec![] };
+/// let report = screen_route(&route, &profile).unwrap();
+/// assert_eq!(report.legs.len(), 1);
+/// println!("{:?}: largest deviation {:.2} m", report.verdict, report.legs[0].max_deviation_m);
+/// ```
+pub fn screen_route(route: &Route, profile: &Profile) -> Result<RouteReport, Error> {
+    let limits = Limits::default();
+    check_in_memory_route(route)?;
+    crate::route::check_terrains(route, &profile.terrain_names())?;
+    check_step_bound(route, profile, &limits)?;
+    let drive = RouteDrive::new(route, profile);
+    let (trace, _) = roll_out_with_resumes(&drive, limits.max_rollout_steps);
+    let plans = leg_plans(&drive);
+    Ok(assess_route_with(route, &drive, &trace, profile.vehicle.battery_wh, &plans))
+}
+
+/// The checks a route read from a file has passed, for one built in memory: legs of at least two
+/// finite points, no two consecutive points closer than `route::DUPLICATE_POINT_M`, each leg
+/// starting where the previous one ends.
+fn check_in_memory_route(route: &Route) -> Result<(), RouteError> {
+    let at = |position, what: String| RouteError::At { file: route.source.clone(), position, what };
+    if route.legs.is_empty() {
+        return Err(RouteError::File { file: route.source.clone(), what: "route has no legs".to_string() });
+    }
+    let mut previous_end: Option<[f64; 2]> = None;
+    for leg in &route.legs {
+        let n = leg.points.len();
+        if n < 2 {
+            return Err(at(
+                leg.position,
+                format!("leg has {n} point{}, at least 2 are needed", if n == 1 { "" } else { "s" }),
+            ));
+        }
+        if leg.points.iter().flatten().any(|v| !v.is_finite()) {
+            return Err(at(leg.position, "leg has a point that is not finite".to_string()));
+        }
+        if leg.points.windows(2).any(|w| crate::route::plan::dist(w[0], w[1]) < crate::route::DUPLICATE_POINT_M) {
+            return Err(at(leg.position, "leg has two consecutive points closer than 1 mm".to_string()));
+        }
+        if let (Some(end), Some(&start)) = (previous_end, leg.points.first()) {
+            if crate::route::plan::dist(end, start) > crate::route::DUPLICATE_POINT_M {
+                return Err(at(leg.position, "leg does not start where the previous leg ends".to_string()));
+            }
+        }
+        previous_end = leg.points.last().copied();
+    }
+    Ok(())
+}
+
 /// Checks routes in parallel; the output keeps the input order.
 pub fn check_routes(routes: Vec<Route>, profile: &Profile, demo_profile: bool) -> CheckRun {
     check_routes_with(routes, profile, demo_profile, &Limits::default())
@@ -205,7 +281,30 @@ pub fn check_routes(routes: Vec<Route>, profile: &Profile, demo_profile: bool) -
 
 /// [`check_routes`] within `limits.max_rollout_steps` control steps per route.
 pub fn check_routes_with(routes: Vec<Route>, profile: &Profile, demo_profile: bool, limits: &Limits) -> CheckRun {
-    let routes = routes.into_par_iter().map(|r| check_route_with(r, profile, limits)).collect();
+    check_routes_keeping(routes, profile, demo_profile, limits, true)
+}
+
+/// [`check_routes_with`], keeping each route's trace only when `keep_traces` (the trace CSV, the
+/// predicted path, plots and HTML draw on it; the tables, JSON and JSON Lines do not). Without
+/// traces a run's memory holds only the traces of the routes being simulated, one per thread,
+/// instead of all of them (a 500 m route's trace is about 1.5 MB).
+pub fn check_routes_keeping(
+    routes: Vec<Route>,
+    profile: &Profile,
+    demo_profile: bool,
+    limits: &Limits,
+    keep_traces: bool,
+) -> CheckRun {
+    let routes = routes
+        .into_par_iter()
+        .map(|r| {
+            let mut checked = check_route_with(r, profile, limits);
+            if !keep_traces {
+                checked.trace.steps = Vec::new();
+            }
+            checked
+        })
+        .collect();
     CheckRun { vehicle_name: profile.vehicle.name.clone(), demo_profile, routes, terrain_map: None }
 }
 
@@ -234,4 +333,43 @@ pub fn add_drift(
     }
     progress.finish();
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::route::{Leg, SourcePosition};
+
+    fn route(legs: Vec<Leg>) -> Route {
+        Route { name: "r".into(), source: "planner".into(), origin: None, legs, warnings: Vec::new() }
+    }
+
+    fn straight(terrain: &str, from_x: f64, n: usize) -> Leg {
+        let points = (0..n).map(|i| [from_x + i as f64, 0.0]).collect();
+        Leg { speed_mps: Some(1.0), ..Leg::new(terrain, points, SourcePosition::Feature(0)) }
+    }
+
+    #[test]
+    fn screening_in_memory_matches_the_check_without_margins() {
+        let r = route(vec![straight("gravel", 0.0, 31), straight("asphalt", 30.0, 21)]);
+        let screened = screen_route(&r, &Profile::demo()).unwrap();
+        let mut checked = check_route(r, &Profile::demo()).report;
+        for leg in &mut checked.legs {
+            leg.max_passing_speed_mps = None;
+        }
+        assert_eq!(format!("{screened:?}"), format!("{checked:?}"));
+    }
+
+    #[test]
+    fn screening_refuses_what_a_file_could_not_give() {
+        let p = Profile::demo();
+        let err = |r: Route| screen_route(&r, &p).unwrap_err().to_string();
+        assert!(err(route(vec![straight("moon-dust", 0.0, 5)])).contains("unknown terrain"));
+        assert!(err(route(vec![straight("gravel", 0.0, 1)])).contains("at least 2"));
+        assert!(err(route(vec![straight("gravel", 0.0, 5), straight("gravel", 9.0, 5)])).contains("previous leg"));
+        let mut nan = straight("gravel", 0.0, 5);
+        nan.points[2][1] = f64::NAN;
+        assert!(err(route(vec![nan])).contains("not finite"));
+        assert!(err(route(Vec::new())).contains("no legs"));
+    }
 }

@@ -312,6 +312,7 @@ mod tests {
             corridors_m: None,
             cross_slope: None,
             position: SourcePosition::Feature(0),
+            added_points: None,
         }
     }
 

@@ -202,9 +202,10 @@ pub fn step_bounds_with_each_leg_at(route: &Route, profile: &Profile, speed_mps:
         .collect()
 }
 
-/// Steps reserved for the trace up front; longer rollouts grow it (a few reallocations in all,
-/// never one per step), so a pathological time bound cannot reserve gigabytes.
-const MAX_RESERVED_STEPS: usize = 1 << 18;
+/// Steps reserved for the trace up front (about 190 MB of address space, touched only as the
+/// trace fills); longer rollouts grow it (a few reallocations in all, never one per step), so a
+/// pathological time bound cannot reserve gigabytes.
+const MAX_RESERVED_STEPS: usize = 1 << 20;
 
 /// One control step of the trace.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
@@ -359,10 +360,14 @@ fn simulate(
         let ground = rear.ground.blend(&front.ground, under.front_share);
         let (grade, cross) = plan.slope_at_cursor(step.progress_m, &mut slope_cursor);
         let slope = Slope::new(grade, cross);
+        // sin and cos of the heading, once a step for the pursuit goal and the pose's step.
+        let sin_cos_yaw = pose.yaw_rad.sin_cos();
         let cmd = if drive.limits.slows_in_turns() {
-            follower.command_capped(pose, &legd.controller, |k| turn_speed_limit_mps(&drive.vehicle, &ground, k, slope))
+            follower.command_capped_with(pose, sin_cos_yaw, &legd.controller, |k| {
+                turn_speed_limit_mps(&drive.vehicle, &ground, k, slope)
+            })
         } else {
-            follower.command(pose, &legd.controller)
+            follower.command_capped_with(pose, sin_cos_yaw, &legd.controller, |_| f64::INFINITY)
         };
         let mut twist = ground_twist(&rear.actual, &front.actual, under.front_share, cmd.left_mps, cmd.right_mps);
         let (mut left, mut right) = (cmd.left_mps, cmd.right_mps);
@@ -384,7 +389,7 @@ fn simulate(
         if on_step(&step) == Flow::Stop {
             return None;
         }
-        pose = pose.step(twist, dt);
+        pose = pose.step_with(twist, dt, sin_cos_yaw);
         k += 1;
         t = k as f64 * dt;
     };
@@ -420,8 +425,9 @@ pub fn leg_influence_m(drive: &RouteDrive) -> f64 {
 /// never came near get `None`.
 pub fn roll_out_with_resumes(drive: &RouteDrive, max_steps: u64) -> (Trace, Vec<Option<Resume>>) {
     let limit_s = drive.time_limit_s();
-    // The planned time plus 20 s, as steps; `as` saturates a huge or NaN estimate.
-    let expected_steps = ((limit_s / 3.0) / drive.limits.dt_s) as usize;
+    // The planned time plus 20 s, as steps, and a tenth more for the slower driving in turns,
+    // so a normal rollout never reallocates its trace; `as` saturates a huge or NaN estimate.
+    let expected_steps = (1.1 * (limit_s / 3.0) / drive.limits.dt_s) as usize;
     let mut steps = Vec::with_capacity(expected_steps.min(MAX_RESERVED_STEPS) + 64);
     let n_legs = drive.legs.len();
     let mut resumes: Vec<Option<Resume>> = vec![None; n_legs];
@@ -613,6 +619,7 @@ mod tests {
                 corridors_m: None,
                 cross_slope: None,
                 position: crate::route::SourcePosition::Line(2),
+                added_points: None,
             }],
             warnings: Vec::new(),
         };

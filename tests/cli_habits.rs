@@ -246,6 +246,37 @@ fn terminal_tables_fit_the_width_and_wide_shows_all() {
     assert!(wide.contains("thrust N") && wide.contains("RMS dev.") && !wide.contains("left out"), "{wide}");
 }
 
+/// `check FOLDER --format jsonl` alone checks the routes a bounded number at a time; its lines
+/// are the ones a run holding every route gives (the same command with `--report`, which keeps
+/// them all), in input order, with a bad file's error line in its place under `--keep-going`.
+#[test]
+fn json_lines_of_a_large_folder_are_streamed_in_input_order() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let routes = dir.path().join("routes");
+    std::fs::create_dir(&routes).expect("mkdir");
+    for i in 0..150 {
+        // 20 m routes, some with a corner too sharp for deep snow, so verdicts differ.
+        let corner = if i % 7 == 0 { "20,10" } else { "30,0" };
+        let text = format!(
+            "x_m,y_m,terrain,speed_mps\n0,0,deep-snow,1.2\n10,{},deep-snow,1.2\n{corner},deep-snow,1.2\n",
+            i % 3
+        );
+        std::fs::write(routes.join(format!("r{i:03}.csv")), text).expect("write route");
+    }
+    std::fs::write(routes.join("r070.csv"), "x_m,y_m,terrain\n0,0,moon-dust\n5,0,moon-dust\n").expect("write bad");
+    let report = dir.path().join("all.json");
+    let streamed = run(&["check", s(&routes), "--format", "jsonl", "--keep-going"]);
+    let held = run(&["check", s(&routes), "--format", "jsonl", "--keep-going", "--report", s(&report)]);
+    assert_eq!(streamed.status.code(), Some(2));
+    assert_eq!(held.status.code(), Some(2));
+    let lines = text(&streamed.stdout);
+    assert_eq!(lines.lines().count(), 150);
+    assert!(lines.lines().nth(70).is_some_and(|l| l.contains("skidroute-check-error/1") && l.contains("r070.csv")));
+    assert!(lines.lines().nth(71).is_some_and(|l| l.contains("r071")));
+    assert_eq!(lines, text(&held.stdout));
+    assert!(lines.contains("\"verdict\":\"fail\"") && lines.contains("\"verdict\":\"pass\""));
+}
+
 /// On a narrow terminal the measure `compare` ranks by stays in the table, whatever its place
 /// among the other columns (runs under `script`, skipped where it is not installed).
 #[test]

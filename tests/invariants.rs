@@ -36,6 +36,7 @@ fn route(points: &[[f64; 2]]) -> Route {
         corridors_m: None,
         cross_slope: None,
         position: SourcePosition::Feature(i),
+        added_points: None,
     };
     Route {
         name: "p".into(),

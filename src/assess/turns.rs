@@ -234,15 +234,34 @@ pub fn check_turns(drive: &RouteDrive, leg: usize, plan: &LegPlan, top_speed_mps
     let scale = if plan.speed_mps > 0.0 { top_speed_mps / plan.speed_mps } else { 1.0 };
     // Most legs plan one speed: the kinematic limit is then computed once.
     let mut kinematic_at = (f64::NAN, 0.0);
+    // Consecutive vertices mostly share ground, speed, slope and direction (a dense plan has
+    // thousands a leg): the traction limit is recomputed only when one of them changes, compared
+    // bit for bit, so the result is the one computed afresh.
+    let mut traction_at: Option<([u64; 7], f64)> = None;
     let mut at = |speed_mps: f64, t: Option<&TurnPoint>| {
         if kinematic_at.0 != speed_mps {
             kinematic_at = (speed_mps, kinematic_curvature_limit(&drive.limits, &ld.controller, &ld.actual, speed_mps));
         }
         let (ground, slope, sign) = t.map_or((&ld.ground, Slope::LEVEL, 1.0), |t| (&t.ground, t.slope(), t.sign()));
-        Achievable {
-            kinematic_per_m: kinematic_at.1,
-            traction_per_m: Some(traction_curvature_limit_toward(&drive.vehicle, ground, speed_mps, slope, sign)),
-        }
+        let key = [
+            ground.rolling_resistance,
+            ground.traction_coefficient,
+            ground.lateral_resistance_max,
+            speed_mps,
+            slope.grade_rad,
+            slope.cross_slope,
+            sign,
+        ]
+        .map(f64::to_bits);
+        let traction_per_m = match traction_at {
+            Some((k, v)) if k == key => v,
+            _ => {
+                let v = traction_curvature_limit_toward(&drive.vehicle, ground, speed_mps, slope, sign);
+                traction_at = Some((key, v));
+                v
+            }
+        };
+        Achievable { kinematic_per_m: kinematic_at.1, traction_per_m: Some(traction_per_m) }
     };
     let tightest = plan.turns.iter().find(|t| t.s_m == plan.tightest_at_m);
     let mut check = TurnCheck {

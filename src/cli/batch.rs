@@ -25,13 +25,24 @@ pub enum Format {
 /// FILE, "error": MESSAGE}`.
 pub fn jsonl_with_bad_files(run: &CheckRun, files: &[std::path::PathBuf], bad: &[BadFile]) -> String {
     let all = report::jsonl::check_jsonl(run);
-    let lines: Vec<(&std::path::Path, &str)> =
-        run.routes.iter().map(|r| r.route.source.as_path()).zip(all.lines()).collect();
+    let lines: Vec<(&Path, &str)> = run.routes.iter().map(|r| r.route.source.as_path()).zip(all.lines()).collect();
+    jsonl_lines_with_bad_files(&lines, files, bad)
+}
+
+/// [`jsonl_with_bad_files`] from the route lines already rendered, each with its source file,
+/// in the run's order.
+pub fn jsonl_lines_with_bad_files(lines: &[(&Path, &str)], files: &[std::path::PathBuf], bad: &[BadFile]) -> String {
+    // Each source's lines in order, found in one pass (a folder of 10 000 files would otherwise
+    // take 10 000 scans of every line).
+    let mut by_source: std::collections::HashMap<&Path, Vec<&str>> = std::collections::HashMap::new();
+    for (from, line) in lines {
+        by_source.entry(from).or_default().push(line);
+    }
     let mut out = String::new();
     for file in files {
         // Routes read from standard input (`-`) carry the name the reader gives it.
-        let source = if file.as_path() == std::path::Path::new(skidroute::route::STDIN_ARG) {
-            std::path::Path::new(skidroute::route::STDIN_NAME)
+        let source = if file.as_path() == Path::new(skidroute::route::STDIN_ARG) {
+            Path::new(skidroute::route::STDIN_NAME)
         } else {
             file.as_path()
         };
@@ -44,7 +55,7 @@ pub fn jsonl_with_bad_files(run: &CheckRun, files: &[std::path::PathBuf], bad: &
             out.push_str(&line.to_string());
             out.push('\n');
         }
-        for (_, line) in lines.iter().filter(|(from, _)| *from == source) {
+        for line in by_source.get(source).into_iter().flatten() {
             out.push_str(line);
             out.push('\n');
         }

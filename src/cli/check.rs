@@ -110,7 +110,21 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
     if a.drift {
         skidroute::check::charge_work(&budget, &routes, &profile, a.samples, "the drift estimate of")?;
     }
-    let mut run = skidroute::check::check_routes_with(routes, &profile, demo, &limits);
+    // Only these outputs draw on the traces; without them each trace is dropped once assessed.
+    let keep_traces = outputs.trace_csv.is_some()
+        || outputs.predicted_geojson.is_some()
+        || outputs.plot.is_some()
+        || a.html.is_some();
+    if a.format == super::batch::Format::Jsonl
+        && !keep_traces
+        && !a.drift
+        && outputs.report_json.is_none()
+        && !stdout_taken
+    {
+        let verdict = jsonl_streamed(routes, &profile, demo, &limits, &files, &bad_files)?;
+        return Ok(exit_code(verdict, &bad_files, a.strict));
+    }
+    let mut run = skidroute::check::check_routes_keeping(routes, &profile, demo, &limits, keep_traces);
     run.terrain_map = site.terrain_map.clone();
     if a.drift {
         let settings = DriftSettings {
@@ -138,13 +152,58 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
         let opts = TableOptions { color: color_wanted(), strict: a.strict, max_width: table_width(a.wide) };
         emit(&report::table::check_table(&run, &opts))?;
     }
-    if !bad_files.is_empty() {
-        return Ok(ExitCode::from(2));
+    Ok(exit_code(run.verdict(), &bad_files, a.strict))
+}
+
+/// Routes the JSON Lines pipeline checks at once: enough to keep every core busy, few enough
+/// that the memory of their simulations stays small whatever the number of routes.
+const JSONL_ROUTES_IN_FLIGHT: usize = 64;
+
+/// `check --format jsonl` with no other output: the routes are checked a bounded number at a
+/// time and only their lines are kept, then printed in input order (bad files' lines in their
+/// place). The same lines as checking them all at once; returns the worst verdict.
+fn jsonl_streamed(
+    routes: Vec<skidroute::route::Route>,
+    profile: &skidroute::vehicle::Profile,
+    demo: bool,
+    limits: &skidroute::limits::Limits,
+    files: &[PathBuf],
+    bad_files: &[skidroute::batch::BadFile],
+) -> Result<Verdict> {
+    let mut lines: Vec<(PathBuf, String)> = Vec::with_capacity(routes.len());
+    let mut verdict = Verdict::Pass;
+    let mut routes = routes.into_iter();
+    loop {
+        let batch: Vec<_> = routes.by_ref().take(JSONL_ROUTES_IN_FLIGHT).collect();
+        if batch.is_empty() {
+            break;
+        }
+        let run = skidroute::check::check_routes_keeping(batch, profile, demo, limits, false);
+        verdict = verdict.max(run.verdict());
+        let text = report::jsonl::check_jsonl(&run);
+        lines.extend(run.routes.iter().map(|r| r.route.source.clone()).zip(text.lines().map(str::to_string)));
     }
-    let failing = match run.verdict() {
+    for bad in bad_files {
+        super::print_error(&bad.error);
+    }
+    let refs: Vec<(&std::path::Path, &str)> = lines.iter().map(|(p, l)| (p.as_path(), l.as_str())).collect();
+    emit(&super::batch::jsonl_lines_with_bad_files(&refs, files, bad_files))?;
+    Ok(verdict)
+}
+
+/// 2 when files were skipped; 1 when a route fails (or earns a caution under `--strict`); 0.
+fn exit_code(verdict: Verdict, bad_files: &[skidroute::batch::BadFile], strict: bool) -> ExitCode {
+    if !bad_files.is_empty() {
+        return ExitCode::from(2);
+    }
+    let failing = match verdict {
         Verdict::Fail => true,
-        Verdict::Caution => a.strict,
+        Verdict::Caution => strict,
         Verdict::Pass => false,
     };
-    Ok(if failing { ExitCode::from(1) } else { ExitCode::SUCCESS })
+    if failing {
+        ExitCode::from(1)
+    } else {
+        ExitCode::SUCCESS
+    }
 }

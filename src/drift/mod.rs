@@ -240,6 +240,7 @@ pub struct DriftReport {
 ///     corridors_m: None,
 ///     cross_slope: None,
 ///     position: SourcePosition::Feature(0),
+///     added_points: None,
 /// };
 /// let route = Route { name: "r".into(), source: "r.geojson".into(), origin: None, legs: vec![leg], warnings: vec![] };
 /// let settings = DriftSettings { samples: 20, ..DriftSettings::default() };

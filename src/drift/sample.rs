@@ -168,7 +168,10 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
         }
         let localized = s < setup.loss_start_m;
         let leg = follower.leg();
-        let cmd = follower.command(believed, &drive.legs[leg].controller);
+        // sin and cos of the believed heading, once a step for the pursuit goal and dead reckoning.
+        let believed_sin_cos = believed.yaw_rad.sin_cos();
+        let cmd =
+            follower.command_capped_with(believed, believed_sin_cos, &drive.legs[leg].controller, |_| f64::INFINITY);
         // The terrain under the true vehicle, at the plan point it is nearest to, blended over the
         // contact length (the rule of the check: rollout::ground_twist).
         let (true_leg, mut twist) = if single_terrain {
@@ -190,7 +193,7 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
             if let Some(g) = &setup.gyro {
                 odo.omega_radps = g.measure(twist.omega_radps, gyro_bias_radps, dt, &mut rng);
             }
-            believed.step(odo, dt)
+            believed.step_with(odo, dt, believed_sin_cos)
         };
         if let Some(p) = path.as_mut() {
             since_point_m += ds_m;

@@ -20,6 +20,7 @@ fn leg(terrain: &str, points: Vec<[f64; 2]>) -> Leg {
         corridors_m: None,
         cross_slope: None,
         position: SourcePosition::Feature(0),
+        added_points: None,
     }
 }
 

@@ -239,6 +239,19 @@ impl<'a> Follower<'a> {
     /// speed then ramps to it at the side-acceleration limit like any other target.
     #[inline]
     pub fn command_capped(&mut self, pose: Pose, controller: &Model, cap: impl Fn(f64) -> f64) -> Command {
+        self.command_capped_with(pose, pose.yaw_rad.sin_cos(), controller, cap)
+    }
+
+    /// [`Follower::command_capped`] given `(sin, cos)` of the pose's yaw (the simulation computes
+    /// them once a step for this and for the pose's step; same result to the bit).
+    #[inline]
+    pub fn command_capped_with(
+        &mut self,
+        pose: Pose,
+        sin_cos_yaw: (f64, f64),
+        controller: &Model,
+        cap: impl Fn(f64) -> f64,
+    ) -> Command {
         let lim = self.limits;
         let goal = self.plan.pursuit_goal_at(
             [pose.x_m, pose.y_m],
@@ -247,7 +260,7 @@ impl<'a> Follower<'a> {
             3.0 * lim.lookahead_m,
             self.cursor,
         );
-        let (gx, gy) = pose.to_body(goal[0], goal[1]);
+        let (gx, gy) = pose.to_body_with(goal[0], goal[1], sin_cos_yaw);
         let kappa = pursuit_curvature(gx, gy);
         let dv = lim.max_side_accel_mps2 * lim.dt_s;
         let mut target = self.target_speed_mps();

@@ -29,6 +29,14 @@ impl Pose {
     /// rotated by the current yaw; for |theta| < 1e-9 the straight step (vx dt, vy dt).
     #[inline]
     pub fn step(self, twist: Twist, dt_s: f64) -> Pose {
+        self.step_with(twist, dt_s, self.yaw_rad.sin_cos())
+    }
+
+    /// [`Pose::step`] given `(sin, cos)` of this pose's yaw, as [`f64::sin_cos`] returns them (a
+    /// caller that already has them for [`Pose::to_body_with`] saves computing them again; the
+    /// result is the same to the bit).
+    #[inline]
+    pub fn step_with(self, twist: Twist, dt_s: f64, sin_cos_yaw: (f64, f64)) -> Pose {
         let theta = twist.omega_radps * dt_s;
         let (dx, dy) = if theta.abs() < 1e-9 {
             (twist.vx_mps * dt_s, twist.vy_mps * dt_s)
@@ -42,14 +50,20 @@ impl Pose {
                 (twist.vx_mps * one_minus_c + twist.vy_mps * s) * inv_w,
             )
         };
-        let (sy, cy) = self.yaw_rad.sin_cos();
+        let (sy, cy) = sin_cos_yaw;
         Pose { x_m: self.x_m + cy * dx - sy * dy, y_m: self.y_m + sy * dx + cy * dy, yaw_rad: self.yaw_rad + theta }
     }
 
     /// A local-frame point expressed in this pose's body frame.
     #[inline]
     pub fn to_body(self, x_m: f64, y_m: f64) -> (f64, f64) {
-        let (s, c) = self.yaw_rad.sin_cos();
+        self.to_body_with(x_m, y_m, self.yaw_rad.sin_cos())
+    }
+
+    /// [`Pose::to_body`] given `(sin, cos)` of this pose's yaw (see [`Pose::step_with`]).
+    #[inline]
+    pub fn to_body_with(self, x_m: f64, y_m: f64, sin_cos_yaw: (f64, f64)) -> (f64, f64) {
+        let (s, c) = sin_cos_yaw;
         let (dx, dy) = (x_m - self.x_m, y_m - self.y_m);
         (c * dx + s * dy, -s * dx + c * dy)
     }

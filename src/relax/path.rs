@@ -135,6 +135,8 @@ pub(super) fn split_into_legs(
         let stations: Vec<_> = slice.iter().map(|q| leg.station_at_arc_m(&arc_m, q.s_m - leg_start_m)).collect();
         let mut out = leg.resampled(&stations);
         out.points = slice.iter().map(|q| q.p).collect();
+        // The new plan's points are all its own vertices (the fillets are the new curves).
+        out.added_points = None;
         out.altitude_m = has_alt.then(|| slice.iter().map(|q| drive.plan.altitude_at(q.s_m).unwrap_or(0.0)).collect());
         if let Some(v) = speeds.get(i).copied().flatten() {
             match out.speeds_mps.take() {

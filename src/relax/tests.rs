@@ -21,6 +21,7 @@ fn leg(points: Vec<[f64; 2]>, terrain: &str, speed_mps: f64) -> Leg {
         corridors_m: None,
         cross_slope: None,
         position: SourcePosition::Line(2),
+        added_points: None,
     }
 }
 
@@ -202,6 +203,35 @@ fn corners_whose_fillets_overlap_are_filleted_as_one() {
     // The outer sides (y = 0 and x = p2.x) meet at (p2.x, 0).
     assert_relative_eq!(c.x_m, p2[0], epsilon = 1e-9);
     assert_relative_eq!(c.y_m, 0.0, epsilon = 1e-9);
+}
+
+/// With a planner's speed profile, a corner's fillet is sized for the speed planned at the
+/// corner (as the check judges the turn there), not for the leg's top speed: an L on gravel
+/// (where the yaw-rate limit, omega_max / v, sets the radius) planned at 1.5 m/s but slowed to
+/// 0.5 m/s around the corner gets the fillet of the same L planned at 0.5 m/s throughout, and
+/// a tighter one than at 1.5 m/s.
+#[test]
+fn fillets_are_sized_for_the_speed_planned_at_the_corner() {
+    let profile = Profile::demo();
+    let mut pts = Vec::new();
+    for k in 0..=120 {
+        pts.push([k as f64 * 0.25, 0.0]);
+    }
+    for k in 1..=120 {
+        pts.push([30.0, k as f64 * 0.25]);
+    }
+    let slow_near_corner: Vec<f64> = pts.iter().map(|p| if dist(*p, [30.0, 0.0]) < 6.0 { 0.5 } else { 1.5 }).collect();
+    let mut profiled = leg(pts.clone(), "gravel", 1.5);
+    profiled.set_speed_profile(slow_near_corner);
+    let radius = |l: Leg| {
+        let relaxed = relax_route(&route(vec![l]), &profile, &RelaxSettings::default()).expect("relax");
+        assert_eq!(relaxed.changes.len(), 1, "{:?}", relaxed.unrepaired);
+        relaxed.changes[0].new_radius_m
+    };
+    let (with_profile, slow, fast) =
+        (radius(profiled), radius(leg(pts.clone(), "gravel", 0.5)), radius(leg(pts, "gravel", 1.5)));
+    assert_relative_eq!(with_profile, slow, max_relative = 1e-9);
+    assert!(with_profile < 0.5 * fast, "{with_profile} m against {fast} m at 1.5 m/s");
 }
 
 /// A planner that slows for a corner: relax reads the speed planned at the corner, not the leg's

@@ -274,6 +274,7 @@ mod tests {
             corridors_m: None,
             cross_slope: None,
             position: SourcePosition::Feature(0),
+            added_points: None,
         };
         let route = Route {
             name: "r".into(),

@@ -703,6 +703,7 @@ mod tests {
             corridors_m: None,
             cross_slope: None,
             position: crate::route::SourcePosition::Feature(0),
+            added_points: None,
         };
         let route = crate::route::Route {
             name: "crawl".into(),

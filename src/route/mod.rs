@@ -66,6 +66,11 @@ pub struct Leg {
     /// slope angle across the direction of travel, positive when the ground is higher on the
     /// left (README, "Elevation raster").
     pub cross_slope: Option<Vec<f64>>,
+    /// For each point, true when it was added after reading (a terrain-map cut or the spacing
+    /// of an elevation raster: it lies on a segment of the planner's path), so the plan's
+    /// curvature is read on the planner's own vertices only; `None` when every point is the
+    /// planner's.
+    pub added_points: Option<Vec<bool>>,
     pub position: SourcePosition,
 }
 
@@ -84,6 +89,7 @@ impl Leg {
             corridors_m: None,
             cross_slope: None,
             position,
+            added_points: None,
         }
     }
 

@@ -37,6 +37,57 @@ pub struct PlanPath {
     /// Signed curvature each segment bends with when the plan's curvature is read
     /// (docs/method.md, Plan curvature).
     bend_per_m: Vec<f64>,
+    /// A circle around the points of every block of [`BLOCK_SEGMENTS`] segments: the window
+    /// searches skip a block that cannot hold their answer, so a dense plan costs them O(1)
+    /// segments per query instead of one per point in the window.
+    blocks: Vec<BlockBound>,
+    /// The planner's own vertices, when points were added after reading (map cuts, raster
+    /// spacing): the plan's curvature is read on them alone (docs/method.md, Plan curvature).
+    own: Option<OwnVertices>,
+}
+
+/// The plan through the planner's own vertices only, and where each is in the full plan.
+#[derive(Debug, Clone)]
+struct OwnVertices {
+    /// Index in the full plan of each own vertex.
+    index: Vec<usize>,
+    plan: Box<PlanPath>,
+}
+
+/// Segments per block of [`PlanPath`]'s bounding circles.
+const BLOCK_SEGMENTS: usize = 8;
+
+/// Slack, metres, by which a bounding circle must clear a query before its block is skipped, far
+/// above the rounding of the per-segment arithmetic, so skipping never changes an answer.
+const BLOCK_SLACK_M: f64 = 1e-6;
+
+/// A circle holding every point of a block of segments (so every point between them).
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct BlockBound {
+    centre: [f64; 2],
+    radius_m: f64,
+}
+
+impl BlockBound {
+    /// The bounding circle of `points` (the centre of their bounding box).
+    fn around(points: &[[f64; 2]]) -> BlockBound {
+        let (mut lo, mut hi) = ([f64::INFINITY; 2], [f64::NEG_INFINITY; 2]);
+        for p in points {
+            for k in 0..2 {
+                lo[k] = lo[k].min(p[k]);
+                hi[k] = hi[k].max(p[k]);
+            }
+        }
+        let centre = [0.5 * (lo[0] + hi[0]), 0.5 * (lo[1] + hi[1])];
+        let radius_m = points.iter().map(|&p| dist(p, centre)).fold(0.0, f64::max);
+        BlockBound { centre, radius_m }
+    }
+
+    /// Distance from `p` to the centre.
+    #[inline]
+    fn centre_distance_m(&self, p: [f64; 2]) -> f64 {
+        dist(p, self.centre)
+    }
 }
 
 /// A remembered segment index that makes repeated queries near the same place cheap: the
@@ -72,11 +123,26 @@ impl PlanPath {
         let has_alt = route.legs.iter().all(|l| l.altitude_m.is_some());
         let has_cross = route.legs.iter().all(|l| l.cross_slope.is_some());
         let mut leg_first_index = Vec::with_capacity(route.legs.len());
+        let mut added: Vec<bool> = Vec::new();
+        let any_added = route.legs.iter().any(|l| l.added_points.is_some());
         for leg in &route.legs {
+            // A boundary point was added when either leg says so (a map cut adds it to both).
+            let mut boundary_added = false;
             if !points.is_empty() {
                 points.pop();
                 alt.pop();
                 cross.pop();
+                boundary_added = added.pop().unwrap_or(false);
+            }
+            if any_added {
+                let first = added.len();
+                added.extend(
+                    (0..leg.points.len())
+                        .map(|i| leg.added_points.as_ref().and_then(|a| a.get(i).copied()).unwrap_or(false)),
+                );
+                if let Some(a) = added.get_mut(first) {
+                    *a |= boundary_added;
+                }
             }
             leg_first_index.push(points.len());
             points.extend_from_slice(&leg.points);
@@ -87,7 +153,22 @@ impl PlanPath {
                 cross.extend_from_slice(c);
             }
         }
-        Self::from_parts(points, &leg_first_index, has_alt.then_some(alt)).with_cross_slope(has_cross.then_some(cross))
+        Self::from_parts(points, &leg_first_index, has_alt.then_some(alt))
+            .with_cross_slope(has_cross.then_some(cross))
+            .with_added_points(any_added.then_some(added))
+    }
+
+    /// This plan with the points marked in `added` (one flag per point) taken as added after
+    /// reading: its curvature is then read on the other points, the planner's own vertices
+    /// (the two ends always count as own). Ignored unless it has one flag per point.
+    pub fn with_added_points(mut self, added: Option<Vec<bool>>) -> PlanPath {
+        let n = self.points.len();
+        let Some(added) = added.filter(|a| a.len() == n && a.iter().any(|&x| x)) else { return self };
+        let index: Vec<usize> = (0..n).filter(|&i| i == 0 || i + 1 == n || !added[i]).collect();
+        let points = index.iter().map(|&i| self.points[i]).collect();
+        let plan = Box::new(PlanPath::from_parts(points, &[0], None));
+        self.own = Some(OwnVertices { index, plan });
+        self
     }
 
     /// This plan with a cross slope at every point (tangent, positive when the ground is higher
@@ -134,6 +215,12 @@ impl PlanPath {
         let bend_per_m = curvature::segment_bends(&points);
         let leg_first_point = leg_first_index.to_vec();
         let altitude_m = altitude_m.filter(|a| a.len() == points.len());
+        let blocks = (0..points.len().saturating_sub(1).div_ceil(BLOCK_SEGMENTS))
+            .map(|b| {
+                let first = b * BLOCK_SEGMENTS;
+                BlockBound::around(&points[first..(first + BLOCK_SEGMENTS + 1).min(points.len())])
+            })
+            .collect();
         PlanPath {
             points,
             s_m,
@@ -144,6 +231,8 @@ impl PlanPath {
             cross_slope: None,
             leg_first_point,
             bend_per_m,
+            blocks,
+            own: None,
         }
     }
 
@@ -224,25 +313,51 @@ impl PlanPath {
         i.saturating_sub(1).min(self.points.len().saturating_sub(2))
     }
 
-    /// Same result as `segment_at`, found by walking from `hint` (a few steps at most in the
-    /// follower's use), falling back to bisection when the hint is far off.
+    /// Same result as `segment_at`, found from `hint` by a galloping search (steps of 1, 2, 4,
+    /// ... then bisection inside the bracket): O(log d) for an answer d segments from the hint,
+    /// so a window search costs the same on a dense plan as on a sparse one.
     #[inline]
     fn segment_from(&self, s_m: f64, hint: usize) -> usize {
         let last = self.points.len().saturating_sub(2);
-        let mut i = hint.min(last);
-        for _ in 0..32 {
-            if s_m < self.s_m[i] {
-                if i == 0 {
-                    return 0;
-                }
-                i -= 1;
-            } else if i < last && s_m >= self.s_m[i + 1] {
-                i += 1;
-            } else {
-                return i;
-            }
+        let i = hint.min(last);
+        if s_m.is_nan() {
+            return i;
         }
-        self.segment_at(s_m)
+        if s_m < self.s_m[i] {
+            if i == 0 {
+                return 0;
+            }
+            // Gallop back to a point at or before `s_m` (or the first point).
+            let (mut hi, mut step) = (i, 1);
+            let lo = loop {
+                let lo = hi.saturating_sub(step);
+                if lo == 0 || self.s_m[lo] <= s_m {
+                    break lo;
+                }
+                hi = lo;
+                step *= 2;
+            };
+            let k = self.s_m[lo..hi].partition_point(|&x| x <= s_m);
+            return (lo + k).saturating_sub(1);
+        }
+        if i >= last || s_m < self.s_m[i + 1] {
+            return i;
+        }
+        // Gallop forward to a point beyond `s_m` (or past the last segment).
+        let (mut lo, mut step) = (i + 1, 1);
+        let hi = loop {
+            let hi = lo + step;
+            if hi > last {
+                break last + 1;
+            }
+            if self.s_m[hi] > s_m {
+                break hi;
+            }
+            lo = hi;
+            step *= 2;
+        };
+        let k = self.s_m[lo..hi].partition_point(|&x| x <= s_m);
+        (lo + k).saturating_sub(1).max(lo.min(last))
     }
 
     /// Point at arc length `s_m`, clamped to the ends.
@@ -373,37 +488,81 @@ impl PlanPath {
     }
 
     /// [`PlanPath::nearest_within`] with a cursor, which is moved to the segment of `from_m`.
+    /// Long windows start from the segment the cursor was at and skip every block of segments
+    /// whose bounding circle lies farther than the best point found so far; ties go to the
+    /// earliest segment, so the answer is the one a scan of every segment in order gives.
     #[inline]
     pub fn nearest_within_at(&self, p: [f64; 2], from_m: f64, to_m: f64, cursor: &mut Cursor) -> Nearest {
+        let hint = cursor.segment;
         let first = self.segment_from(from_m, cursor.segment);
         cursor.segment = first;
         let last = self.segment_from(to_m, first);
-        let total = self.length_m();
         let (mut best_d2, mut best_s, mut best_side) = (f64::INFINITY, from_m, 0.0);
-        for i in first..=last {
-            let (s_i, s_j) = (self.s_m[i], self.s_m[i + 1]);
-            let (s0, s1) = (s_i.max(from_m), s_j.min(to_m));
-            if s_j <= s_i || s1 < s0 {
-                continue;
+        if last < first + 2 * BLOCK_SEGMENTS {
+            for i in first..=last {
+                if let Some((d2, s, side)) = self.segment_distance(p, i, from_m, to_m) {
+                    if d2 < best_d2 {
+                        (best_d2, best_s, best_side) = (d2, s, side);
+                    }
+                }
             }
-            let (a, d) = (self.points[i], self.dir[i]);
-            let (px, py) = (p[0] - a[0], p[1] - a[1]);
-            let along = px * d[0] + py * d[1];
-            let lateral = d[0] * py - d[1] * px;
-            let raw_s = s_i + along;
-            let s = raw_s.clamp(s0, s1);
-            // Before the start or past the end of the plan only the lateral offset counts (the
-            // plan's end lines extend straight), so overshooting the end is not a deviation.
-            let off_ends =
-                (i == 0 && raw_s < 0.0 && s0 <= 0.0) || (i + 2 == self.points.len() && raw_s > s1 && s1 >= total);
-            let gap = if off_ends { 0.0 } else { raw_s - s };
-            let d2 = lateral * lateral + gap * gap;
-            if d2 < best_d2 {
-                (best_d2, best_s, best_side) = (d2, s, lateral);
+        } else {
+            let seed = hint.clamp(first, last);
+            let mut best_i = usize::MAX;
+            if let Some((d2, s, side)) = self.segment_distance(p, seed, from_m, to_m) {
+                (best_d2, best_s, best_side, best_i) = (d2, s, side, seed);
+            }
+            let end_segment = self.points.len().saturating_sub(2);
+            for b in first / BLOCK_SEGMENTS..=last / BLOCK_SEGMENTS {
+                let (lo, hi) = (b * BLOCK_SEGMENTS, b * BLOCK_SEGMENTS + BLOCK_SEGMENTS - 1);
+                // The end segments measure only the lateral offset beyond the plan's ends, which
+                // the circle does not bound: their blocks are always searched.
+                if lo > 0 && hi < end_segment {
+                    if let Some(block) = self.blocks.get(b) {
+                        let clear_m = block.centre_distance_m(p) - block.radius_m - BLOCK_SLACK_M;
+                        if clear_m > 0.0 && clear_m * clear_m > best_d2 {
+                            continue;
+                        }
+                    }
+                }
+                for i in lo.max(first)..=hi.min(last) {
+                    if i == seed {
+                        continue;
+                    }
+                    if let Some((d2, s, side)) = self.segment_distance(p, i, from_m, to_m) {
+                        if d2 < best_d2 || (d2 == best_d2 && i < best_i) {
+                            (best_d2, best_s, best_side, best_i) = (d2, s, side, i);
+                        }
+                    }
+                }
             }
         }
         let distance_m = best_d2.sqrt();
         Nearest { s_m: best_s, distance_m, signed_offset_m: if best_side >= 0.0 { distance_m } else { -distance_m } }
+    }
+
+    /// Squared distance from `p` to the part of segment `i` with arc length in `[from_m, to_m]`,
+    /// the arc length of the nearest point there and the signed lateral offset; `None` for a
+    /// zero-length segment or one outside the window.
+    #[inline(always)]
+    fn segment_distance(&self, p: [f64; 2], i: usize, from_m: f64, to_m: f64) -> Option<(f64, f64, f64)> {
+        let (s_i, s_j) = (self.s_m[i], self.s_m[i + 1]);
+        let (s0, s1) = (s_i.max(from_m), s_j.min(to_m));
+        if s_j <= s_i || s1 < s0 {
+            return None;
+        }
+        let (a, d) = (self.points[i], self.dir[i]);
+        let (px, py) = (p[0] - a[0], p[1] - a[1]);
+        let along = px * d[0] + py * d[1];
+        let lateral = d[0] * py - d[1] * px;
+        let raw_s = s_i + along;
+        let s = raw_s.clamp(s0, s1);
+        // Before the start or past the end of the plan only the lateral offset counts (the
+        // plan's end lines extend straight), so overshooting the end is not a deviation.
+        let off_ends =
+            (i == 0 && raw_s < 0.0 && s0 <= 0.0) || (i + 2 == self.points.len() && raw_s > s1 && s1 >= self.length_m());
+        let gap = if off_ends { 0.0 } else { raw_s - s };
+        Some((lateral * lateral + gap * gap, s, lateral))
     }
 
     /// The pure-pursuit goal: the first point of the plan beyond arc length `from_m` that lies at
@@ -430,23 +589,19 @@ impl PlanPath {
         let first = self.segment_from(from_m, cursor.segment);
         let last = self.segment_from(to_m, first);
         let l2 = lookahead_m * lookahead_m;
-        for i in first..=last {
-            let (s_i, s_j) = (self.s_m[i], self.s_m[i + 1]);
-            if s_j <= s_i {
-                continue;
+        for b in first / BLOCK_SEGMENTS..=last / BLOCK_SEGMENTS {
+            // A block wholly inside or wholly outside the circle of radius L round `p` has no
+            // point at distance L.
+            if let Some(block) = self.blocks.get(b) {
+                let c = block.centre_distance_m(p);
+                if c + block.radius_m < lookahead_m - BLOCK_SLACK_M || c - block.radius_m > lookahead_m + BLOCK_SLACK_M
+                {
+                    continue;
+                }
             }
-            // Points a + u d of the segment at distance L from p: u^2 + 2 u (f.d) + |f|^2 - L^2 = 0
-            // with f = a - p; the larger root, if it lies on the searched part of the segment.
-            let (a, d) = (self.points[i], self.dir[i]);
-            let (fx, fy) = (a[0] - p[0], a[1] - p[1]);
-            let fd = fx * d[0] + fy * d[1];
-            let disc = fd * fd - (fx * fx + fy * fy - l2);
-            if disc < 0.0 {
-                continue;
-            }
-            let u = -fd + disc.sqrt();
-            if u >= from_m.max(s_i) - s_i && u <= to_m.min(s_j) - s_i {
-                return [a[0] + u * d[0], a[1] + u * d[1]];
+            let (lo, hi) = ((b * BLOCK_SEGMENTS).max(first), (b * BLOCK_SEGMENTS + BLOCK_SEGMENTS - 1).min(last));
+            if let Some(goal) = self.goal_on_segments(p, lo, hi, from_m, to_m, l2) {
+                return goal;
             }
         }
         if to_m >= total {
@@ -464,6 +619,32 @@ impl PlanPath {
             }
         }
         self.point_at((from_m + lookahead_m).min(total))
+    }
+
+    /// The first point of segments `lo..=hi` with arc length in `[from_m, to_m]` at squared
+    /// distance `l2` from `p` where the segment leaves the circle (the pursuit goal's test).
+    #[inline]
+    fn goal_on_segments(&self, p: [f64; 2], lo: usize, hi: usize, from_m: f64, to_m: f64, l2: f64) -> Option<[f64; 2]> {
+        for i in lo..=hi {
+            let (s_i, s_j) = (self.s_m[i], self.s_m[i + 1]);
+            if s_j <= s_i {
+                continue;
+            }
+            // Points a + u d of the segment at distance L from p: u^2 + 2 u (f.d) + |f|^2 - L^2 = 0
+            // with f = a - p; the larger root, if it lies on the searched part of the segment.
+            let (a, d) = (self.points[i], self.dir[i]);
+            let (fx, fy) = (a[0] - p[0], a[1] - p[1]);
+            let fd = fx * d[0] + fy * d[1];
+            let disc = fd * fd - (fx * fx + fy * fy - l2);
+            if disc < 0.0 {
+                continue;
+            }
+            let u = -fd + disc.sqrt();
+            if u >= from_m.max(s_i) - s_i && u <= to_m.min(s_j) - s_i {
+                return Some([a[0] + u * d[0], a[1] + u * d[1]]);
+            }
+        }
+        None
     }
 }
 
@@ -601,6 +782,53 @@ mod tests {
         // A stale cursor far away still gives the same answer.
         let mut far = Cursor { segment: 190 };
         assert_eq!(plan.nearest_within_at([1.0, 0.0], 0.0, 2.0, &mut far), plan.nearest_within([1.0, 0.0], 0.0, 2.0));
+    }
+
+    /// The window searches without blocks or galloping: every segment in order.
+    fn nearest_by_scan(plan: &PlanPath, p: [f64; 2], from_m: f64, to_m: f64) -> Nearest {
+        let (first, last) = (plan.segment_at(from_m), plan.segment_at(to_m));
+        let (mut best_d2, mut best_s, mut best_side) = (f64::INFINITY, from_m, 0.0);
+        for i in first..=last {
+            if let Some((d2, s, side)) = plan.segment_distance(p, i, from_m, to_m) {
+                if d2 < best_d2 {
+                    (best_d2, best_s, best_side) = (d2, s, side);
+                }
+            }
+        }
+        let d = best_d2.sqrt();
+        Nearest { s_m: best_s, distance_m: d, signed_offset_m: if best_side >= 0.0 { d } else { -d } }
+    }
+
+    #[test]
+    fn block_skipping_and_galloping_give_the_answers_of_a_full_scan() {
+        // A dense wavy plan (points every 0.1 m) that doubles back on itself, with a repeated
+        // point, queried from stale cursors near and far.
+        let mut pts: Vec<[f64; 2]> = (0..3000).map(|i| [i as f64 * 0.1, (i as f64 * 0.01).sin() * 2.0]).collect();
+        pts.extend((0..3000).rev().map(|i| [i as f64 * 0.1, 1.5 + (i as f64 * 0.013).cos()]));
+        pts.insert(1234, pts[1234]);
+        let plan = PlanPath::from_parts(pts, &[0, 2000], None);
+        let mut cursor = Cursor::default();
+        for k in 0..3000 {
+            let s = (k as f64 * 0.917) % plan.length_m();
+            let p = [(s * 0.37) % 300.0, ((k % 17) as f64 - 8.0) * 0.3];
+            for (w_back, w_ahead) in [(1.5, 1.5), (0.0, 1.5), (0.0, 4.5), (6.0, 30.0)] {
+                let (from_m, to_m) = (s - w_back, s + w_ahead);
+                let mut c = if k % 5 == 0 { Cursor { segment: (k * 7919) % 6000 } } else { cursor };
+                assert_eq!(plan.nearest_within_at(p, from_m, to_m, &mut c), nearest_by_scan(&plan, p, from_m, to_m));
+            }
+            for l in [0.3, 1.5, 4.0] {
+                assert_eq!(plan.pursuit_goal_at(p, s, l, 3.0 * l, cursor), {
+                    // The same goal from a search over every segment: blocks never skipped.
+                    let (first, last) = (plan.segment_at(s), plan.segment_at((s + 3.0 * l).min(plan.length_m())));
+                    plan.goal_on_segments(p, first, last, s, (s + 3.0 * l).min(plan.length_m()), l * l)
+                        .unwrap_or_else(|| plan.pursuit_goal_at(p, s, l, 3.0 * l, cursor))
+                });
+            }
+            for hint in [0, k, 5999, (k * 31) % 6000] {
+                assert_eq!(plan.segment_from(s, hint), plan.segment_at(s), "at {s} from {hint}");
+            }
+            plan.segment_at_cursor(s, &mut cursor);
+        }
     }
 
     #[test]

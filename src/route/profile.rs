@@ -97,6 +97,7 @@ impl Leg {
         };
         let mut out = Leg {
             points: stations.iter().map(point).collect(),
+            added_points: self.added_at(stations),
             altitude_m: values(&self.altitude_m),
             cross_slope: values(&self.cross_slope),
             speeds_mps: None,
@@ -110,6 +111,28 @@ impl Leg {
             out.set_corridor_profile(v);
         }
         out
+    }
+
+    /// Which of `stations` are not the planner's own points: a station inside a segment, or at a
+    /// point that was itself added; `None` when every station is one of the planner's points.
+    fn added_at(&self, stations: &[Station]) -> Option<Vec<bool>> {
+        let n = self.points.len();
+        let own_point =
+            |i: usize| i < n && !self.added_points.as_ref().and_then(|a| a.get(i).copied()).unwrap_or(false);
+        let added: Vec<bool> = stations
+            .iter()
+            .map(|st| {
+                let i = st.segment.min(n.saturating_sub(2));
+                if st.t <= 0.0 {
+                    !own_point(i)
+                } else if st.t >= 1.0 {
+                    !own_point(i + 1)
+                } else {
+                    true
+                }
+            })
+            .collect();
+        added.iter().any(|&a| a).then_some(added)
     }
 
     /// The station at arc length `s_m` from the leg's start (clamped to the leg), given the

@@ -74,7 +74,11 @@ pub(super) fn parse(path: &Path, text: &str, limits: &Limits) -> Result<Vec<Rout
     let mut lines = LineCounter::new(text);
     let header = reader.headers().map_err(|e| csv_error(path, &e, &mut lines, 1))?.clone();
     let columns = read_header(&header).map_err(|what| at(path, 1, what))?;
-    let mut rows = Vec::new();
+    // One row a line at most: reserved once (within the point limit) instead of grown.
+    let line_count = text.bytes().filter(|&b| b == b'\n').count() + 1;
+    let mut rows = Vec::with_capacity(line_count.min(limits.max_total_points.saturating_add(1)));
+    // The `route` value of every row, only when the file has that column.
+    let mut route_names: Vec<Option<String>> = Vec::new();
     for (k, record) in reader.records().enumerate() {
         let record = record.map_err(|e| csv_error(path, &e, &mut lines, k + 2))?;
         let line = lines.line_of(record.position(), k + 2);
@@ -83,13 +87,23 @@ pub(super) fn parse(path: &Path, text: &str, limits: &Limits) -> Result<Vec<Rout
         if rows.len() >= limits.max_total_points {
             return Err(at(path, line, too_many_total_points(rows.len() + 1, limits)));
         }
-        rows.push((route, row));
+        if columns.route.is_some() {
+            route_names.push(route);
+        }
+        rows.push(row);
     }
     if rows.is_empty() {
         return Err(file_error("has a header but no data rows"));
     }
     let stem = file_stem_name(path);
-    let groups = group_in_order(rows.into_iter().map(|(route, row)| (route.unwrap_or_else(|| stem.clone()), row)));
+    let groups = if columns.route.is_some() {
+        group_in_order(
+            route_names.into_iter().zip(rows).map(|(route, row)| (route.unwrap_or_else(|| stem.clone()), row)),
+        )
+    } else {
+        // Every row belongs to the route named after the file.
+        vec![(stem, rows)]
+    };
     let routes = groups
         .into_iter()
         .map(|(name, rows)| {

@@ -134,6 +134,9 @@ impl PlanPath {
     /// curvature kappa = 2 cross(p2 - p1, p3 - p2) / (|p1p2| |p2p3| |p1p3|) of the arc-chain points
     /// at `s_m - scale_m`, `s_m` and `s_m + scale_m` (docs/method.md, Plan curvature).
     pub fn curvature_at(&self, s_m: f64, scale_m: f64) -> f64 {
+        if let Some(own) = &self.own {
+            return own.plan.curvature_at(s_m, scale_m);
+        }
         if self.points.len() < 2 {
             return 0.0;
         }
@@ -144,6 +147,8 @@ impl PlanPath {
     /// Calls `f` with the curvature reading at every vertex of leg `leg` (both boundary vertices
     /// included, so a corner at a leg boundary counts for both legs), in order. O(1) amortised
     /// per vertex; allocates nothing.
+    /// Points added after reading (map cuts, raster spacing) are skipped: the readings are those
+    /// of the planner's own vertices of the leg, on the plan through them alone.
     pub fn for_each_vertex_curvature(&self, leg: usize, scale_m: f64, mut f: impl FnMut(&VertexCurvature)) {
         let n = self.points.len();
         if n < 2 || leg >= self.leg_first_point.len() {
@@ -151,6 +156,24 @@ impl PlanPath {
         }
         let first = self.leg_first_point[leg].min(n - 1);
         let last = self.leg_first_point.get(leg + 1).copied().unwrap_or(n - 1).min(n - 1);
+        match &self.own {
+            None => self.vertex_readings(first, last, scale_m, f),
+            Some(own) => {
+                let lo = own.index.partition_point(|&i| i < first);
+                let hi = own.index.partition_point(|&i| i <= last);
+                if lo < hi {
+                    own.plan.vertex_readings(lo, hi - 1, scale_m, |v| {
+                        let index = own.index.get(v.index).copied().unwrap_or(first);
+                        f(&VertexCurvature { index, s_m: self.s_m[index], ..*v })
+                    });
+                }
+            }
+        }
+    }
+
+    /// The readings of [`PlanPath::for_each_vertex_curvature`] at vertices `first..=last`.
+    fn vertex_readings(&self, first: usize, last: usize, scale_m: f64, mut f: impl FnMut(&VertexCurvature)) {
+        let n = self.points.len();
         let (mut back, mut ahead) = (first.saturating_sub(1), first);
         for i in first..=last {
             let s = self.s_m[i];
@@ -220,6 +243,62 @@ mod tests {
         pts.dedup_by(|a, b| dist(*a, *b) < 1e-3);
         let (sin, cos) = rot.sin_cos();
         pts.iter().map(|p| [shift[0] + cos * p[0] - sin * p[1], shift[1] + sin * p[0] + cos * p[1]]).collect()
+    }
+
+    #[test]
+    fn points_added_on_chords_leave_the_curvature_of_the_planners_vertices() {
+        use crate::route::profile::Station;
+        use crate::route::{Leg, Route, SourcePosition};
+        // A 6 m radius arc sampled every 1 m of chord (30 points, under one turn), then a point added at every chord's midpoint as a map cut or a
+        // raster's spacing adds them. Closed form: a circle of radius R has curvature 1/R.
+        let r = 6.0_f64;
+        let step = 2.0 * (0.5 / r).asin();
+        let pts: Vec<[f64; 2]> = (0..30).map(|i| [r * (i as f64 * step).cos(), r * (i as f64 * step).sin()]).collect();
+        let leg = Leg::new("grass", pts.clone(), SourcePosition::Feature(0));
+        let n = pts.len();
+        let mut stations: Vec<Station> =
+            (0..n - 1).flat_map(|i| [Station { segment: i, t: 0.0 }, Station { segment: i, t: 0.5 }]).collect();
+        stations.push(Station::at_point(n, n - 1));
+        let dense = leg.resampled(&stations);
+        assert_eq!(dense.points.len(), 2 * n - 1);
+        let added = dense.added_points.clone().unwrap_or_default();
+        assert_eq!(added.iter().filter(|&&a| a).count(), n - 1);
+        let route = |leg: Leg| Route {
+            name: "arc".into(),
+            source: "arc.csv".into(),
+            origin: None,
+            legs: vec![leg],
+            warnings: Vec::new(),
+        };
+        let plain = PlanPath::new(&route(leg));
+        let with_added = PlanPath::new(&route(dense.clone()));
+        let mut readings = Vec::new();
+        with_added.for_each_vertex_curvature(0, 0.5, |v| readings.push((v.index, v.s_m, v.curvature_per_m)));
+        let mut own = Vec::new();
+        plain.for_each_vertex_curvature(0, 0.5, |v| own.push((v.s_m, v.curvature_per_m)));
+        // Only the planner's vertices are read, at the same arc lengths and curvatures.
+        assert_eq!(readings.len(), n);
+        for ((index, s, k), (s_own, k_own)) in readings.iter().zip(&own) {
+            assert!(!added[*index]);
+            assert_relative_eq!(*s, *s_own, epsilon = 1e-9);
+            assert_relative_eq!(*k, *k_own, max_relative = 1e-6);
+            if *s > 1.0 && *s < plain.length_m() - 1.0 {
+                assert_relative_eq!(*k, 1.0 / r, max_relative = 1e-6);
+            }
+        }
+        for k in 1..40 {
+            let s = 1.0 + k as f64 * (plain.length_m() - 2.0) / 40.0;
+            assert_relative_eq!(with_added.curvature_at(s, 0.5), 1.0 / r, max_relative = 1e-6);
+        }
+        // Read on every point instead, the added midpoints bend the reading away from 1/R.
+        let all = PlanPath::from_parts(dense.points.clone(), &[0], None);
+        let mut worst: f64 = 0.0;
+        all.for_each_vertex_curvature(0, 0.5, |v| {
+            if v.s_m > 1.0 && v.s_m < all.length_m() - 1.0 {
+                worst = worst.max((v.curvature_per_m * r - 1.0).abs());
+            }
+        });
+        assert!(worst > 1e-3, "worst relative error {worst}");
     }
 
     #[test]
