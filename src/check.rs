@@ -127,26 +127,36 @@ pub fn margin_work_steps(routes: &[Route], profile: &Profile, limits: &Limits) -
 }
 
 /// Charges a check of `routes` ([`check_routes_with`]) to `budget`, up front: one rollout of
-/// every route, then the margin search of every leg ([`margin_work_steps`]). Each charge is
-/// refused whole with a message that counts the routes and says what the work is for (`what`,
-/// e.g. "checking").
+/// every route (refused whole when it does not fit, with a message that counts the routes and
+/// says what the work is for, `what`, e.g. "checking"), then the margin search of each route
+/// ([`crate::margin::work_bound`]) in input order. The margin search is extra information, so
+/// a route whose search no longer fits is not refused: it and every route after it are checked
+/// without it (their legs say the passing speed was not searched, and the route carries
+/// [`MARGINS_NOT_SEARCHED`]). Returns, per route in input order, whether to search its margins;
+/// the same inputs and budget always give the same answer.
 pub fn charge_check(
     budget: &crate::limits::WorkBudget,
     routes: &[Route],
     profile: &Profile,
     limits: &Limits,
     what: &str,
-) -> Result<(), crate::limits::WorkBudgetError> {
+) -> Result<Vec<bool>, crate::limits::WorkBudgetError> {
     charge_work(budget, routes, profile, 1, what)?;
-    budget.charge_rollouts(margin_work_steps(routes, profile, limits), 1, || {
-        let n = routes.len();
-        let per_leg = crate::margin::max_simulations_per_leg(profile.vehicle.max_side_speed_mps);
-        format!(
-            "finding the highest passing speed of every leg (up to {per_leg} simulations of each) when {what} {n} route{}",
-            if n == 1 { "" } else { "s" }
-        )
-    })
+    let mut fits = true;
+    Ok(routes
+        .iter()
+        .map(|r| {
+            let bound = crate::margin::work_bound(r, profile, limits.max_rollout_steps);
+            fits = fits && budget.charge_rollouts(bound, 1, String::new).is_ok();
+            fits
+        })
+        .collect())
 }
+
+/// The warning of a route checked without its margin search ([`charge_check`]).
+pub const MARGINS_NOT_SEARCHED: &str = "the highest passing speed of the legs was not searched: added to those of \
+the routes before it, the search could take more control steps than the run's work budget (the bound assumes every search \
+bisects down to 0.1 m/s, far above what searches take); raise it with --max-work-steps or SKIDROUTE_MAX_WORK_STEPS";
 
 /// Refuses a route whose rollout could need more than `limits.max_rollout_steps` steps.
 fn check_step_bound(route: &Route, profile: &Profile, limits: &Limits) -> Result<(), RouteError> {
@@ -182,7 +192,18 @@ pub fn check_route(route: Route, profile: &Profile) -> CheckedRoute {
 /// Simulates and assesses one route within `limits.max_rollout_steps` control steps per
 /// simulation, then finds each leg's highest passing speed (`crate::margin`; those simulations
 /// are counted in [`CheckedRoute::steps_simulated`]).
-pub fn check_route_with(mut route: Route, profile: &Profile, limits: &Limits) -> CheckedRoute {
+pub fn check_route_with(route: Route, profile: &Profile, limits: &Limits) -> CheckedRoute {
+    check_route_searching(route, profile, limits, true)
+}
+
+/// [`check_route_with`], with the margin search only when `search_margins` (else each leg's
+/// `max_passing_speed_searched` is false and the route carries [`MARGINS_NOT_SEARCHED`]).
+pub fn check_route_searching(
+    mut route: Route,
+    profile: &Profile,
+    limits: &Limits,
+    search_margins: bool,
+) -> CheckedRoute {
     let drive = RouteDrive::new(&route, profile);
     if drive.plan.has_cross_slope() && profile.vehicle.cog_height_m.is_none() {
         route.warnings.push(NO_COG_HEIGHT.to_string());
@@ -190,11 +211,17 @@ pub fn check_route_with(mut route: Route, profile: &Profile, limits: &Limits) ->
     let (trace, resumes) = roll_out_with_resumes(&drive, limits.max_rollout_steps);
     let plans = leg_plans(&drive);
     let mut report = assess_route_with(&route, &drive, &trace, profile.vehicle.battery_wh, &plans);
-    let margins = max_passing_speeds(&drive, &plans, &resumes, &report, limits.max_rollout_steps);
-    for (leg, m) in report.legs.iter_mut().zip(&margins) {
-        leg.max_passing_speed_mps = m.speed_mps;
+    let mut steps_simulated = trace.steps.len() as u64;
+    if search_margins {
+        let margins = max_passing_speeds(&drive, &plans, &resumes, &report, limits.max_rollout_steps);
+        for (leg, m) in report.legs.iter_mut().zip(&margins) {
+            leg.max_passing_speed_mps = m.speed_mps;
+            leg.max_passing_speed_searched = true;
+        }
+        steps_simulated += margins.iter().map(|m| m.steps).sum::<u64>();
+    } else {
+        route.warnings.push(MARGINS_NOT_SEARCHED.to_string());
     }
-    let steps_simulated = trace.steps.len() as u64 + margins.iter().map(|m| m.steps).sum::<u64>();
     CheckedRoute { route, drive, trace, report, steps_simulated }
 }
 
@@ -203,7 +230,8 @@ pub fn check_route_with(mut route: Route, profile: &Profile, limits: &Limits) ->
 /// known to `profile`, at least two finite points a leg, the legs joined, and the rollout's
 /// step bound within the default [`Limits`]); then the route is simulated and assessed as
 /// `skidroute check` does, without the margin search (each leg's
-/// [`max_passing_speed_mps`](crate::assess::LegReport::max_passing_speed_mps) stays `None`;
+/// [`max_passing_speed_mps`](crate::assess::LegReport::max_passing_speed_mps) stays `None`, and
+/// `max_passing_speed_searched` false;
 /// [`check_route`] adds it). The trace is not kept.
 ///
 /// ```
@@ -295,10 +323,25 @@ pub fn check_routes_keeping(
     limits: &Limits,
     keep_traces: bool,
 ) -> CheckRun {
+    check_routes_searching(routes, profile, demo_profile, limits, keep_traces, &[])
+}
+
+/// [`check_routes_keeping`], searching the margins of route `i` only when `search_margins[i]`
+/// (as [`charge_check`] returns it; a route past the end of the slice is searched).
+pub fn check_routes_searching(
+    routes: Vec<Route>,
+    profile: &Profile,
+    demo_profile: bool,
+    limits: &Limits,
+    keep_traces: bool,
+    search_margins: &[bool],
+) -> CheckRun {
     let routes = routes
         .into_par_iter()
-        .map(|r| {
-            let mut checked = check_route_with(r, profile, limits);
+        .enumerate()
+        .map(|(i, r)| {
+            let search = search_margins.get(i).copied().unwrap_or(true);
+            let mut checked = check_route_searching(r, profile, limits, search);
             if !keep_traces {
                 checked.trace.steps = Vec::new();
             }
@@ -355,7 +398,9 @@ mod tests {
         let screened = screen_route(&r, &Profile::demo()).unwrap();
         let mut checked = check_route(r, &Profile::demo()).report;
         for leg in &mut checked.legs {
+            assert!(leg.max_passing_speed_searched);
             leg.max_passing_speed_mps = None;
+            leg.max_passing_speed_searched = false;
         }
         assert_eq!(format!("{screened:?}"), format!("{checked:?}"));
     }

@@ -291,6 +291,8 @@ fn work_beyond_the_run_budget_is_refused_up_front_for_every_simulating_command()
 /// 0.1 m/s). The search makes one simulation at the top speed, one at the lowest, and a
 /// bisection in log speed from 0.1 to 2 m/s down to 1 %: ceil(log2(ln 20 / ln 1.01)) halvings,
 /// plus one for rounding (docs/method.md, Verdicts: margins; closed form, no source).
+/// The rollouts that do not fit are refused; a margin search that does not fit is left out, for
+/// that route and every later one (input order), and the legs say so.
 #[test]
 fn the_margin_search_is_charged_to_the_work_budget_up_front() {
     let dir = tempfile::tempdir().expect("tempdir");
@@ -300,30 +302,45 @@ fn the_margin_search_is_charged_to_the_work_budget_up_front() {
     let halvings = (20.0_f64.ln() / 1.01_f64.ln()).log2().ceil() + 1.0;
     let needed = rollout + (halvings + 2.0) * per_simulation;
     assert!((needed - 305_613.0).abs() < 0.5, "{needed}");
-    let check =
-        |budget: f64| run(bin().args(["check", "--quiet", "--max-work-steps", &budget.to_string()]).arg(&route));
+    let check = |budget: f64, routes: &[&Path]| {
+        run(bin().args(["check", "--json", "--max-work-steps", &budget.to_string()]).args(routes))
+    };
     let started = Instant::now();
-    let e = one_error_line(&check(rollout));
-    assert!(
-        e.contains(
-            "finding the highest passing speed of every leg (up to 12 simulations of each) when checking 1 route"
-        ),
-        "{e}"
-    );
-    assert!(
-        e.contains("could take up to 302412 control steps, and the run has 0 of its work budget of 3201 left"),
-        "{e}"
-    );
+    let e = one_error_line(&check(rollout - 1.0, &[&route]));
+    assert!(e.contains("checking 1 route could take up to 3201 control steps"), "{e}");
     assert!(e.contains("--max-work-steps or SKIDROUTE_MAX_WORK_STEPS"), "{e}");
     assert!(started.elapsed() < Duration::from_secs(5), "not refused up front: {:?}", started.elapsed());
-    let e = one_error_line(&check(needed - 1.0));
-    assert!(e.contains("finding the highest passing speed"), "{e}");
-    let o = check(needed);
-    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let searched = |o: &Output| -> Vec<bool> {
+        assert_eq!(o.status.code(), Some(0), "{}", stderr(o));
+        let v: serde_json::Value = serde_json::from_slice(&o.stdout).expect("json");
+        v["routes"]
+            .as_array()
+            .expect("routes")
+            .iter()
+            .map(|r| {
+                let leg = &r["legs"][0];
+                let s = leg["max_passing_speed_searched"].as_bool().expect("searched key");
+                let warned = r["warnings"].as_array().is_some_and(|ws| {
+                    ws.iter().any(|w| {
+                        w.as_str().is_some_and(|w| w.contains("highest passing speed of the legs was not searched"))
+                    })
+                });
+                assert_eq!(warned, !s, "{r}");
+                assert_eq!(leg["max_passing_speed_mps"].is_null(), !s, "{r}");
+                s
+            })
+            .collect()
+    };
+    assert_eq!(searched(&check(needed - 1.0, &[&route])), vec![false]);
+    assert_eq!(searched(&check(needed, &[&route])), vec![true]);
+    // Two routes: room for both rollouts and the first search only.
+    let second = straight_csv(dir.path(), "s.csv", 5, 10.0);
+    assert_eq!(searched(&check(needed + rollout, &[&route, &second])), vec![true, false]);
+    assert_eq!(searched(&check(2.0 * needed, &[&route, &second])), vec![true, true]);
     // The environment variable sets the same budget.
     let o =
-        run(bin().args(["check", "--quiet"]).arg(&route).env("SKIDROUTE_MAX_WORK_STEPS", (needed - 1.0).to_string()));
-    assert!(one_error_line(&o).contains("finding the highest passing speed"));
+        run(bin().args(["check", "--json"]).arg(&route).env("SKIDROUTE_MAX_WORK_STEPS", (needed - 1.0).to_string()));
+    assert_eq!(searched(&o), vec![false]);
 }
 
 #[test]

@@ -95,6 +95,9 @@ pub struct LegReport {
     /// Highest leg speed at which this leg does not fail (full simulations, bisection to 1 %);
     /// `None` when it fails at any speed down to the lowest tried (docs/method.md, Verdicts).
     pub max_passing_speed_mps: Option<f64>,
+    /// False when the search for `max_passing_speed_mps` was not run (it did not fit the run's
+    /// work budget, or the route was screened without it): then `None` above says nothing.
+    pub max_passing_speed_searched: bool,
     /// Time during which traction, the thrust rating or the power rating bound the simulated
     /// motion on this leg, s.
     pub traction_limited_s: f64,
@@ -418,6 +421,7 @@ pub(crate) fn assess_leg(
         traction_coefficient: ld.ground.traction_coefficient,
         traction_coefficient_needed: plan.traction_needed,
         max_passing_speed_mps: None,
+        max_passing_speed_searched: false,
         traction_limited_s: effort.limited_s,
         failing_turns,
         drift_cep95_m: None,

@@ -106,7 +106,7 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
         (skidroute::batch::load_routes_parallel_on_site(&files, &profile, &limits, &site)?, Vec::new())
     };
     let budget = limits.work_budget();
-    skidroute::check::charge_check(&budget, &routes, &profile, &limits, "checking")?;
+    let search = skidroute::check::charge_check(&budget, &routes, &profile, &limits, "checking")?;
     if a.drift {
         skidroute::check::charge_work(&budget, &routes, &profile, a.samples, "the drift estimate of")?;
     }
@@ -121,10 +121,10 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
         && outputs.report_json.is_none()
         && !stdout_taken
     {
-        let verdict = jsonl_streamed(routes, &profile, demo, &limits, &files, &bad_files)?;
+        let verdict = jsonl_streamed(routes, &search, &profile, demo, &limits, &files, &bad_files)?;
         return Ok(exit_code(verdict, &bad_files, a.strict));
     }
-    let mut run = skidroute::check::check_routes_keeping(routes, &profile, demo, &limits, keep_traces);
+    let mut run = skidroute::check::check_routes_searching(routes, &profile, demo, &limits, keep_traces, &search);
     run.terrain_map = site.terrain_map.clone();
     if a.drift {
         let settings = DriftSettings {
@@ -164,6 +164,7 @@ const JSONL_ROUTES_IN_FLIGHT: usize = 64;
 /// place). The same lines as checking them all at once; returns the worst verdict.
 fn jsonl_streamed(
     routes: Vec<skidroute::route::Route>,
+    search: &[bool],
     profile: &skidroute::vehicle::Profile,
     demo: bool,
     limits: &skidroute::limits::Limits,
@@ -173,12 +174,14 @@ fn jsonl_streamed(
     let mut lines: Vec<(PathBuf, String)> = Vec::with_capacity(routes.len());
     let mut verdict = Verdict::Pass;
     let mut routes = routes.into_iter();
+    let mut searches = search.chunks(JSONL_ROUTES_IN_FLIGHT);
     loop {
         let batch: Vec<_> = routes.by_ref().take(JSONL_ROUTES_IN_FLIGHT).collect();
         if batch.is_empty() {
             break;
         }
-        let run = skidroute::check::check_routes_keeping(batch, profile, demo, limits, false);
+        let search = searches.next().unwrap_or(&[]);
+        let run = skidroute::check::check_routes_searching(batch, profile, demo, limits, false, search);
         verdict = verdict.max(run.verdict());
         let text = report::jsonl::check_jsonl(&run);
         lines.extend(run.routes.iter().map(|r| r.route.source.clone()).zip(text.lines().map(str::to_string)));

@@ -116,7 +116,7 @@ pub fn run_relax(a: RelaxArgs) -> Result<ExitCode> {
     let text = std::fs::read_to_string(&a.route)
         .map_err(|source| skidroute::route::RouteError::Io { file: a.route.clone(), source })?;
     let budget = limits.work_budget();
-    skidroute::check::charge_check(&budget, &routes, &profile, &limits, "checking")?;
+    let search_before = skidroute::check::charge_check(&budget, &routes, &profile, &limits, "checking")?;
     let settings = RelaxSettings::default();
     let relaxed = routes.iter().map(|r| relax_route(r, &profile, &settings)).collect::<Result<Vec<_>, _>>()?;
     let mut new_routes: Vec<_> = relaxed.iter().map(|r| r.route.clone()).collect();
@@ -141,9 +141,10 @@ pub fn run_relax(a: RelaxArgs) -> Result<ExitCode> {
     }
     .map_err(|what| report::ReportError::Output { file: a.route.clone(), what })?;
     report::write_atomic(&a.out, written.as_bytes())?;
-    skidroute::check::charge_check(&budget, &new_routes, &profile, &limits, "checking the relaxed")?;
-    let before = skidroute::check::check_routes_with(routes.clone(), &profile, demo, &limits);
-    let mut after = skidroute::check::check_routes_with(new_routes, &profile, demo, &limits);
+    let search_after = skidroute::check::charge_check(&budget, &new_routes, &profile, &limits, "checking the relaxed")?;
+    let before =
+        skidroute::check::check_routes_searching(routes.clone(), &profile, demo, &limits, true, &search_before);
+    let mut after = skidroute::check::check_routes_searching(new_routes, &profile, demo, &limits, true, &search_after);
     after.terrain_map = site.terrain_map.clone();
     let results: Vec<RouteResult> = relaxed
         .iter()

@@ -101,7 +101,7 @@ fn route_section(out: &mut String, r: &RouteReport, warnings: &[String]) {
             l.traction_coefficient_needed,
             l.traction_coefficient,
             l.traction_limited_s,
-            opt(l.max_passing_speed_mps, 2, "none"),
+            opt(l.max_passing_speed_mps, 2, if l.max_passing_speed_searched { "none" } else { "not searched" }),
             opt(l.drift_cep95_m, 2, "-"),
             verdict_span(l.verdict)
         );

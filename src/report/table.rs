@@ -102,7 +102,9 @@ fn leg_columns(shown: Optional, color: bool) -> Vec<Column<'static, LegReport>> 
     }
     cols.extend([
         Column::new("traction\nneeds/has", 82, traction_cell),
-        Column::new("passes up\nto m/s", 85, |l: &LegReport| opt_num(l.max_passing_speed_mps, 2, "none")),
+        Column::new("passes up\nto m/s", 85, |l: &LegReport| {
+            opt_num(l.max_passing_speed_mps, 2, if l.max_passing_speed_searched { "none" } else { "not searched" })
+        }),
     ]);
     if shown.drift {
         cols.push(Column::new("drift\nCEP95 m", 65, |l: &LegReport| opt_num(l.drift_cep95_m, 1, "-")));
