@@ -31,17 +31,8 @@ fn synthetic_route(length_m: f64, step_m: f64) -> Route {
             points.push([x, y]);
         }
         legs.push(Leg {
-            name: None,
-            terrain: terrains[k % terrains.len()].to_string(),
             speed_mps: Some(1.2),
-            corridor_m: None,
-            points,
-            altitude_m: None,
-            speeds_mps: None,
-            corridors_m: None,
-            cross_slope: None,
-            position: SourcePosition::Feature(k),
-            added_points: None,
+            ..Leg::new(terrains[k % terrains.len()].to_string(), points, SourcePosition::Feature(k))
         });
     }
     Route { name: "bench".into(), source: PathBuf::from("<synthetic>"), origin: None, legs, warnings: Vec::new() }

@@ -12,17 +12,8 @@ use skidroute::vehicle::Profile;
 
 fn crawl() -> Route {
     let leg = |terrain: &str, points: Vec<[f64; 2]>, k: usize| Leg {
-        name: None,
-        terrain: terrain.into(),
         speed_mps: Some(0.05),
-        corridor_m: None,
-        points,
-        altitude_m: None,
-        speeds_mps: None,
-        corridors_m: None,
-        cross_slope: None,
-        position: SourcePosition::Feature(k),
-        added_points: None,
+        ..Leg::new(terrain, points, SourcePosition::Feature(k))
     };
     Route {
         name: "crawl".into(),

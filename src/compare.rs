@@ -301,19 +301,7 @@ mod tests {
     use std::path::PathBuf;
 
     fn leg(points: Vec<[f64; 2]>, terrain: &str) -> Leg {
-        Leg {
-            name: None,
-            terrain: terrain.into(),
-            speed_mps: Some(1.2),
-            corridor_m: Some(1.0),
-            points,
-            altitude_m: None,
-            speeds_mps: None,
-            corridors_m: None,
-            cross_slope: None,
-            position: SourcePosition::Feature(0),
-            added_points: None,
-        }
+        Leg { speed_mps: Some(1.2), corridor_m: Some(1.0), ..Leg::new(terrain, points, SourcePosition::Feature(0)) }
     }
 
     fn route(name: &str, points: Vec<[f64; 2]>) -> Route {

@@ -609,17 +609,12 @@ mod tests {
             source: "r.csv".into(),
             origin: None,
             legs: vec![crate::route::Leg {
-                name: None,
-                terrain: "gravel".into(),
                 speed_mps: Some(1e-6),
-                corridor_m: None,
-                points: vec![[0.0, 0.0], [6_000.0, 0.0], [10_000.0, 0.0]],
-                altitude_m: None,
-                speeds_mps: None,
-                corridors_m: None,
-                cross_slope: None,
-                position: crate::route::SourcePosition::Line(2),
-                added_points: None,
+                ..crate::route::Leg::new(
+                    "gravel",
+                    vec![[0.0, 0.0], [6_000.0, 0.0], [10_000.0, 0.0]],
+                    crate::route::SourcePosition::Line(2),
+                )
             }],
             warnings: Vec::new(),
         };

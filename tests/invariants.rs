@@ -26,17 +26,8 @@ fn plan(turns_rad: &[f64]) -> Vec<[f64; 2]> {
 fn route(points: &[[f64; 2]]) -> Route {
     let mid = points.len() / 2;
     let leg = |pts: &[[f64; 2]], terrain: &str, i: usize| Leg {
-        name: None,
-        terrain: terrain.into(),
         speed_mps: Some(1.1),
-        corridor_m: None,
-        points: pts.to_vec(),
-        altitude_m: None,
-        speeds_mps: None,
-        corridors_m: None,
-        cross_slope: None,
-        position: SourcePosition::Feature(i),
-        added_points: None,
+        ..Leg::new(terrain, pts.to_vec(), SourcePosition::Feature(i))
     };
     Route {
         name: "p".into(),

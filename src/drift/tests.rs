@@ -9,19 +9,7 @@ use crate::route::{Leg, SourcePosition};
 use crate::vehicle::TerrainSpec;
 
 fn leg(terrain: &str, points: Vec<[f64; 2]>) -> Leg {
-    Leg {
-        name: None,
-        terrain: terrain.into(),
-        speed_mps: Some(1.0),
-        corridor_m: None,
-        points,
-        altitude_m: None,
-        speeds_mps: None,
-        corridors_m: None,
-        cross_slope: None,
-        position: SourcePosition::Feature(0),
-        added_points: None,
-    }
+    Leg { speed_mps: Some(1.0), ..Leg::new(terrain, points, SourcePosition::Feature(0)) }
 }
 
 fn route(legs: Vec<Leg>) -> Route {

@@ -10,19 +10,7 @@ use crate::route::plan::dist;
 use crate::route::{Leg, SourcePosition};
 
 fn leg(points: Vec<[f64; 2]>, terrain: &str, speed_mps: f64) -> Leg {
-    Leg {
-        name: None,
-        terrain: terrain.into(),
-        speed_mps: Some(speed_mps),
-        corridor_m: Some(1.0),
-        points,
-        altitude_m: None,
-        speeds_mps: None,
-        corridors_m: None,
-        cross_slope: None,
-        position: SourcePosition::Line(2),
-        added_points: None,
-    }
+    Leg { speed_mps: Some(speed_mps), corridor_m: Some(1.0), ..Leg::new(terrain, points, SourcePosition::Line(2)) }
 }
 
 fn route(legs: Vec<Leg>) -> Route {

@@ -233,19 +233,7 @@ mod tests {
 
     #[test]
     fn svg_and_png_are_written_with_text() {
-        let leg = |terrain: &str, points: Vec<[f64; 2]>| Leg {
-            name: None,
-            terrain: terrain.into(),
-            speed_mps: None,
-            corridor_m: None,
-            points,
-            altitude_m: None,
-            speeds_mps: None,
-            corridors_m: None,
-            cross_slope: None,
-            position: SourcePosition::Feature(0),
-            added_points: None,
-        };
+        let leg = |terrain: &str, points: Vec<[f64; 2]>| Leg::new(terrain, points, SourcePosition::Feature(0));
         let route = Route {
             name: "r".into(),
             source: "r.csv".into(),

@@ -693,17 +693,8 @@ mod tests {
     fn a_long_crawl_plots_small_and_shows_its_peak_deviation() {
         // 300 m at the slowest accepted speed (0.05 m/s): 120 000 control steps.
         let leg = |terrain: &str, points: Vec<[f64; 2]>| crate::route::Leg {
-            name: None,
-            terrain: terrain.into(),
             speed_mps: Some(0.05),
-            corridor_m: None,
-            points,
-            altitude_m: None,
-            speeds_mps: None,
-            corridors_m: None,
-            cross_slope: None,
-            position: crate::route::SourcePosition::Feature(0),
-            added_points: None,
+            ..crate::route::Leg::new(terrain, points, crate::route::SourcePosition::Feature(0))
         };
         let route = crate::route::Route {
             name: "crawl".into(),
