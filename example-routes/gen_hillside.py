@@ -7,7 +7,7 @@ Writes, deterministically:
   z = 430 + 25 exp(-r^2 / (2 x 55^2)) m, r the distance in metres from the hilltop; its
   steepest slope, 27.6 %, is 55 m from the top.
 - hillside-map.geojson: the terrain map (grass around, packed snow on the north flank, a
-  deep-snow drift in the middle of it).
+  deep-snow bank in the middle of it).
 - hillside-traverse.geojson: the route, a traverse from west to east along the 60 m circle
   around the hilltop (a contour: level along the way, 27.3 % across it, higher on the right),
   a vertex every metre, with the planner's speed at every vertex (1.0 m/s on the grass, 0.6 m/s
