@@ -119,13 +119,6 @@ pub fn charge_work(
     })
 }
 
-/// Upper bound of the control steps the margin search (each leg's highest passing speed,
-/// `crate::margin`) of every route simulates when checked within `limits.max_rollout_steps`
-/// steps per simulation ([`crate::margin::work_bound`]).
-pub fn margin_work_steps(routes: &[Route], profile: &Profile, limits: &Limits) -> f64 {
-    routes.iter().map(|r| crate::margin::work_bound(r, profile, limits.max_rollout_steps)).sum()
-}
-
 /// Charges a check of `routes` ([`check_routes_with`]) to `budget`, up front: one rollout of
 /// every route (refused whole when it does not fit, with a message that counts the routes and
 /// says what the work is for, `what`, e.g. "checking"), then the margin search of each route

@@ -106,10 +106,12 @@ pub fn run_check(a: CheckArgs) -> Result<ExitCode> {
         (skidroute::batch::load_routes_parallel_on_site(&files, &profile, &limits, &site)?, Vec::new())
     };
     let budget = limits.work_budget();
-    let search = skidroute::check::charge_check(&budget, &routes, &profile, &limits, "checking")?;
+    // The drift estimate is asked for, the margin search is extra: charge the search last, so it
+    // takes only what is left.
     if a.drift {
         skidroute::check::charge_work(&budget, &routes, &profile, a.samples, "the drift estimate of")?;
     }
+    let search = skidroute::check::charge_check(&budget, &routes, &profile, &limits, "checking")?;
     // Only these outputs draw on the traces; without them each trace is dropped once assessed.
     let keep_traces = outputs.trace_csv.is_some()
         || outputs.predicted_geojson.is_some()

@@ -77,11 +77,12 @@ pub fn run_compare(a: CompareArgs) -> Result<ExitCode> {
     let routes = skidroute::batch::load_routes_parallel_on_site(&files, &profile, &limits, &site)?;
     super::site::print_warnings(&routes, quiet);
     let budget = limits.work_budget();
-    let search = skidroute::check::charge_check(&budget, &routes, &profile, &limits, "checking")?;
+    // Ranking by drift is asked for, the margin search is extra: charge the search last.
     if let RankBy::Drift = by {
         let samples = skidroute::compare::DRIFT_RANKING_SAMPLES as u64;
         skidroute::check::charge_work(&budget, &routes, &profile, samples, "ranking by drift")?;
     }
+    let search = skidroute::check::charge_check(&budget, &routes, &profile, &limits, "checking")?;
     let mut run = skidroute::check::check_routes_searching(routes, &profile, demo, &limits, true, &search);
     run.terrain_map = site.terrain_map.clone();
     let cmp = match by {
