@@ -33,6 +33,7 @@
 
 mod draw;
 pub mod gyro;
+mod pose;
 mod sample;
 pub mod stats;
 

@@ -21,6 +21,7 @@ use rand_distr::{Distribution, StandardNormal};
 
 use super::draw::ParamSampler;
 use super::gyro::Gyro;
+use super::pose::CarriedPose;
 use crate::follow::Follower;
 use crate::kinematics::{Model, MotionModel, Pose, Twist};
 use crate::rollout::{ground_twist, RouteDrive};
@@ -135,14 +136,14 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
 
     let start = plan.point_at(0.0);
     let dir = plan.direction_at(0.0);
-    let mut truth = Pose::new(start[0], start[1], dir[1].atan2(dir[0]));
+    let mut truth = CarriedPose::new(Pose::new(start[0], start[1], dir[1].atan2(dir[0])));
     let mut believed = truth;
     let mut follower = Follower::new(plan, drive.speeds.view(), drive.limits);
     let mut ends: Vec<Option<EndError>> = vec![None; n_legs];
     let mut path = keep_path.then(|| {
         let cap = (3.0 * plan.length_m() / setup.path_spacing_m) as usize + 64;
         let mut v = Vec::with_capacity(cap);
-        v.push([truth.x_m, truth.y_m]);
+        v.push([truth.pose.x_m, truth.pose.y_m]);
         v
     });
     let mut since_point_m = 0.0;
@@ -151,15 +152,15 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
     let mut next_end = 0;
     let mut k: u64 = 0;
     let timed_out = loop {
-        follower.update_progress(believed);
+        follower.update_progress(believed.pose);
         let s = follower.progress_m();
         while next_end + 1 < n_legs && s >= leg_end_m[next_end] {
-            ends[next_end] = Some(end_error(truth, believed));
+            ends[next_end] = Some(end_error(truth.pose, believed.pose));
             next_end += 1;
         }
-        if k > 0 && follower.finished(believed) {
+        if k > 0 && follower.finished(believed.pose) {
             if let Some(last) = ends.last_mut() {
-                *last = Some(end_error(truth, believed));
+                *last = Some(end_error(truth.pose, believed.pose));
             }
             break false;
         }
@@ -168,37 +169,37 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
         }
         let localized = s < setup.loss_start_m;
         let leg = follower.leg();
-        // sin and cos of the believed heading, once a step for the pursuit goal and dead reckoning.
-        let believed_sin_cos = believed.yaw_rad.sin_cos();
-        let cmd =
-            follower.command_capped_with(believed, believed_sin_cos, &drive.legs[leg].controller, |_| f64::INFINITY);
+        let cmd = follower
+            .command_capped_with(believed.pose, believed.sin_cos, &drive.legs[leg].controller, |_| f64::INFINITY);
         // The terrain under the true vehicle, at the plan point it is nearest to, blended over the
         // contact length (the rule of the check: rollout::ground_twist).
         let (true_leg, mut twist) = if single_terrain {
             (leg, actual[leg].twist(cmd.left_mps, cmd.right_mps))
         } else {
-            cursor.advance(points, [truth.x_m, truth.y_m]);
-            let s_true = plan.arc_length_on_segment(cursor.segment, [truth.x_m, truth.y_m]);
+            let p = [truth.pose.x_m, truth.pose.y_m];
+            cursor.advance(points, p);
+            let s_true = plan.arc_length_on_segment(cursor.segment, p);
             let under = plan.terrain_share(s_true, drive.vehicle.contact_length_m);
             let (rear, front) = (actual[under.rear], actual[under.front]);
             (under.dominant(), ground_twist(rear, front, under.front_share, cmd.left_mps, cmd.right_mps))
         };
-        let ds_m = twist.vx_mps.hypot(twist.vy_mps) * dt;
+        // sqrt of the sum of squares rather than hypot: no overflow is possible at vehicle speeds.
+        let ds_m = (twist.vx_mps * twist.vx_mps + twist.vy_mps * twist.vy_mps).sqrt() * dt;
         add_noise(&mut twist, &setup.noise[true_leg], ds_m, dt, &mut rng);
-        truth = truth.step(twist, dt);
-        believed = if localized {
-            truth
+        truth.step(twist, dt);
+        if localized {
+            believed = truth;
         } else {
             let mut odo = setup.odometry[leg].twist(cmd.left_mps, cmd.right_mps);
             if let Some(g) = &setup.gyro {
                 odo.omega_radps = g.measure(twist.omega_radps, gyro_bias_radps, dt, &mut rng);
             }
-            believed.step_with(odo, dt, believed_sin_cos)
-        };
+            believed.step(odo, dt);
+        }
         if let Some(p) = path.as_mut() {
             since_point_m += ds_m;
             if since_point_m >= setup.path_spacing_m && p.len() < p.capacity() {
-                p.push([truth.x_m, truth.y_m]);
+                p.push([truth.pose.x_m, truth.pose.y_m]);
                 since_point_m = 0.0;
             }
         }
@@ -206,7 +207,7 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
     };
     if let Some(p) = path.as_mut() {
         if p.len() < p.capacity() {
-            p.push([truth.x_m, truth.y_m]);
+            p.push([truth.pose.x_m, truth.pose.y_m]);
         }
     }
     SampleOutcome { ends, timed_out, steps: k, path }
