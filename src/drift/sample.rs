@@ -187,6 +187,7 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
     let plan = &drive.plan;
     let n_legs = plan.leg_count();
     let dt = drive.limits.dt_s;
+    let inv_dt = 1.0 / dt;
     let leg_end_m: Vec<f64> = (0..n_legs).map(|i| plan.leg_bounds_m(i).1).collect();
 
     let start = plan.point_at(0.0);
@@ -240,8 +241,9 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
             (under.dominant(), ground_twist(rear, front, under.front_share, cmd.left_mps, cmd.right_mps))
         };
         // sqrt of the sum of squares rather than hypot: no overflow is possible at vehicle speeds.
-        let ds_m = (twist.vx_mps * twist.vx_mps + twist.vy_mps * twist.vy_mps).sqrt() * dt;
-        add_noise(&mut twist, &setup.noise[true_leg], ds_m, dt, &mut rng);
+        let speed_mps = (twist.vx_mps * twist.vx_mps + twist.vy_mps * twist.vy_mps).sqrt();
+        let ds_m = speed_mps * dt;
+        add_noise(&mut twist, &setup.noise[true_leg], speed_mps, inv_dt, &mut rng);
         truth.step(twist, dt);
         if localized {
             believed = truth;
@@ -269,14 +271,16 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
     SampleOutcome { ends, timed_out, steps: k, path }
 }
 
-/// Adds the random-walk increments of a step of length `ds_m` as a constant twist increment
-/// over the step (variance proportional to the distance travelled; Kelly 2004).
+/// Adds the random-walk increments of a step of dt seconds at `speed_mps` (length ds = v dt) as
+/// a constant twist increment over the step (variance proportional to the distance travelled;
+/// Kelly 2004): increments of standard deviation q sqrt(ds) entered as rates, q sqrt(ds) / dt =
+/// q sqrt(v / dt). `inv_dt` is 1 / dt.
 #[inline]
-fn add_noise(twist: &mut Twist, noise: &Noise, ds_m: f64, dt_s: f64, rng: &mut ChaCha8Rng) {
-    if ds_m <= 0.0 || noise.is_zero() {
+fn add_noise(twist: &mut Twist, noise: &Noise, speed_mps: f64, inv_dt: f64, rng: &mut ChaCha8Rng) {
+    if speed_mps <= 0.0 || noise.is_zero() {
         return;
     }
-    let scale = ds_m.sqrt() / dt_s;
+    let scale = (speed_mps * inv_dt).sqrt();
     let zh: f64 = StandardNormal.sample(rng);
     let za: f64 = StandardNormal.sample(rng);
     let zc: f64 = StandardNormal.sample(rng);
