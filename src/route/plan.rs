@@ -331,9 +331,15 @@ impl PlanPath {
         // of line.
         let last = self.points.len().saturating_sub(2);
         let i = hint.min(last);
-        if let Some(&s_i) = self.s_m.get(i) {
-            if s_m >= s_i && (i >= last || self.s_m.get(i + 1).is_some_and(|&s_j| s_m < s_j)) {
-                return i;
+        if self.s_m.get(i).is_some_and(|&s_i| s_m >= s_i) {
+            // Forward a few segments by a scan (the end of a lookahead window): the last segment
+            // starting at or before `s_m`, as the search gives it.
+            let mut j = i;
+            for _ in 0..8 {
+                if j >= last || self.s_m.get(j + 1).is_none_or(|&s_j| s_m < s_j) {
+                    return j;
+                }
+                j += 1;
             }
         }
         self.segment_search(s_m, hint)
