@@ -2,7 +2,9 @@
 //! arcs, plan points every metre, four terrains of the demo profile) at the demo's 20 Hz
 //! control rate, with 1 and 2 rayon threads.
 //!
-//! Run with `cargo run --release --example bench_drift [SAMPLES] [gyro]`.
+//! Run with `cargo run --release --example bench_drift [SAMPLES] [gyro]`. With the environment
+//! variable `BENCH_DRIFT_JSON=FILE` the 2-thread report is also written to FILE as JSON, to
+//! compare the output of two builds byte for byte.
 
 use std::time::Instant;
 
@@ -110,5 +112,10 @@ fn main() {
         outputs.push(serde_json::to_string(&report).unwrap_or_default());
     }
     println!("speed-up 1 -> 2 threads: {:.2}x", times[0] / times[1]);
+    if let Some(path) = std::env::var_os("BENCH_DRIFT_JSON") {
+        if let Err(e) = std::fs::write(&path, outputs[1].as_bytes()) {
+            eprintln!("cannot write {}: {e}", path.to_string_lossy());
+        }
+    }
     println!("outputs identical across thread counts: {}", outputs[0] == outputs[1]);
 }

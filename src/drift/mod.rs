@@ -33,6 +33,7 @@
 
 mod draw;
 pub mod gyro;
+mod pose;
 mod sample;
 pub mod stats;
 
@@ -331,6 +332,7 @@ fn setup(route: &Route, profile: &Profile, settings: &DriftSettings) -> Result<s
         HeadingSource::Gyro => profile.imu.as_ref().map(Gyro::from_spec),
         HeadingSource::Odometry => None,
     };
+    let segment_inv_len2 = sample::inverse_lengths2(drive.plan.points());
     Ok(sample::SampleSetup {
         drive,
         gyro,
@@ -338,6 +340,7 @@ fn setup(route: &Route, profile: &Profile, settings: &DriftSettings) -> Result<s
         leg_terrain,
         odometry,
         noise,
+        segment_inv_len2,
         loss_start_m,
         time_limit_s,
         path_spacing_m,

@@ -21,9 +21,11 @@ use rand_distr::{Distribution, StandardNormal};
 
 use super::draw::ParamSampler;
 use super::gyro::Gyro;
+use super::pose::CarriedPose;
 use crate::follow::Follower;
 use crate::kinematics::{Model, MotionModel, Pose, Twist};
 use crate::rollout::{ground_twist, RouteDrive};
+use crate::route::{PlanPath, TerrainShare};
 
 /// Random-walk noise intensities of a terrain.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
@@ -53,6 +55,8 @@ pub struct SampleSetup {
     pub odometry: Vec<Model>,
     /// Noise of each leg's terrain.
     pub noise: Vec<Noise>,
+    /// 1 / length^2 of each plan segment (see [`inverse_lengths2`]).
+    pub segment_inv_len2: Vec<f64>,
     /// Arc length where localization is lost.
     pub loss_start_m: f64,
     pub time_limit_s: f64,
@@ -60,14 +64,30 @@ pub struct SampleSetup {
     pub path_spacing_m: f64,
 }
 
-/// Squared distance from `p` to the segment a-b, m^2.
+/// Squared distance from `p` to the segment a-b, m^2, given `inv_len2` = 1 / |b - a|^2 (0 for
+/// a zero-length segment).
 #[inline]
-fn segment_distance2(p: [f64; 2], a: [f64; 2], b: [f64; 2]) -> f64 {
+fn segment_distance2(p: [f64; 2], a: [f64; 2], b: [f64; 2], inv_len2: f64) -> f64 {
     let (dx, dy) = (b[0] - a[0], b[1] - a[1]);
-    let len2 = dx * dx + dy * dy;
-    let t = if len2 > 0.0 { (((p[0] - a[0]) * dx + (p[1] - a[1]) * dy) / len2).clamp(0.0, 1.0) } else { 0.0 };
+    let t = (((p[0] - a[0]) * dx + (p[1] - a[1]) * dy) * inv_len2).clamp(0.0, 1.0);
     let (ex, ey) = (p[0] - a[0] - t * dx, p[1] - a[1] - t * dy);
     ex * ex + ey * ey
+}
+
+/// 1 / |b - a|^2 of every segment of `points` (0 for a zero-length one), for [`SegmentCursor`].
+pub fn inverse_lengths2(points: &[[f64; 2]]) -> Vec<f64> {
+    points
+        .windows(2)
+        .map(|w| {
+            let (dx, dy) = (w[1][0] - w[0][0], w[1][1] - w[0][1]);
+            let len2 = dx * dx + dy * dy;
+            if len2 > 0.0 {
+                1.0 / len2
+            } else {
+                0.0
+            }
+        })
+        .collect()
 }
 
 /// Where the true vehicle is along the plan, for the terrain under it: the plan segment it is
@@ -80,17 +100,53 @@ struct SegmentCursor {
 
 impl SegmentCursor {
     #[inline]
-    fn advance(&mut self, points: &[[f64; 2]], p: [f64; 2]) {
-        while self.segment + 2 < points.len() {
+    fn advance(&mut self, points: &[[f64; 2]], inv_len2: &[f64], p: [f64; 2]) {
+        while self.segment + 2 < points.len() && self.segment + 1 < inv_len2.len() {
             let i = self.segment;
-            let here = segment_distance2(p, points[i], points[i + 1]);
-            let next = segment_distance2(p, points[i + 1], points[i + 2]);
+            let here = segment_distance2(p, points[i], points[i + 1], inv_len2[i]);
+            let next = segment_distance2(p, points[i + 1], points[i + 2], inv_len2[i + 1]);
             if next < here {
                 self.segment += 1;
             } else {
                 break;
             }
         }
+    }
+}
+
+/// The stretch of arc length where [`PlanPath::leg_at`] gives the leg `leg`, remembered from
+/// the last call: while both ends of the contact patch lie in it, the terrain share is that
+/// leg's alone and needs no search (the answer is the same as [`PlanPath::terrain_share`]'s).
+#[derive(Debug, Clone, Copy)]
+struct LegSpan {
+    leg: usize,
+    from_m: f64,
+    to_m: f64,
+}
+
+impl Default for LegSpan {
+    fn default() -> Self {
+        // An empty stretch: the first call searches.
+        LegSpan { leg: 0, from_m: f64::INFINITY, to_m: f64::NEG_INFINITY }
+    }
+}
+
+impl LegSpan {
+    #[inline]
+    fn terrain_share(&mut self, plan: &PlanPath, s_m: f64, contact_length_m: f64) -> TerrainShare {
+        let half = 0.5 * contact_length_m.max(0.0);
+        if (s_m - half).max(0.0) >= self.from_m && s_m + half < self.to_m {
+            return TerrainShare { rear: self.leg, front: self.leg, front_share: 0.0 };
+        }
+        let share = plan.terrain_share(s_m, contact_length_m);
+        // leg_at(x) is the last leg whose start is <= x: leg i from its start up to the next
+        // larger start (the first and last legs open-ended).
+        let n = plan.leg_count();
+        let leg = share.rear;
+        let from_m = if leg == 0 { f64::NEG_INFINITY } else { plan.leg_bounds_m(leg).0 };
+        let to_m = (leg + 1..n).map(|j| plan.leg_bounds_m(j).0).find(|&s| s > from_m).unwrap_or(f64::INFINITY);
+        *self = LegSpan { leg, from_m, to_m };
+        share
     }
 }
 
@@ -131,35 +187,37 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
     let plan = &drive.plan;
     let n_legs = plan.leg_count();
     let dt = drive.limits.dt_s;
+    let inv_dt = 1.0 / dt;
     let leg_end_m: Vec<f64> = (0..n_legs).map(|i| plan.leg_bounds_m(i).1).collect();
 
     let start = plan.point_at(0.0);
     let dir = plan.direction_at(0.0);
-    let mut truth = Pose::new(start[0], start[1], dir[1].atan2(dir[0]));
+    let mut truth = CarriedPose::new(Pose::new(start[0], start[1], dir[1].atan2(dir[0])));
     let mut believed = truth;
     let mut follower = Follower::new(plan, drive.speeds.view(), drive.limits);
     let mut ends: Vec<Option<EndError>> = vec![None; n_legs];
     let mut path = keep_path.then(|| {
         let cap = (3.0 * plan.length_m() / setup.path_spacing_m) as usize + 64;
         let mut v = Vec::with_capacity(cap);
-        v.push([truth.x_m, truth.y_m]);
+        v.push([truth.pose.x_m, truth.pose.y_m]);
         v
     });
     let mut since_point_m = 0.0;
     let mut cursor = SegmentCursor::default();
+    let mut span = LegSpan::default();
     let points = plan.points();
     let mut next_end = 0;
     let mut k: u64 = 0;
     let timed_out = loop {
-        follower.update_progress(believed);
+        follower.update_progress(believed.pose);
         let s = follower.progress_m();
         while next_end + 1 < n_legs && s >= leg_end_m[next_end] {
-            ends[next_end] = Some(end_error(truth, believed));
+            ends[next_end] = Some(end_error(truth.pose, believed.pose));
             next_end += 1;
         }
-        if k > 0 && follower.finished(believed) {
+        if k > 0 && follower.finished(believed.pose) {
             if let Some(last) = ends.last_mut() {
-                *last = Some(end_error(truth, believed));
+                *last = Some(end_error(truth.pose, believed.pose));
             }
             break false;
         }
@@ -168,37 +226,38 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
         }
         let localized = s < setup.loss_start_m;
         let leg = follower.leg();
-        // sin and cos of the believed heading, once a step for the pursuit goal and dead reckoning.
-        let believed_sin_cos = believed.yaw_rad.sin_cos();
-        let cmd =
-            follower.command_capped_with(believed, believed_sin_cos, &drive.legs[leg].controller, |_| f64::INFINITY);
+        let cmd = follower
+            .command_capped_with(believed.pose, believed.sin_cos, &drive.legs[leg].controller, |_| f64::INFINITY);
         // The terrain under the true vehicle, at the plan point it is nearest to, blended over the
         // contact length (the rule of the check: rollout::ground_twist).
         let (true_leg, mut twist) = if single_terrain {
             (leg, actual[leg].twist(cmd.left_mps, cmd.right_mps))
         } else {
-            cursor.advance(points, [truth.x_m, truth.y_m]);
-            let s_true = plan.arc_length_on_segment(cursor.segment, [truth.x_m, truth.y_m]);
-            let under = plan.terrain_share(s_true, drive.vehicle.contact_length_m);
+            let p = [truth.pose.x_m, truth.pose.y_m];
+            cursor.advance(points, &setup.segment_inv_len2, p);
+            let s_true = plan.arc_length_on_segment(cursor.segment, p);
+            let under = span.terrain_share(plan, s_true, drive.vehicle.contact_length_m);
             let (rear, front) = (actual[under.rear], actual[under.front]);
             (under.dominant(), ground_twist(rear, front, under.front_share, cmd.left_mps, cmd.right_mps))
         };
-        let ds_m = twist.vx_mps.hypot(twist.vy_mps) * dt;
-        add_noise(&mut twist, &setup.noise[true_leg], ds_m, dt, &mut rng);
-        truth = truth.step(twist, dt);
-        believed = if localized {
-            truth
+        // sqrt of the sum of squares rather than hypot: no overflow is possible at vehicle speeds.
+        let speed_mps = (twist.vx_mps * twist.vx_mps + twist.vy_mps * twist.vy_mps).sqrt();
+        let ds_m = speed_mps * dt;
+        add_noise(&mut twist, &setup.noise[true_leg], speed_mps, inv_dt, &mut rng);
+        truth.step(twist, dt);
+        if localized {
+            believed = truth;
         } else {
             let mut odo = setup.odometry[leg].twist(cmd.left_mps, cmd.right_mps);
             if let Some(g) = &setup.gyro {
                 odo.omega_radps = g.measure(twist.omega_radps, gyro_bias_radps, dt, &mut rng);
             }
-            believed.step_with(odo, dt, believed_sin_cos)
-        };
+            believed.step(odo, dt);
+        }
         if let Some(p) = path.as_mut() {
             since_point_m += ds_m;
             if since_point_m >= setup.path_spacing_m && p.len() < p.capacity() {
-                p.push([truth.x_m, truth.y_m]);
+                p.push([truth.pose.x_m, truth.pose.y_m]);
                 since_point_m = 0.0;
             }
         }
@@ -206,20 +265,22 @@ pub fn run_sample(setup: &SampleSetup, seed: u64, index: u64, keep_path: bool) -
     };
     if let Some(p) = path.as_mut() {
         if p.len() < p.capacity() {
-            p.push([truth.x_m, truth.y_m]);
+            p.push([truth.pose.x_m, truth.pose.y_m]);
         }
     }
     SampleOutcome { ends, timed_out, steps: k, path }
 }
 
-/// Adds the random-walk increments of a step of length `ds_m` as a constant twist increment
-/// over the step (variance proportional to the distance travelled; Kelly 2004).
+/// Adds the random-walk increments of a step of dt seconds at `speed_mps` (length ds = v dt) as
+/// a constant twist increment over the step (variance proportional to the distance travelled;
+/// Kelly 2004): increments of standard deviation q sqrt(ds) entered as rates, q sqrt(ds) / dt =
+/// q sqrt(v / dt). `inv_dt` is 1 / dt.
 #[inline]
-fn add_noise(twist: &mut Twist, noise: &Noise, ds_m: f64, dt_s: f64, rng: &mut ChaCha8Rng) {
-    if ds_m <= 0.0 || noise.is_zero() {
+fn add_noise(twist: &mut Twist, noise: &Noise, speed_mps: f64, inv_dt: f64, rng: &mut ChaCha8Rng) {
+    if speed_mps <= 0.0 || noise.is_zero() {
         return;
     }
-    let scale = ds_m.sqrt() / dt_s;
+    let scale = (speed_mps * inv_dt).sqrt();
     let zh: f64 = StandardNormal.sample(rng);
     let za: f64 = StandardNormal.sample(rng);
     let zc: f64 = StandardNormal.sample(rng);
@@ -236,21 +297,22 @@ mod tests {
     fn cursor_follows_corners_and_hairpins_forward_only() {
         // An L (east then north) followed by a hairpin back south one metre further east.
         let pts = [[0.0, 0.0], [10.0, 0.0], [10.0, 10.0], [11.0, 10.0], [11.0, 0.0]];
+        let inv = inverse_lengths2(&pts);
         let mut c = SegmentCursor::default();
         // Cutting the corner inside, as pure pursuit does: x < 10 while turning north.
         for p in [[5.0, 0.1], [9.0, 0.5], [9.6, 2.0], [9.8, 5.0]] {
-            c.advance(&pts, p);
+            c.advance(&pts, &inv, p);
         }
         assert_eq!(c.segment, 1);
         // Near the hairpin's return leg, the forward-only cursor does not jump to it early.
-        c.advance(&pts, [10.4, 5.0]);
+        c.advance(&pts, &inv, [10.4, 5.0]);
         assert_eq!(c.segment, 1);
         for p in [[10.2, 9.8], [10.8, 9.9], [11.0, 8.0]] {
-            c.advance(&pts, p);
+            c.advance(&pts, &inv, p);
         }
         assert_eq!(c.segment, 3);
         // Far off the plan it still moves on only one segment at a time and never back.
-        c.advance(&pts, [-50.0, -50.0]);
+        c.advance(&pts, &inv, [-50.0, -50.0]);
         assert_eq!(c.segment, 3);
     }
 }

@@ -151,11 +151,13 @@ impl Model {
 }
 
 impl MotionModel for Model {
-    #[inline]
+    // Always inlined: the simulation loops call these every step, and a call returns its result
+    // through memory, which the next arithmetic waits for.
+    #[inline(always)]
     fn twist(&self, left_mps: f64, right_mps: f64) -> Twist {
         dispatch!(self, m => m.twist(left_mps, right_mps))
     }
-    #[inline]
+    #[inline(always)]
     fn inverse(&self, vx_mps: f64, omega_radps: f64) -> Option<(f64, f64)> {
         dispatch!(self, m => m.inverse(vx_mps, omega_radps))
     }

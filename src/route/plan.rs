@@ -113,6 +113,15 @@ pub struct Nearest {
     pub signed_offset_m: f64,
 }
 
+impl Nearest {
+    /// From the squared distance, the arc length and the side (>= 0: left).
+    #[inline(always)]
+    fn new(distance2_m2: f64, s_m: f64, side: f64) -> Nearest {
+        let distance_m = distance2_m2.sqrt();
+        Nearest { s_m, distance_m, signed_offset_m: if side >= 0.0 { distance_m } else { -distance_m } }
+    }
+}
+
 impl PlanPath {
     /// Joins the legs of a route (a leg's first point replaces the previous leg's last point,
     /// which the reader has checked lies within the join tolerance).
@@ -316,8 +325,29 @@ impl PlanPath {
     /// Same result as `segment_at`, found from `hint` by a galloping search (steps of 1, 2, 4,
     /// ... then bisection inside the bracket): O(log d) for an answer d segments from the hint,
     /// so a window search costs the same on a dense plan as on a sparse one.
-    #[inline]
+    #[inline(always)]
     fn segment_from(&self, s_m: f64, hint: usize) -> usize {
+        // The common case inline (the answer is the hint: a walk along the plan), the search out
+        // of line.
+        let last = self.points.len().saturating_sub(2);
+        let i = hint.min(last);
+        if self.s_m.get(i).is_some_and(|&s_i| s_m >= s_i) {
+            // Forward a few segments by a scan (the end of a lookahead window): the last segment
+            // starting at or before `s_m`, as the search gives it.
+            let mut j = i;
+            for _ in 0..8 {
+                if j >= last || self.s_m.get(j + 1).is_none_or(|&s_j| s_m < s_j) {
+                    return j;
+                }
+                j += 1;
+            }
+        }
+        self.segment_search(s_m, hint)
+    }
+
+    /// The search of [`PlanPath::segment_from`].
+    #[inline(never)]
+    fn segment_search(&self, s_m: f64, hint: usize) -> usize {
         let last = self.points.len().saturating_sub(2);
         let i = hint.min(last);
         if s_m.is_nan() {
@@ -491,22 +521,39 @@ impl PlanPath {
     /// Long windows start from the segment the cursor was at and skip every block of segments
     /// whose bounding circle lies farther than the best point found so far; ties go to the
     /// earliest segment, so the answer is the one a scan of every segment in order gives.
-    #[inline]
+    #[inline(always)]
     pub fn nearest_within_at(&self, p: [f64; 2], from_m: f64, to_m: f64, cursor: &mut Cursor) -> Nearest {
         let hint = cursor.segment;
         let first = self.segment_from(from_m, cursor.segment);
         cursor.segment = first;
         let last = self.segment_from(to_m, first);
+        if last >= first + 2 * BLOCK_SEGMENTS {
+            return self.nearest_in_blocks(p, from_m, to_m, hint, first, last);
+        }
         let (mut best_d2, mut best_s, mut best_side) = (f64::INFINITY, from_m, 0.0);
-        if last < first + 2 * BLOCK_SEGMENTS {
-            for i in first..=last {
-                if let Some((d2, s, side)) = self.segment_distance(p, i, from_m, to_m) {
-                    if d2 < best_d2 {
-                        (best_d2, best_s, best_side) = (d2, s, side);
-                    }
+        for i in first..=last {
+            if let Some((d2, s, side)) = self.segment_distance(p, i, from_m, to_m) {
+                if d2 < best_d2 {
+                    (best_d2, best_s, best_side) = (d2, s, side);
                 }
             }
-        } else {
+        }
+        Nearest::new(best_d2, best_s, best_side)
+    }
+
+    /// The long-window search of [`PlanPath::nearest_within_at`], segments `first..=last`.
+    #[inline(never)]
+    fn nearest_in_blocks(
+        &self,
+        p: [f64; 2],
+        from_m: f64,
+        to_m: f64,
+        hint: usize,
+        first: usize,
+        last: usize,
+    ) -> Nearest {
+        let (mut best_d2, mut best_s, mut best_side) = (f64::INFINITY, from_m, 0.0);
+        {
             let seed = hint.clamp(first, last);
             let mut best_i = usize::MAX;
             if let Some((d2, s, side)) = self.segment_distance(p, seed, from_m, to_m) {
@@ -537,8 +584,7 @@ impl PlanPath {
                 }
             }
         }
-        let distance_m = best_d2.sqrt();
-        Nearest { s_m: best_s, distance_m, signed_offset_m: if best_side >= 0.0 { distance_m } else { -distance_m } }
+        Nearest::new(best_d2, best_s, best_side)
     }
 
     /// Squared distance from `p` to the part of segment `i` with arc length in `[from_m, to_m]`,
