@@ -32,16 +32,7 @@ fn synthetic_route() -> Route {
         }
         legs.push(Leg {
             name: Some(format!("leg {}", k + 1)),
-            terrain: terrains[k % terrains.len()].to_string(),
-            speed_mps: None,
-            corridor_m: None,
-            points,
-            altitude_m: None,
-            speeds_mps: None,
-            corridors_m: None,
-            cross_slope: None,
-            position: SourcePosition::Feature(k),
-            added_points: None,
+            ..Leg::new(terrains[k % terrains.len()], points, SourcePosition::Feature(k))
         });
     }
     Route { name: "synthetic 2 km".into(), source: "synthetic".into(), origin: None, legs, warnings: Vec::new() }

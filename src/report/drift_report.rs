@@ -265,16 +265,7 @@ mod tests {
     fn small_run(origin: Option<GeoOrigin>) -> (Route, DriftReport) {
         let leg = |terrain: &str, points: Vec<[f64; 2]>| Leg {
             name: Some("a leg".into()),
-            terrain: terrain.into(),
-            speed_mps: None,
-            corridor_m: None,
-            points,
-            altitude_m: None,
-            speeds_mps: None,
-            corridors_m: None,
-            cross_slope: None,
-            position: SourcePosition::Feature(0),
-            added_points: None,
+            ..Leg::new(terrain, points, SourcePosition::Feature(0))
         };
         let route = Route {
             name: "r".into(),

@@ -70,16 +70,18 @@ pub fn terrain_fill(terrain: &str) -> RGBColor {
 mod tests {
     use super::*;
 
+    /// sRGB (IEC 61966-2-1) channel to linear light.
+    fn lin(v: u8) -> f64 {
+        let v = f64::from(v) / 255.0;
+        if v <= 0.04045 {
+            v / 12.92
+        } else {
+            ((v + 0.055) / 1.055).powf(2.4)
+        }
+    }
+
     /// sRGB (IEC 61966-2-1) to CIELAB (CIE 15, D65 white), each step written out here.
     fn lab(c: RGBColor) -> [f64; 3] {
-        let lin = |v: u8| {
-            let v = f64::from(v) / 255.0;
-            if v <= 0.04045 {
-                v / 12.92
-            } else {
-                ((v + 0.055) / 1.055).powf(2.4)
-            }
-        };
         lab_of_linear([lin(c.0), lin(c.1), lin(c.2)])
     }
 
@@ -152,14 +154,6 @@ mod tests {
             [[0.367322, 0.860646, -0.227968], [0.280085, 0.672501, 0.047413], [-0.011820, 0.042940, 0.968881]];
         let tritanopia =
             [[1.255528, -0.076749, -0.178779], [-0.078411, 0.930809, 0.147602], [0.004733, 0.691367, 0.303900]];
-        let lin = |v: u8| {
-            let v = f64::from(v) / 255.0;
-            if v <= 0.04045 {
-                v / 12.92
-            } else {
-                ((v + 0.055) / 1.055).powf(2.4)
-            }
-        };
         for (name, m) in [
             ("normal", identity),
             ("protanopia", protanopia),
