@@ -88,14 +88,7 @@ pub struct Follower<'a> {
     /// The planner's speed profile with its braking envelope.
     speeds: SpeedView<'a>,
     limits: FollowerLimits,
-    progress_m: f64,
-    speed_mps: f64,
-    left_mps: f64,
-    right_mps: f64,
-    /// Segment near the progress point, for fast plan queries.
-    cursor: Cursor,
-    /// Leg of the progress point.
-    leg: usize,
+    state: FollowerState,
 }
 
 /// The state a follower carries from one control step to the next, to resume it later (with the
@@ -106,8 +99,16 @@ pub struct FollowerState {
     speed_mps: f64,
     left_mps: f64,
     right_mps: f64,
+    /// Segment of the progress point, for fast plan queries.
     cursor: Cursor,
+    /// Leg of the progress point.
     leg: usize,
+    /// Segments of the far ends of the lookahead windows (one lookahead behind and ahead of the
+    /// progress point, and the end of the goal search), each walked along with the progress
+    /// point so no window query searches for its ends. Results never depend on them.
+    behind: Cursor,
+    ahead: Cursor,
+    reach: Cursor,
 }
 
 impl FollowerState {
@@ -120,55 +121,49 @@ impl FollowerState {
 impl<'a> Follower<'a> {
     /// The follower's state now.
     pub fn state(&self) -> FollowerState {
-        FollowerState {
-            progress_m: self.progress_m,
-            speed_mps: self.speed_mps,
-            left_mps: self.left_mps,
-            right_mps: self.right_mps,
-            cursor: self.cursor,
-            leg: self.leg,
-        }
+        self.state
     }
 
     /// A follower resumed from `state`, driving the speed plan `speeds`.
     pub fn resume(plan: &'a PlanPath, speeds: SpeedView<'a>, limits: FollowerLimits, state: FollowerState) -> Self {
-        let FollowerState { progress_m, speed_mps, left_mps, right_mps, cursor, leg } = state;
-        Follower { plan, speeds, limits, progress_m, speed_mps, left_mps, right_mps, cursor, leg }
+        Follower { plan, speeds, limits, state }
     }
 
     /// A follower at rest at the start of `plan`, driving the speed plan `speeds` (built for
     /// this plan and the same acceleration limit as `limits`).
     pub fn new(plan: &'a PlanPath, speeds: SpeedView<'a>, limits: FollowerLimits) -> Self {
-        Follower {
-            plan,
-            speeds,
-            limits,
+        let state = FollowerState {
             progress_m: 0.0,
             speed_mps: 0.0,
             left_mps: 0.0,
             right_mps: 0.0,
             cursor: Cursor::default(),
             leg: 0,
-        }
+            behind: Cursor::default(),
+            ahead: Cursor::default(),
+            reach: Cursor::default(),
+        };
+        Follower { plan, speeds, limits, state }
     }
 
     /// Nearest plan point to `pose` within a lookahead either side of the progress point: the
     /// deviation from the plan (a loop's far side never counts).
     #[inline]
-    pub fn deviation(&self, pose: Pose) -> Nearest {
-        let (s, w) = (self.progress_m, self.limits.lookahead_m);
-        let mut cursor = self.cursor;
-        self.plan.nearest_within_at([pose.x_m, pose.y_m], s - w, s + w, &mut cursor)
+    pub fn deviation(&mut self, pose: Pose) -> Nearest {
+        let st = &mut self.state;
+        let (s, w) = (st.progress_m, self.limits.lookahead_m);
+        let seed = st.cursor.segment();
+        self.plan.nearest_in_window([pose.x_m, pose.y_m], s - w, s + w, seed, &mut st.behind, &mut st.ahead)
     }
 
     /// Arc length of the progress point.
     pub fn progress_m(&self) -> f64 {
-        self.progress_m
+        self.state.progress_m
     }
 
     /// Leg of the progress point.
     pub fn leg(&self) -> usize {
-        self.leg
+        self.state.leg
     }
 
     /// Moves the progress point forward to the nearest plan point within one lookahead ahead;
@@ -181,22 +176,24 @@ impl<'a> Follower<'a> {
     /// inside its turning circle; one far off a straight steers back to the point abeam.
     #[inline]
     pub fn update_progress(&mut self, pose: Pose) {
-        let (p, l) = (self.progress_m, self.limits.lookahead_m);
+        let st = &mut self.state;
+        let (p, l) = (st.progress_m, self.limits.lookahead_m);
         let xy = [pose.x_m, pose.y_m];
-        let near = self.plan.nearest_within_at(xy, p, p + l, &mut self.cursor);
+        let seed = st.cursor.segment();
+        let near = self.plan.nearest_in_window(xy, p, p + l, seed, &mut st.cursor, &mut st.ahead);
         if near.s_m > p && near.distance_m <= l {
-            self.progress_m = near.s_m;
+            st.progress_m = near.s_m;
         } else if near.distance_m > l {
             let to_m = (p + LOST_SEARCH_LOOKAHEADS * l).min(self.plan.length_m());
-            let mut cursor = self.cursor;
+            let mut cursor = st.cursor;
             let far = self.plan.nearest_within_at(xy, p, to_m, &mut cursor);
             let interior = far.s_m < to_m - 1e-9 || to_m >= self.plan.length_m();
             let here = self.plan.nearest_within_at(xy, p, p, &mut cursor);
             if far.s_m > p && interior && far.distance_m < here.distance_m - 1e-9 {
-                self.progress_m = far.s_m;
+                st.progress_m = far.s_m;
             }
         }
-        self.leg = self.plan.leg_at_cursor(self.progress_m, &mut self.cursor);
+        st.leg = self.plan.leg_at_cursor(st.progress_m, &mut st.cursor);
     }
 
     /// Target speed at the progress point: the planner's speed there (linear in arc length
@@ -207,20 +204,20 @@ impl<'a> Follower<'a> {
     #[inline]
     fn target_speed_mps(&self) -> f64 {
         let a = self.limits.max_side_accel_mps2;
-        let mut cursor = self.cursor;
-        let i = self.plan.segment_at_cursor(self.progress_m, &mut cursor);
+        let mut cursor = self.state.cursor;
+        let i = self.plan.segment_at_cursor(self.state.progress_m, &mut cursor);
         let (s0, s1) = self.plan.segment_bounds_m(i);
-        let v = self.speeds.target_mps(i, self.progress_m - s0, s1 - s0).max(CREEP_SPEED_MPS);
-        let remaining = (self.plan.length_m() - self.progress_m).max(0.0);
+        let v = self.speeds.target_mps(i, self.state.progress_m - s0, s1 - s0).max(CREEP_SPEED_MPS);
+        let remaining = (self.plan.length_m() - self.state.progress_m).max(0.0);
         v.min((2.0 * a * remaining).sqrt().max(CREEP_SPEED_MPS))
     }
 
     /// The planner's speed (without the envelope) at the progress point.
     pub fn planned_speed_mps(&self) -> f64 {
-        let mut cursor = self.cursor;
-        let i = self.plan.segment_at_cursor(self.progress_m, &mut cursor);
+        let mut cursor = self.state.cursor;
+        let i = self.plan.segment_at_cursor(self.state.progress_m, &mut cursor);
         let (s0, s1) = self.plan.segment_bounds_m(i);
-        self.speeds.planned_mps(i, self.progress_m - s0, s1 - s0)
+        self.speeds.planned_mps(i, self.state.progress_m - s0, s1 - s0)
     }
 
     /// One control step: pure pursuit on `pose` (the pose the controller believes), then the
@@ -253,12 +250,14 @@ impl<'a> Follower<'a> {
         cap: impl Fn(f64) -> f64,
     ) -> Command {
         let lim = self.limits;
-        let goal = self.plan.pursuit_goal_at(
+        let st = &mut self.state;
+        let goal = self.plan.pursuit_goal_within(
             [pose.x_m, pose.y_m],
-            self.progress_m,
+            st.progress_m,
             lim.lookahead_m,
             3.0 * lim.lookahead_m,
-            self.cursor,
+            st.cursor,
+            &mut st.reach,
         );
         let (gx, gy) = pose.to_body_with(goal[0], goal[1], sin_cos_yaw);
         let kappa = pursuit_curvature(gx, gy);
@@ -268,18 +267,18 @@ impl<'a> Follower<'a> {
             let lateral = (lim.max_lateral_accel_mps2 / kappa.abs()).sqrt();
             target = target.min(lateral.min(cap(kappa)).max(CREEP_SPEED_MPS));
         }
-        self.speed_mps += (target - self.speed_mps).clamp(-dv, dv);
-        let omega = (kappa * self.speed_mps).clamp(-lim.max_yaw_rate_radps, lim.max_yaw_rate_radps);
+        self.state.speed_mps += (target - self.state.speed_mps).clamp(-dv, dv);
+        let omega = (kappa * self.state.speed_mps).clamp(-lim.max_yaw_rate_radps, lim.max_yaw_rate_radps);
         let half = 0.5 * omega * lim.track_width_m;
         let (l, r) =
-            controller.inverse(self.speed_mps, omega).unwrap_or((self.speed_mps - half, self.speed_mps + half));
+            controller.inverse(self.state.speed_mps, omega).unwrap_or((self.state.speed_mps - half, self.state.speed_mps + half));
         let (l, r) = saturate_sides(l, r, lim.max_side_speed_mps);
-        self.left_mps += (l - self.left_mps).clamp(-dv, dv);
-        self.right_mps += (r - self.right_mps).clamp(-dv, dv);
+        self.state.left_mps += (l - self.state.left_mps).clamp(-dv, dv);
+        self.state.right_mps += (r - self.state.right_mps).clamp(-dv, dv);
         Command {
-            left_mps: self.left_mps,
-            right_mps: self.right_mps,
-            speed_mps: self.speed_mps,
+            left_mps: self.state.left_mps,
+            right_mps: self.state.right_mps,
+            speed_mps: self.state.speed_mps,
             curvature_per_m: kappa,
         }
     }
@@ -289,14 +288,14 @@ impl<'a> Follower<'a> {
     #[inline]
     pub fn finished(&self, pose: Pose) -> bool {
         let total = self.plan.length_m();
-        if self.progress_m < total - self.limits.lookahead_m {
+        if self.state.progress_m < total - self.limits.lookahead_m {
             return false;
         }
         let end = self.plan.point_at(total);
         let dir = self.plan.direction_at(total);
         let (ex, ey) = (pose.x_m - end[0], pose.y_m - end[1]);
         let passed = ex * dir[0] + ey * dir[1] >= 0.0;
-        let stopped_near = self.left_mps.abs().max(self.right_mps.abs()) < 1e-3 && (ex * ex + ey * ey).sqrt() < 0.2;
+        let stopped_near = self.state.left_mps.abs().max(self.state.right_mps.abs()) < 1e-3 && (ex * ex + ey * ey).sqrt() < 0.2;
         passed || stopped_near
     }
 }

@@ -527,6 +527,32 @@ impl PlanPath {
         let first = self.segment_from(from_m, cursor.segment);
         cursor.segment = first;
         let last = self.segment_from(to_m, first);
+        self.nearest_between(p, from_m, to_m, hint, first, last)
+    }
+
+    /// [`PlanPath::nearest_within`] for a window whose ends are walked by two cursors (each moved
+    /// to the segment of its end), the search starting from segment `seed` (a segment near the
+    /// answer, such as the previous one's). Same answer as [`PlanPath::nearest_within`].
+    #[inline(always)]
+    pub fn nearest_in_window(
+        &self,
+        p: [f64; 2],
+        from_m: f64,
+        to_m: f64,
+        seed: usize,
+        from_cursor: &mut Cursor,
+        to_cursor: &mut Cursor,
+    ) -> Nearest {
+        let first = self.segment_from(from_m, from_cursor.segment);
+        from_cursor.segment = first;
+        let last = self.segment_from(to_m, to_cursor.segment.max(first));
+        to_cursor.segment = last;
+        self.nearest_between(p, from_m, to_m, seed, first, last)
+    }
+
+    /// The search of the window `[from_m, to_m]`, segments `first..=last`, from `hint`.
+    #[inline(always)]
+    fn nearest_between(&self, p: [f64; 2], from_m: f64, to_m: f64, hint: usize, first: usize, last: usize) -> Nearest {
         if last >= first + 2 * BLOCK_SEGMENTS {
             return self.nearest_in_blocks(p, from_m, to_m, hint, first, last);
         }
@@ -630,10 +656,27 @@ impl PlanPath {
         search_m: f64,
         cursor: Cursor,
     ) -> [f64; 2] {
+        let mut reach = cursor;
+        self.pursuit_goal_within(p, from_m, lookahead_m, search_m, cursor, &mut reach)
+    }
+
+    /// [`PlanPath::pursuit_goal_at`] with a second cursor for the end of the search, moved to
+    /// its segment (the follower walks it along). Same answer.
+    #[inline]
+    pub fn pursuit_goal_within(
+        &self,
+        p: [f64; 2],
+        from_m: f64,
+        lookahead_m: f64,
+        search_m: f64,
+        cursor: Cursor,
+        reach: &mut Cursor,
+    ) -> [f64; 2] {
         let total = self.length_m();
         let to_m = (from_m + search_m).min(total);
         let first = self.segment_from(from_m, cursor.segment);
-        let last = self.segment_from(to_m, first);
+        let last = self.segment_from(to_m, reach.segment.max(first));
+        reach.segment = last;
         let l2 = lookahead_m * lookahead_m;
         for b in first / BLOCK_SEGMENTS..=last / BLOCK_SEGMENTS {
             // A block wholly inside or wholly outside the circle of radius L round `p` has no
