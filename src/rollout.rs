@@ -13,7 +13,7 @@
 use crate::effort::{effort_step, EffortStep, EffortVehicle, Ground, Slope};
 use crate::follow::{driven_speed_mps, segment_time_s, Follower, FollowerLimits, FollowerState, SpeedPlan, SpeedView};
 use crate::kinematics::{Model, MotionModel, Pose, Twist};
-use crate::route::{Cursor, Leg, PlanPath, Route, TerrainShare};
+use crate::route::{Cursor, Leg, LegSpan, PlanPath, Route, TerrainShare};
 use crate::turn_limit::{limit_step, turn_speed_limit_mps, StepLimit};
 use crate::vehicle::Profile;
 
@@ -324,6 +324,8 @@ fn simulate(
     let (mut pose, mut k, mut prev_vx) = (start.pose, start.k, start.prev_vx_mps);
     // Walks with the progress point: the slope lookups are O(1) per step.
     let mut slope_cursor = Cursor::default();
+    // The leg under the contact patch, searched only near a terrain boundary.
+    let mut span = LegSpan::default();
     let mut t = k as f64 * dt;
     let outcome = loop {
         at_top(&Resume { follower: follower.state(), pose, k, prev_vx_mps: prev_vx });
@@ -355,7 +357,7 @@ fn simulate(
             break outcome;
         }
         let legd = &drive.legs[leg];
-        let under = plan.terrain_share(step.progress_m, drive.vehicle.contact_length_m);
+        let under = span.terrain_share(plan, step.progress_m, drive.vehicle.contact_length_m);
         let (rear, front) = drive.terrain_pair(under);
         let ground = rear.ground.blend(&front.ground, under.front_share);
         let (grade, cross) = plan.slope_at_cursor(step.progress_m, &mut slope_cursor);

@@ -25,7 +25,7 @@ use super::pose::CarriedPose;
 use crate::follow::Follower;
 use crate::kinematics::{Model, MotionModel, Pose, Twist};
 use crate::rollout::{ground_twist, RouteDrive};
-use crate::route::{PlanPath, TerrainShare};
+use crate::route::LegSpan;
 
 /// Random-walk noise intensities of a terrain.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
@@ -111,42 +111,6 @@ impl SegmentCursor {
                 break;
             }
         }
-    }
-}
-
-/// The stretch of arc length where [`PlanPath::leg_at`] gives the leg `leg`, remembered from
-/// the last call: while both ends of the contact patch lie in it, the terrain share is that
-/// leg's alone and needs no search (the answer is the same as [`PlanPath::terrain_share`]'s).
-#[derive(Debug, Clone, Copy)]
-struct LegSpan {
-    leg: usize,
-    from_m: f64,
-    to_m: f64,
-}
-
-impl Default for LegSpan {
-    fn default() -> Self {
-        // An empty stretch: the first call searches.
-        LegSpan { leg: 0, from_m: f64::INFINITY, to_m: f64::NEG_INFINITY }
-    }
-}
-
-impl LegSpan {
-    #[inline]
-    fn terrain_share(&mut self, plan: &PlanPath, s_m: f64, contact_length_m: f64) -> TerrainShare {
-        let half = 0.5 * contact_length_m.max(0.0);
-        if (s_m - half).max(0.0) >= self.from_m && s_m + half < self.to_m {
-            return TerrainShare { rear: self.leg, front: self.leg, front_share: 0.0 };
-        }
-        let share = plan.terrain_share(s_m, contact_length_m);
-        // leg_at(x) is the last leg whose start is <= x: leg i from its start up to the next
-        // larger start (the first and last legs open-ended).
-        let n = plan.leg_count();
-        let leg = share.rear;
-        let from_m = if leg == 0 { f64::NEG_INFINITY } else { plan.leg_bounds_m(leg).0 };
-        let to_m = (leg + 1..n).map(|j| plan.leg_bounds_m(j).0).find(|&s| s > from_m).unwrap_or(f64::INFINITY);
-        *self = LegSpan { leg, from_m, to_m };
-        share
     }
 }
 

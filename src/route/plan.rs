@@ -737,6 +737,42 @@ impl PlanPath {
     }
 }
 
+/// The stretch of arc length where [`PlanPath::leg_at`] gives the leg `leg`, remembered from
+/// the last call: while both ends of the contact patch lie in it, the terrain share is that
+/// leg's alone and needs no search (the answer is the same as [`PlanPath::terrain_share`]'s).
+#[derive(Debug, Clone, Copy)]
+pub struct LegSpan {
+    leg: usize,
+    from_m: f64,
+    to_m: f64,
+}
+
+impl Default for LegSpan {
+    fn default() -> Self {
+        // An empty stretch: the first call searches.
+        LegSpan { leg: 0, from_m: f64::INFINITY, to_m: f64::NEG_INFINITY }
+    }
+}
+
+impl LegSpan {
+    #[inline]
+    pub fn terrain_share(&mut self, plan: &PlanPath, s_m: f64, contact_length_m: f64) -> TerrainShare {
+        let half = 0.5 * contact_length_m.max(0.0);
+        if (s_m - half).max(0.0) >= self.from_m && s_m + half < self.to_m {
+            return TerrainShare { rear: self.leg, front: self.leg, front_share: 0.0 };
+        }
+        let share = plan.terrain_share(s_m, contact_length_m);
+        // leg_at(x) is the last leg whose start is <= x: leg i from its start up to the next
+        // larger start (the first and last legs open-ended).
+        let n = plan.leg_count();
+        let leg = share.rear;
+        let from_m = if leg == 0 { f64::NEG_INFINITY } else { plan.leg_bounds_m(leg).0 };
+        let to_m = (leg + 1..n).map(|j| plan.leg_bounds_m(j).0).find(|&s| s > from_m).unwrap_or(f64::INFINITY);
+        *self = LegSpan { leg, from_m, to_m };
+        share
+    }
+}
+
 /// The legs under the two ends of the vehicle's contact patch and the share on the front one.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct TerrainShare {
@@ -891,7 +927,8 @@ mod tests {
     #[test]
     fn block_skipping_and_galloping_give_the_answers_of_a_full_scan() {
         // A dense wavy plan (points every 0.1 m) that doubles back on itself, with a repeated
-        // point, queried from stale cursors near and far.
+        // point, queried from stale cursors near and far, from points off the plan, on it and on
+        // its vertices (where segments tie), with one cursor or two for the window's ends.
         let mut pts: Vec<[f64; 2]> = (0..3000).map(|i| [i as f64 * 0.1, (i as f64 * 0.01).sin() * 2.0]).collect();
         pts.extend((0..3000).rev().map(|i| [i as f64 * 0.1, 1.5 + (i as f64 * 0.013).cos()]));
         pts.insert(1234, pts[1234]);
@@ -904,6 +941,17 @@ mod tests {
                 let (from_m, to_m) = (s - w_back, s + w_ahead);
                 let mut c = if k % 5 == 0 { Cursor { segment: (k * 7919) % 6000 } } else { cursor };
                 assert_eq!(plan.nearest_within_at(p, from_m, to_m, &mut c), nearest_by_scan(&plan, p, from_m, to_m));
+                let on_plan = plan.point_at(s + 0.3 * w_ahead);
+                let vertex = plan.points()[plan.segment_at(s) + 1];
+                for q in [p, on_plan, vertex] {
+                    let (mut a, mut b) = (Cursor { segment: (k * 13) % 6000 }, Cursor { segment: k % 7 });
+                    let seed = (k * 101) % 6000;
+                    assert_eq!(
+                        plan.nearest_in_window(q, from_m, to_m, seed, &mut a, &mut b),
+                        nearest_by_scan(&plan, q, from_m, to_m),
+                        "{q:?} in [{from_m}, {to_m}] from {seed}"
+                    );
+                }
             }
             for l in [0.3, 1.5, 4.0] {
                 assert_eq!(plan.pursuit_goal_at(p, s, l, 3.0 * l, cursor), {
