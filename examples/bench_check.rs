@@ -5,11 +5,17 @@
 //! `cargo run --release --example bench_check [SPACING_M] [--write ROUTE.csv]`: the plan's
 //! points are SPACING_M apart (1 m unless given; 0.1 m is a planner-dense path); `--write`
 //! also writes the route as CSV, to time the whole `skidroute check` process on it.
+//!
+//! The yardstick is a bare loop over the same route doing only the irreducible work of a control
+//! step (pursuit goal from a forward-only index, one terrain-model evaluation, one exact SE(2)
+//! step, nothing stored): the rollout's rate is also given as a share of it, which holds across
+//! machines better than the absolute figure.
 
 use std::path::PathBuf;
 use std::time::Instant;
 
 use skidroute::check::{check_route, check_routes, load_routes};
+use skidroute::kinematics::{MotionModel, Pose};
 use skidroute::rollout::{roll_out, RouteDrive};
 use skidroute::route::{Leg, Route, SourcePosition};
 use skidroute::vehicle::Profile;
@@ -51,6 +57,37 @@ fn route_csv(route: &Route) -> String {
     out
 }
 
+/// The bare loop: pure pursuit on a goal found by walking a forward-only point index, the leg's
+/// terrain model, the exact SE(2) step; the planned speed, no ramps, no trace. Returns the steps.
+fn bare_loop(drive: &RouteDrive) -> u64 {
+    let pts = drive.plan.points();
+    let (dt, l) = (drive.limits.dt_s, drive.limits.lookahead_m);
+    let half_b = 0.5 * drive.limits.track_width_m;
+    let dir = [pts[1][0] - pts[0][0], pts[1][1] - pts[0][1]];
+    let mut pose = Pose::new(pts[0][0], pts[0][1], dir[1].atan2(dir[0]));
+    let (mut goal, mut steps) = (0usize, 0u64);
+    let end = pts.len() - 1;
+    while steps < 10_000_000 {
+        let d2 = |i: usize| (pts[i][0] - pose.x_m).powi(2) + (pts[i][1] - pose.y_m).powi(2);
+        while goal < end && d2(goal) < l * l {
+            goal += 1;
+        }
+        if goal == end && d2(end) < 0.25 {
+            break;
+        }
+        let sc = pose.yaw_rad.sin_cos();
+        let (gx, gy) = pose.to_body_with(pts[goal][0], pts[goal][1], sc);
+        let kappa = 2.0 * gy / (gx * gx + gy * gy).max(1e-12);
+        let leg = drive.plan.segment_leg(goal.min(end - 1));
+        let v = drive.legs[leg].speed_mps;
+        let omega = kappa * v;
+        let twist = drive.legs[leg].actual.twist(v - omega * half_b, v + omega * half_b);
+        pose = pose.step_with(twist, dt, sc);
+        steps += 1;
+    }
+    steps
+}
+
 fn main() {
     let args: Vec<String> = std::env::args().skip(1).collect();
     let step_m: f64 = args.first().and_then(|s| s.parse().ok()).unwrap_or(1.0);
@@ -89,6 +126,20 @@ fn main() {
         rate(rolls[6])
     );
     println!("  whole check (rollout + assessment, no margins): best of 5 {:.3} s", best);
+    let mut bare = Vec::new();
+    let mut bare_steps = 0;
+    for _ in 0..7 {
+        let t0 = Instant::now();
+        bare_steps = std::hint::black_box(bare_loop(std::hint::black_box(&drive)));
+        bare.push(t0.elapsed().as_secs_f64());
+    }
+    bare.sort_by(f64::total_cmp);
+    let bare_rate = bare_steps as f64 / bare[3] / 1e6;
+    println!(
+        "  bare loop (pursuit goal, model, SE(2) step; {bare_steps} steps): median {:.2} million steps per second; rollout at {:.0} % of it",
+        bare_rate,
+        100.0 * rate(rolls[3]) / bare_rate
+    );
 
     let files: Vec<PathBuf> = std::fs::read_dir("example-routes")
         .map(|d| {

@@ -123,7 +123,14 @@ impl RouteDrive {
     /// The ground coefficients under a contact patch centred at arc length `s_m` (blended across
     /// a terrain boundary, as the simulation blends them).
     pub fn ground_at(&self, s_m: f64) -> Ground {
-        let under = self.plan.terrain_share(s_m, self.vehicle.contact_length_m);
+        self.ground_in(s_m, &mut LegSpan::default())
+    }
+
+    /// [`RouteDrive::ground_at`] remembering the leg stretch in `span`: O(1) for arc lengths
+    /// that move little between calls. Same values.
+    #[inline]
+    pub fn ground_in(&self, s_m: f64, span: &mut LegSpan) -> Ground {
+        let under = span.terrain_share(&self.plan, s_m, self.vehicle.contact_length_m);
         let (rear, front) = self.terrain_pair(under);
         rear.ground.blend(&front.ground, under.front_share)
     }

@@ -326,6 +326,7 @@ struct LegEffort {
 fn leg_effort(drive: &RouteDrive, steps: &[Step]) -> LegEffort {
     let dt = drive.limits.dt_s;
     let mut e = LegEffort::default();
+    let mut span = crate::route::LegSpan::default();
     for s in steps {
         let f = &s.effort;
         e.energy_j += f.drawn_power_w * dt;
@@ -333,7 +334,7 @@ fn leg_effort(drive: &RouteDrive, steps: &[Step]) -> LegEffort {
         if thrust > e.peak_thrust_n {
             e.peak_thrust_n = thrust;
             e.peak_thrust_at_m = s.progress_m;
-            let ground = drive.ground_at(s.progress_m);
+            let ground = drive.ground_in(s.progress_m, &mut span);
             let (left, right) = side_thrust_limits_n(&drive.vehicle, &ground, Slope::new(f.grade_rad, f.cross_slope));
             e.peak_thrust_limit_n = if f.left_thrust_n.abs() >= f.right_thrust_n.abs() { left } else { right };
         }
@@ -357,7 +358,7 @@ fn leg_effort(drive: &RouteDrive, steps: &[Step]) -> LegEffort {
         // Lateral acceleration as a share of its caution threshold on the ground there.
         let lateral = (s.twist.vx_mps * s.twist.omega_radps).abs();
         if lateral > 0.0 {
-            let share = lateral / lateral_accel_caution_mps2(&drive.ground_at(s.progress_m));
+            let share = lateral / lateral_accel_caution_mps2(&drive.ground_in(s.progress_m, &mut span));
             if share > e.peak_lateral_share {
                 (e.peak_lateral_share, e.peak_lateral_mps2, e.peak_lateral_at_m) = (share, lateral, s.progress_m);
             }

@@ -55,7 +55,7 @@ struct OwnVertices {
 }
 
 /// Segments per block of [`PlanPath`]'s bounding circles.
-const BLOCK_SEGMENTS: usize = 8;
+const BLOCK_SEGMENTS: usize = 4;
 
 /// Slack, metres, by which a bounding circle must clear a query before its block is skipped, far
 /// above the rounding of the per-segment arithmetic, so skipping never changes an answer.
@@ -83,10 +83,11 @@ impl BlockBound {
         BlockBound { centre, radius_m }
     }
 
-    /// Distance from `p` to the centre.
+    /// Squared distance from `p` to the centre (the block tests compare squares: no root).
     #[inline]
-    fn centre_distance_m(&self, p: [f64; 2]) -> f64 {
-        dist(p, self.centre)
+    fn centre_distance2_m2(&self, p: [f64; 2]) -> f64 {
+        let (dx, dy) = (p[0] - self.centre[0], p[1] - self.centre[1]);
+        dx * dx + dy * dy
     }
 }
 
@@ -553,7 +554,7 @@ impl PlanPath {
     /// The search of the window `[from_m, to_m]`, segments `first..=last`, from `hint`.
     #[inline(always)]
     fn nearest_between(&self, p: [f64; 2], from_m: f64, to_m: f64, hint: usize, first: usize, last: usize) -> Nearest {
-        if last >= first + 2 * BLOCK_SEGMENTS {
+        if last >= first + BLOCK_SEGMENTS {
             return self.nearest_in_blocks(p, from_m, to_m, hint, first, last);
         }
         let (mut best_d2, mut best_s, mut best_side) = (f64::INFINITY, from_m, 0.0);
@@ -585,6 +586,7 @@ impl PlanPath {
             if let Some((d2, s, side)) = self.segment_distance(p, seed, from_m, to_m) {
                 (best_d2, best_s, best_side, best_i) = (d2, s, side, seed);
             }
+            let mut best_m = best_d2.sqrt();
             let end_segment = self.points.len().saturating_sub(2);
             for b in first / BLOCK_SEGMENTS..=last / BLOCK_SEGMENTS {
                 let (lo, hi) = (b * BLOCK_SEGMENTS, b * BLOCK_SEGMENTS + BLOCK_SEGMENTS - 1);
@@ -592,8 +594,9 @@ impl PlanPath {
                 // the circle does not bound: their blocks are always searched.
                 if lo > 0 && hi < end_segment {
                     if let Some(block) = self.blocks.get(b) {
-                        let clear_m = block.centre_distance_m(p) - block.radius_m - BLOCK_SLACK_M;
-                        if clear_m > 0.0 && clear_m * clear_m > best_d2 {
+                        // Every point of the block is farther than the best by the slack.
+                        let reach_m = block.radius_m + BLOCK_SLACK_M + best_m;
+                        if block.centre_distance2_m2(p) > reach_m * reach_m {
                             continue;
                         }
                     }
@@ -605,6 +608,7 @@ impl PlanPath {
                     if let Some((d2, s, side)) = self.segment_distance(p, i, from_m, to_m) {
                         if d2 < best_d2 || (d2 == best_d2 && i < best_i) {
                             (best_d2, best_s, best_side, best_i) = (d2, s, side, i);
+                            best_m = d2.sqrt();
                         }
                     }
                 }
@@ -682,9 +686,10 @@ impl PlanPath {
             // A block wholly inside or wholly outside the circle of radius L round `p` has no
             // point at distance L.
             if let Some(block) = self.blocks.get(b) {
-                let c = block.centre_distance_m(p);
-                if c + block.radius_m < lookahead_m - BLOCK_SLACK_M || c - block.radius_m > lookahead_m + BLOCK_SLACK_M
-                {
+                let c2 = block.centre_distance2_m2(p);
+                let (inner_m, outer_m) =
+                    (lookahead_m - BLOCK_SLACK_M - block.radius_m, lookahead_m + BLOCK_SLACK_M + block.radius_m);
+                if (inner_m > 0.0 && c2 < inner_m * inner_m) || c2 > outer_m * outer_m {
                     continue;
                 }
             }
