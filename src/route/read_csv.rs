@@ -10,8 +10,9 @@
 //! Line numbers are right for LF and CRLF files (see `csv_line`).
 
 use std::path::Path;
+use std::rc::Rc;
 
-use csv::{ReaderBuilder, StringRecord, Trim};
+use csv::{ReaderBuilder, StringRecord};
 
 use super::{
     check_route_limits, file_stem_name, find_duplicate_point, group_in_order, too_many_points, too_many_total_points,
@@ -43,7 +44,8 @@ struct Row {
     line: usize,
     point: [f64; 2],
     z_m: Option<f64>,
-    terrain: String,
+    /// Shared with the previous row when the same (rows of one leg allocate nothing for it).
+    terrain: Rc<str>,
     speed_mps: Option<f64>,
     corridor_m: Option<f64>,
     leg: Option<String>,
@@ -70,7 +72,8 @@ pub(super) fn parse(path: &Path, text: &str, limits: &Limits) -> Result<Vec<Rout
     if let Some(line) = unterminated_quote_line(text) {
         return Err(at(path, line, "a quoted field opens here and is never closed (unterminated \")".to_string()));
     }
-    let mut reader = ReaderBuilder::new().trim(Trim::All).from_reader(text.as_bytes());
+    // Cells are trimmed of ASCII blanks as they are read (`cell`), the header's names here.
+    let mut reader = ReaderBuilder::new().from_reader(text.as_bytes());
     let mut lines = LineCounter::new(text);
     let header = reader.headers().map_err(|e| csv_error(path, &e, &mut lines, 1))?.clone();
     let columns = read_header(&header).map_err(|what| at(path, 1, what))?;
@@ -79,11 +82,22 @@ pub(super) fn parse(path: &Path, text: &str, limits: &Limits) -> Result<Vec<Rout
     let mut rows = Vec::with_capacity(line_count.min(limits.max_total_points.saturating_add(1)));
     // The `route` value of every row, only when the file has that column.
     let mut route_names: Vec<Option<String>> = Vec::new();
-    for (k, record) in reader.records().enumerate() {
-        let record = record.map_err(|e| csv_error(path, &e, &mut lines, k + 2))?;
+    // One record read into again and again, and the previous row's terrain shared.
+    let mut record = StringRecord::new();
+    let mut terrain: Rc<str> = Rc::from("");
+    for k in 0.. {
+        match reader.read_record(&mut record) {
+            Ok(true) => {}
+            Ok(false) => break,
+            Err(e) => return Err(csv_error(path, &e, &mut lines, k + 2)),
+        }
         let line = lines.line_of(record.position(), k + 2);
         let route = cell(&record, columns.route).filter(|r| !r.is_empty()).map(|r| printable(r).into_owned());
-        let row = read_row(&columns, &record, line).map_err(|what| at(path, line, what))?;
+        let cell_terrain = cell(&record, columns.terrain).unwrap_or("");
+        if *terrain != *cell_terrain {
+            terrain = Rc::from(cell_terrain);
+        }
+        let row = read_row(&columns, &record, Rc::clone(&terrain), line).map_err(|what| at(path, line, what))?;
         if rows.len() >= limits.max_total_points {
             return Err(at(path, line, too_many_total_points(rows.len() + 1, limits)));
         }
@@ -164,7 +178,7 @@ fn csv_error(path: &Path, error: &csv::Error, lines: &mut LineCounter, fallback_
 
 fn read_header(header: &StringRecord) -> Result<Columns, String> {
     let mut columns = Columns::default();
-    for (index, name) in header.iter().enumerate() {
+    for (index, name) in header.iter().map(str::trim_ascii).enumerate() {
         let slot = match name {
             "x_m" => &mut columns.x_m,
             "y_m" => &mut columns.y_m,
@@ -188,13 +202,14 @@ fn read_header(header: &StringRecord) -> Result<Columns, String> {
     Ok(columns)
 }
 
+/// The cell `index` of `record`, without leading and trailing ASCII blanks.
 fn cell(record: &StringRecord, index: Option<usize>) -> Option<&str> {
-    index.and_then(|i| record.get(i))
+    index.and_then(|i| record.get(i)).map(str::trim_ascii)
 }
 
-fn read_row(columns: &Columns, record: &StringRecord, line: usize) -> Result<Row, String> {
-    // An empty terrain waits for a terrain map (`route::check_terrains` refuses it otherwise).
-    let terrain = cell(record, columns.terrain).unwrap_or("").to_string();
+/// The row of `record`, whose terrain cell is `terrain` (an empty terrain waits for a terrain map:
+/// `route::check_terrains` refuses it otherwise).
+fn read_row(columns: &Columns, record: &StringRecord, terrain: Rc<str>, line: usize) -> Result<Row, String> {
     let z_m = match columns.z_m {
         Some(_) => Some(bounded(required_cell(record, columns.z_m, "z_m")?, "z_m", MAX_ABS_ALTITUDE_M)?),
         None => None,
@@ -278,12 +293,12 @@ fn split_legs(path: &Path, rows: &[Row], has_leg_column: bool, limits: &Limits) 
 /// A terrain change inside one named leg is an error (which terrain would apply is ambiguous).
 fn starts_new_leg(leg: &Leg, row: &Row, has_leg_column: bool) -> Result<bool, String> {
     if !has_leg_column {
-        return Ok(leg.terrain != row.terrain);
+        return Ok(*leg.terrain != *row.terrain);
     }
     if leg.name != row.leg {
         return Ok(true);
     }
-    if leg.terrain == row.terrain {
+    if *leg.terrain == *row.terrain {
         return Ok(false);
     }
     let name = leg.name.as_deref().unwrap_or("");
@@ -296,7 +311,7 @@ impl LegBuilder {
         let leg = Leg {
             name: row.leg.clone(),
             altitude_m: row.z_m.map(|z_m| vec![z_m]),
-            ..Leg::new(row.terrain.clone(), vec![row.point], SourcePosition::Line(row.line))
+            ..Leg::new(row.terrain.to_string(), vec![row.point], SourcePosition::Line(row.line))
         };
         LegBuilder { leg, lines: vec![row.line], speeds_mps: vec![row.speed_mps], corridors_m: vec![row.corridor_m] }
     }
