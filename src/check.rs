@@ -6,12 +6,12 @@ use std::sync::Arc;
 
 use rayon::prelude::*;
 
-use crate::assess::{assess_route_with, leg_plans, DriftNote, RouteReport, Verdict};
+use crate::assess::{assess_summary, leg_plans, DriftNote, RouteReport, TraceSummary, Verdict};
 use crate::drift::{run_drift, DriftSettings};
 use crate::limits::Limits;
 use crate::margin::max_passing_speeds;
 use crate::progress::Progress;
-use crate::rollout::{roll_out_with_resumes, step_bound, RouteDrive, Trace};
+use crate::rollout::{roll_out_observing, roll_out_with_resumes, step_bound, Resume, RouteDrive, Trace};
 use crate::route::{Route, RouteError};
 use crate::site::{Site, TerrainMap};
 use crate::vehicle::Profile;
@@ -191,20 +191,34 @@ pub fn check_route_with(route: Route, profile: &Profile, limits: &Limits) -> Che
 
 /// [`check_route_with`], with the margin search only when `search_margins` (else each leg's
 /// `max_passing_speed_searched` is false and the route carries [`MARGINS_NOT_SEARCHED`]).
-pub fn check_route_searching(
+pub fn check_route_searching(route: Route, profile: &Profile, limits: &Limits, search_margins: bool) -> CheckedRoute {
+    check_route_keeping(route, profile, limits, search_margins, true)
+}
+
+/// [`check_route_searching`], keeping the trace only when `keep_trace` (without it the rollout
+/// is assessed as it runs and [`CheckedRoute::trace`] has no steps, only the outcome).
+pub fn check_route_keeping(
     mut route: Route,
     profile: &Profile,
     limits: &Limits,
     search_margins: bool,
+    keep_trace: bool,
 ) -> CheckedRoute {
     let drive = RouteDrive::new(&route, profile);
     if drive.plan.has_cross_slope() && profile.vehicle.cog_height_m.is_none() {
         route.warnings.push(NO_COG_HEIGHT.to_string());
     }
-    let (trace, resumes) = roll_out_with_resumes(&drive, limits.max_rollout_steps);
     let plans = leg_plans(&drive);
-    let mut report = assess_route_with(&route, &drive, &trace, profile.vehicle.battery_wh, &plans);
-    let mut steps_simulated = trace.steps.len() as u64;
+    let (trace, summary, resumes) = if keep_trace {
+        let (trace, resumes) = roll_out_with_resumes(&drive, limits.max_rollout_steps);
+        let summary = TraceSummary::of_trace(&drive, &trace);
+        (trace, summary, resumes)
+    } else {
+        let (summary, resumes) = summarize_rollout(&drive, limits.max_rollout_steps);
+        (Trace { steps: Vec::new(), outcome: summary.outcome() }, summary, resumes)
+    };
+    let mut report = assess_summary(&route, &drive, &summary, profile.vehicle.battery_wh, &plans);
+    let mut steps_simulated = summary.steps();
     if search_margins {
         let margins = max_passing_speeds(&drive, &plans, &resumes, &report, limits.max_rollout_steps);
         for (leg, m) in report.legs.iter_mut().zip(&margins) {
@@ -257,9 +271,17 @@ pub fn screen_route(route: &Route, profile: &Profile) -> Result<RouteReport, Err
     crate::route::check_terrains(route, &profile.terrain_names())?;
     check_step_bound(route, profile, &limits)?;
     let drive = RouteDrive::new(route, profile);
-    let (trace, _) = roll_out_with_resumes(&drive, limits.max_rollout_steps);
+    let (summary, _) = summarize_rollout(&drive, limits.max_rollout_steps);
     let plans = leg_plans(&drive);
-    Ok(assess_route_with(route, &drive, &trace, profile.vehicle.battery_wh, &plans))
+    Ok(assess_summary(route, &drive, &summary, profile.vehicle.battery_wh, &plans))
+}
+
+/// Simulates `drive` and gathers what the assessment needs as the steps come, keeping no trace.
+fn summarize_rollout(drive: &RouteDrive, max_steps: u64) -> (TraceSummary, Vec<Option<Resume>>) {
+    let mut summary = TraceSummary::new(drive);
+    let (outcome, resumes) = roll_out_observing(drive, max_steps, |s| summary.add(drive, s));
+    summary.end(outcome);
+    (summary, resumes)
 }
 
 /// The checks a route read from a file has passed, for one built in memory: legs of at least two
@@ -334,11 +356,7 @@ pub fn check_routes_searching(
         .enumerate()
         .map(|(i, r)| {
             let search = search_margins.get(i).copied().unwrap_or(true);
-            let mut checked = check_route_searching(r, profile, limits, search);
-            if !keep_traces {
-                checked.trace.steps = Vec::new();
-            }
-            checked
+            check_route_keeping(r, profile, limits, search, keep_traces)
         })
         .collect();
     CheckRun { vehicle_name: profile.vehicle.name.clone(), demo_profile, routes, terrain_map: None }
@@ -396,6 +414,33 @@ mod tests {
             leg.max_passing_speed_searched = false;
         }
         assert_eq!(format!("{screened:?}"), format!("{checked:?}"));
+    }
+
+    #[test]
+    fn a_rollout_assessed_as_it_runs_reports_what_its_kept_trace_does() {
+        // A gravel straight into a right-angle deep-snow corner the tracks cannot turn (traction
+        // widens it, the corridor is left) and out onto asphalt: every per-leg figure, the
+        // margins and the step count must not depend on whether the trace was kept.
+        let corner: Vec<[f64; 2]> = (0..=20).map(|i| [30.0 + i as f64, 0.0]).collect::<Vec<_>>();
+        let mut snow = corner;
+        snow.extend((1..=20).map(|i| [50.0, i as f64]));
+        let legs = vec![
+            straight("gravel", 0.0, 31),
+            Leg { speed_mps: Some(1.0), ..Leg::new("deep-snow", snow, SourcePosition::Feature(1)) },
+            Leg {
+                speed_mps: Some(1.0),
+                ..Leg::new("asphalt", (0..=15).map(|i| [50.0, 20.0 + i as f64]).collect(), SourcePosition::Feature(2))
+            },
+        ];
+        let p = Profile::demo();
+        let kept = check_route_keeping(route(legs.clone()), &p, &Limits::default(), true, true);
+        let streamed = check_route_keeping(route(legs), &p, &Limits::default(), true, false);
+        assert!(kept.trace.steps.iter().any(|s| s.traction_limited()), "the corner must bind traction");
+        assert!(streamed.trace.steps.is_empty());
+        assert_eq!(streamed.trace.outcome, kept.trace.outcome);
+        assert_eq!(streamed.steps_simulated, kept.steps_simulated);
+        assert_eq!(format!("{:?}", streamed.report), format!("{:?}", kept.report));
+        assert_eq!(kept.report.legs[1].verdict, Verdict::Fail, "{:?}", kept.report.legs[1].reasons);
     }
 
     #[test]

@@ -438,10 +438,23 @@ pub fn roll_out_with_resumes(drive: &RouteDrive, max_steps: u64) -> (Trace, Vec<
     // so a normal rollout never reallocates its trace; `as` saturates a huge or NaN estimate.
     let expected_steps = (1.1 * (limit_s / 3.0) / drive.limits.dt_s) as usize;
     let mut steps = Vec::with_capacity(expected_steps.min(MAX_RESERVED_STEPS) + 64);
+    let (outcome, resumes) = roll_out_observing(drive, max_steps, |s| steps.push(*s));
+    (Trace { steps, outcome }, resumes)
+}
+
+/// [`roll_out_with_resumes`] handing every step to `on_step` as it is simulated instead of
+/// keeping the trace (the check assesses a rollout this way when no output draws on its trace;
+/// `crate::assess::TraceSummary`). Returns how it ended and the states to resume each leg from.
+pub fn roll_out_observing(
+    drive: &RouteDrive,
+    max_steps: u64,
+    mut on_step: impl FnMut(&Step),
+) -> (Outcome, Vec<Option<Resume>>) {
     let n_legs = drive.legs.len();
     let mut resumes: Vec<Option<Resume>> = vec![None; n_legs];
     let influence_m = leg_influence_m(drive);
     let mut next_leg = 0;
+    let mut progress_m = 0.0;
     let outcome = simulate(
         drive,
         drive.speeds.view(),
@@ -455,13 +468,13 @@ pub fn roll_out_with_resumes(drive: &RouteDrive, max_steps: u64) -> (Trace, Vec<
             }
         },
         |s| {
-            steps.push(*s);
+            progress_m = s.progress_m;
+            on_step(s);
             Flow::Continue
         },
     );
-    let progress_m = steps.last().map_or(0.0, |s: &Step| s.progress_m);
-    let outcome = outcome.unwrap_or(Outcome::StepBudget { max_steps, progress_m });
-    (Trace { steps, outcome }, resumes)
+    // The observer never stops the simulation, so it always has an outcome.
+    (outcome.unwrap_or(Outcome::StepBudget { max_steps, progress_m }), resumes)
 }
 
 /// Whether leg `leg` passes the simulation rules of the verdict when driven with the speed plan

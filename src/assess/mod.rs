@@ -221,27 +221,152 @@ struct Deviation {
     worst_at_m: f64,
 }
 
-/// Deviation statistics of the steps on leg `leg`, each deviation against the corridor at its
-/// progress point (the corridor profile, linear between the plan's points).
-fn deviation_stats(drive: &RouteDrive, trace: &Trace, leg: usize) -> Deviation {
-    let (mut d, mut sum_sq, mut n) = (Deviation::default(), 0.0, 0usize);
-    let speeds = drive.speeds.view();
-    let mut cursor = crate::route::Cursor::default();
-    for s in leg_steps(trace, leg) {
-        d.max_m = d.max_m.max(s.deviation_m);
-        sum_sq += s.deviation_m * s.deviation_m;
-        n += 1;
-        d.end_m = s.deviation_m;
-        let corridor_m = speeds.corridor_at(&drive.plan, s.progress_m, &mut cursor);
+/// What the assessment reads from the steps driven on one leg, gathered one step at a time in
+/// the order driven, so a rollout can be assessed as it runs without keeping its trace (the
+/// same figures, to the bit, as from the kept trace).
+#[derive(Debug, Clone, Default)]
+pub struct LegTally {
+    effort: LegEffort,
+    max_m: f64,
+    sum_sq_m2: f64,
+    n: usize,
+    end_m: f64,
+    worst_share: f64,
+    worst_m: f64,
+    worst_corridor_m: f64,
+    worst_at_m: f64,
+    /// Walk with the steps: the corridor and ground lookups are O(1) a step.
+    corridor_cursor: crate::route::Cursor,
+    span: crate::route::LegSpan,
+}
+
+impl LegTally {
+    /// Adds step `s` (on this leg, after the steps added before it).
+    #[inline]
+    pub fn add(&mut self, drive: &RouteDrive, s: &Step) {
+        // Deviation against the corridor at the progress point (the corridor profile, linear
+        // between the plan's points).
+        self.max_m = self.max_m.max(s.deviation_m);
+        self.sum_sq_m2 += s.deviation_m * s.deviation_m;
+        self.n += 1;
+        self.end_m = s.deviation_m;
+        let corridor_m = drive.speeds.view().corridor_at(&drive.plan, s.progress_m, &mut self.corridor_cursor);
         let share = s.deviation_m / corridor_m;
-        if share > d.worst_share {
-            (d.worst_share, d.worst_m, d.worst_corridor_m, d.worst_at_m) =
+        if share > self.worst_share {
+            (self.worst_share, self.worst_m, self.worst_corridor_m, self.worst_at_m) =
                 (share, s.deviation_m, corridor_m, s.progress_m);
         }
+        // Effort and traction.
+        let dt = drive.limits.dt_s;
+        let (e, span) = (&mut self.effort, &mut self.span);
+        let f = &s.effort;
+        e.energy_j += f.drawn_power_w * dt;
+        let thrust = f.left_thrust_n.abs().max(f.right_thrust_n.abs());
+        if thrust > e.peak_thrust_n {
+            e.peak_thrust_n = thrust;
+            e.peak_thrust_at_m = s.progress_m;
+            let ground = drive.ground_in(s.progress_m, span);
+            let (left, right) = side_thrust_limits_n(&drive.vehicle, &ground, Slope::new(f.grade_rad, f.cross_slope));
+            e.peak_thrust_limit_n = if f.left_thrust_n.abs() >= f.right_thrust_n.abs() { left } else { right };
+        }
+        if f.drawn_power_w > e.peak_power_w {
+            (e.peak_power_w, e.peak_power_at_m) = (f.drawn_power_w, s.progress_m);
+        }
+        if s.traction_limited() {
+            e.limited_s += dt;
+        }
+        match s.limit {
+            StepLimit::Turn => {
+                e.turn_limited_s += dt;
+                e.turn_limited_from_m.get_or_insert(s.progress_m);
+            }
+            StepLimit::Power => {
+                e.power_limited_s += dt;
+                e.power_limited_from_m.get_or_insert(s.progress_m);
+            }
+            _ => {}
+        }
+        // Lateral acceleration as a share of its caution threshold on the ground there.
+        let lateral = (s.twist.vx_mps * s.twist.omega_radps).abs();
+        if lateral > 0.0 {
+            let share = lateral / lateral_accel_caution_mps2(&drive.ground_in(s.progress_m, span));
+            if share > e.peak_lateral_share {
+                (e.peak_lateral_share, e.peak_lateral_mps2, e.peak_lateral_at_m) = (share, lateral, s.progress_m);
+            }
+        }
     }
-    d.rms_m = if n > 0 { (sum_sq / n as f64).sqrt() } else { 0.0 };
-    d.time_s = n as f64 * drive.limits.dt_s;
-    d
+
+    /// The deviation statistics of the steps added.
+    fn deviation(&self, dt_s: f64) -> Deviation {
+        Deviation {
+            max_m: self.max_m,
+            rms_m: if self.n > 0 { (self.sum_sq_m2 / self.n as f64).sqrt() } else { 0.0 },
+            end_m: self.end_m,
+            time_s: self.n as f64 * dt_s,
+            worst_share: self.worst_share,
+            worst_m: self.worst_m,
+            worst_corridor_m: self.worst_corridor_m,
+            worst_at_m: self.worst_at_m,
+        }
+    }
+}
+
+/// What the assessment reads from a rollout: the tally of every leg, how it ended, the time of
+/// its last step and the number of steps. Built from a kept trace ([`TraceSummary::of_trace`])
+/// or step by step as the simulation runs ([`TraceSummary::add`], then [`TraceSummary::end`]).
+#[derive(Debug, Clone)]
+pub struct TraceSummary {
+    legs: Vec<LegTally>,
+    outcome: Outcome,
+    end_t_s: f64,
+    steps: u64,
+}
+
+impl TraceSummary {
+    /// An empty summary for the legs of `drive`.
+    pub fn new(drive: &RouteDrive) -> TraceSummary {
+        TraceSummary {
+            legs: vec![LegTally::default(); drive.legs.len()],
+            outcome: Outcome::Reached,
+            end_t_s: 0.0,
+            steps: 0,
+        }
+    }
+
+    /// Adds the next step of the rollout.
+    #[inline]
+    pub fn add(&mut self, drive: &RouteDrive, s: &Step) {
+        if let Some(t) = self.legs.get_mut(s.leg) {
+            t.add(drive, s);
+        }
+        self.end_t_s = s.t_s;
+        self.steps += 1;
+    }
+
+    /// Records how the rollout ended.
+    pub fn end(&mut self, outcome: Outcome) {
+        self.outcome = outcome;
+    }
+
+    /// The summary of a kept trace.
+    pub fn of_trace(drive: &RouteDrive, trace: &Trace) -> TraceSummary {
+        let mut sum = TraceSummary::new(drive);
+        for s in &trace.steps {
+            sum.add(drive, s);
+        }
+        sum.end(trace.outcome);
+        sum
+    }
+
+    /// Control steps in the rollout.
+    pub fn steps(&self) -> u64 {
+        self.steps
+    }
+
+    /// How the rollout ended.
+    pub fn outcome(&self) -> Outcome {
+        self.outcome
+    }
 }
 
 /// The speed-independent plan facts of every leg of a drive.
@@ -260,6 +385,17 @@ pub fn assess_route_with(
     route: &Route,
     drive: &RouteDrive,
     trace: &Trace,
+    battery_wh: Option<f64>,
+    plans: &[LegPlan],
+) -> RouteReport {
+    assess_summary(route, drive, &TraceSummary::of_trace(drive, trace), battery_wh, plans)
+}
+
+/// [`assess_route_with`] from the summary of the rollout (the trace need not be kept).
+pub fn assess_summary(
+    route: &Route,
+    drive: &RouteDrive,
+    trace: &TraceSummary,
     battery_wh: Option<f64>,
     plans: &[LegPlan],
 ) -> RouteReport {
@@ -285,7 +421,7 @@ pub fn assess_route_with(
         source: route.source.display().to_string(),
         verdict,
         length_m: drive.plan.length_m(),
-        time_s: trace.steps.last().map_or(0.0, |s| s.t_s),
+        time_s: trace.end_t_s,
         max_deviation_m: legs.iter().map(|l| l.max_deviation_m).fold(0.0, f64::max),
         completed: matches!(trace.outcome, Outcome::Reached),
         energy_wh,
@@ -323,67 +459,23 @@ struct LegEffort {
     peak_lateral_at_m: f64,
 }
 
-fn leg_effort(drive: &RouteDrive, steps: &[Step]) -> LegEffort {
-    let dt = drive.limits.dt_s;
-    let mut e = LegEffort::default();
-    let mut span = crate::route::LegSpan::default();
-    for s in steps {
-        let f = &s.effort;
-        e.energy_j += f.drawn_power_w * dt;
-        let thrust = f.left_thrust_n.abs().max(f.right_thrust_n.abs());
-        if thrust > e.peak_thrust_n {
-            e.peak_thrust_n = thrust;
-            e.peak_thrust_at_m = s.progress_m;
-            let ground = drive.ground_in(s.progress_m, &mut span);
-            let (left, right) = side_thrust_limits_n(&drive.vehicle, &ground, Slope::new(f.grade_rad, f.cross_slope));
-            e.peak_thrust_limit_n = if f.left_thrust_n.abs() >= f.right_thrust_n.abs() { left } else { right };
-        }
-        if f.drawn_power_w > e.peak_power_w {
-            (e.peak_power_w, e.peak_power_at_m) = (f.drawn_power_w, s.progress_m);
-        }
-        if s.traction_limited() {
-            e.limited_s += dt;
-        }
-        match s.limit {
-            StepLimit::Turn => {
-                e.turn_limited_s += dt;
-                e.turn_limited_from_m.get_or_insert(s.progress_m);
-            }
-            StepLimit::Power => {
-                e.power_limited_s += dt;
-                e.power_limited_from_m.get_or_insert(s.progress_m);
-            }
-            _ => {}
-        }
-        // Lateral acceleration as a share of its caution threshold on the ground there.
-        let lateral = (s.twist.vx_mps * s.twist.omega_radps).abs();
-        if lateral > 0.0 {
-            let share = lateral / lateral_accel_caution_mps2(&drive.ground_in(s.progress_m, &mut span));
-            if share > e.peak_lateral_share {
-                (e.peak_lateral_share, e.peak_lateral_mps2, e.peak_lateral_at_m) = (share, lateral, s.progress_m);
-            }
-        }
-    }
-    e
-}
-
 /// Assesses leg `i` as if planned at `speed_mps` (the drive's own speed for the report; other
 /// speeds for the margins, whose simulation `trace` was driven at that speed).
 pub(crate) fn assess_leg(
     route: &Route,
     drive: &RouteDrive,
-    trace: &Trace,
+    trace: &TraceSummary,
     i: usize,
     plan: &LegPlan,
     speed_mps: f64,
 ) -> LegReport {
     let ld = &drive.legs[i];
-    let steps = leg_steps(trace, i);
-    let effort = leg_effort(drive, steps);
+    let tally = trace.legs.get(i).cloned().unwrap_or_default();
+    let effort = tally.effort;
     let (start_m, end_m) = drive.plan.leg_bounds_m(i);
     let turns = check_turns(drive, i, plan, speed_mps);
     let achievable = turns.achievable;
-    let dev = deviation_stats(drive, trace, i);
+    let dev = tally.deviation(drive.limits.dt_s);
     let (max_dev, rms_dev, end_dev, time_s) = (dev.max_m, dev.rms_m, dev.end_m, dev.time_s);
     let mut failing_turns = turns.failing.clone();
     if let Some(origin) = &route.origin {
@@ -492,7 +584,7 @@ fn judge_turns(leg: &mut LegReport, turns: &TurnCheck, drive: &RouteDrive) {
 /// The motion rules (docs/method.md, Verdicts): deviation against the corridor where it happens,
 /// planned speed above the top side speed, and a simulation that stalled, timed out or ran out of
 /// budget.
-fn judge_motion(leg: &mut LegReport, drive: &RouteDrive, trace: &Trace, i: usize, dev: &Deviation, varies: bool) {
+fn judge_motion(leg: &mut LegReport, drive: &RouteDrive, trace: &TraceSummary, i: usize, dev: &Deviation, varies: bool) {
     // With a corridor profile the place and the corridor there are named.
     let (at, there) =
         if varies { (format!(" ({:.0} m along the route)", dev.worst_at_m), " there") } else { (String::new(), "") };
