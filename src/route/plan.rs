@@ -647,25 +647,13 @@ impl PlanPath {
     /// the point `lookahead_m` ahead of the progress point; past the end it is the end point.
     #[inline]
     pub fn pursuit_goal(&self, p: [f64; 2], from_m: f64, lookahead_m: f64, search_m: f64) -> [f64; 2] {
-        self.pursuit_goal_at(p, from_m, lookahead_m, search_m, Cursor { segment: self.segment_at(from_m) })
-    }
-
-    /// [`PlanPath::pursuit_goal`] starting its search from a cursor near `from_m`.
-    #[inline]
-    pub fn pursuit_goal_at(
-        &self,
-        p: [f64; 2],
-        from_m: f64,
-        lookahead_m: f64,
-        search_m: f64,
-        cursor: Cursor,
-    ) -> [f64; 2] {
+        let cursor = Cursor { segment: self.segment_at(from_m) };
         let mut reach = cursor;
         self.pursuit_goal_within(p, from_m, lookahead_m, search_m, cursor, &mut reach)
     }
 
-    /// [`PlanPath::pursuit_goal_at`] with a second cursor for the end of the search, moved to
-    /// its segment (the follower walks it along). Same answer.
+    /// [`PlanPath::pursuit_goal`] searching from a cursor near `from_m` and a second cursor for
+    /// the end of the search, moved to its segment (the follower walks it along). Same answer.
     #[inline]
     pub fn pursuit_goal_within(
         &self,
@@ -903,7 +891,7 @@ mod tests {
             let p = [s * 0.9, 1.0];
             let plain = plan.nearest_within(p, s - 1.5, s + 1.5);
             assert_eq!(plan.nearest_within_at(p, s - 1.5, s + 1.5, &mut cursor), plain);
-            assert_eq!(plan.pursuit_goal_at(p, s, 1.5, 4.5, cursor), plan.pursuit_goal(p, s, 1.5, 4.5));
+            assert_eq!(plan.pursuit_goal_within(p, s, 1.5, 4.5, cursor, &mut Cursor::default()), plan.pursuit_goal(p, s, 1.5, 4.5));
         }
         for k in 0..400 {
             let s = k as f64 * 0.37;
@@ -959,11 +947,11 @@ mod tests {
                 }
             }
             for l in [0.3, 1.5, 4.0] {
-                assert_eq!(plan.pursuit_goal_at(p, s, l, 3.0 * l, cursor), {
+                assert_eq!(plan.pursuit_goal_within(p, s, l, 3.0 * l, cursor, &mut Cursor { segment: 5999 }), {
                     // The same goal from a search over every segment: blocks never skipped.
                     let (first, last) = (plan.segment_at(s), plan.segment_at((s + 3.0 * l).min(plan.length_m())));
                     plan.goal_on_segments(p, first, last, s, (s + 3.0 * l).min(plan.length_m()), l * l)
-                        .unwrap_or_else(|| plan.pursuit_goal_at(p, s, l, 3.0 * l, cursor))
+                        .unwrap_or_else(|| plan.pursuit_goal_within(p, s, l, 3.0 * l, cursor, &mut Cursor { segment: 5999 }))
                 });
             }
             for hint in [0, k, 5999, (k * 31) % 6000] {
