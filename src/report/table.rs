@@ -102,7 +102,7 @@ fn leg_columns(shown: Optional, color: bool) -> Vec<Column<'static, LegReport>> 
     }
     cols.extend([
         Column::new("traction\nneeds/has", 82, traction_cell),
-        Column::new("passes up\nto m/s", 85, |l: &LegReport| {
+        Column::new(PASSING_HEADER, 85, |l: &LegReport| {
             opt_num(l.max_passing_speed_mps, 2, if l.max_passing_speed_searched { "none" } else { "not searched" })
         }),
     ]);
@@ -122,6 +122,9 @@ fn route_table(r: &RouteReport, opts: &TableOptions) -> Fitted {
     })
 }
 
+/// Header of the table's column of the margins' highest passing speed.
+const PASSING_HEADER: &str = "passes up\nto m/s";
+
 fn duration(t_s: f64) -> String {
     let total = t_s.round() as u64;
     if total >= 60 {
@@ -139,10 +142,14 @@ pub fn check_table(run: &CheckRun, opts: &TableOptions) -> String {
     if opts.strict {
         let _ = writeln!(out, "--strict: a CAUTION counts as a failure (exit code 1)");
     }
+    // The note on "passes up to" only where a table shows that column with a value in it.
+    let mut passing_shown = false;
     for cr in &run.routes {
         let r = &cr.report;
         let _ = writeln!(out, "\nroute '{}' from {}", r.route, crate::limits::printable(&r.source));
         let fitted = route_table(r, opts);
+        passing_shown |= r.legs.iter().any(|l| l.max_passing_speed_mps.is_some())
+            && !fitted.hidden.contains(&PASSING_HEADER);
         let _ = writeln!(out, "{}", fitted.table);
         if !fitted.hidden.is_empty() {
             let _ = writeln!(out, "  (left out to fit the terminal: {}; --wide shows all)", fitted.hidden_list());
@@ -188,7 +195,7 @@ pub fn check_table(run: &CheckRun, opts: &TableOptions) -> String {
             let _ = writeln!(out, "  (a failure under --strict)");
         }
     }
-    if run.routes.iter().flat_map(|cr| &cr.report.legs).any(|l| l.max_passing_speed_mps.is_some()) {
+    if passing_shown {
         let _ = writeln!(
             out,
             "\n\"passes up to\": the highest leg speed at which the leg does not fail, searched up to the vehicle's \
@@ -197,4 +204,27 @@ pub fn check_table(run: &CheckRun, opts: &TableOptions) -> String {
     }
     let _ = writeln!(out, "\ncaution: {CAUTION}");
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::route::{Leg, Route, SourcePosition};
+    use crate::vehicle::Profile;
+
+    #[test]
+    fn the_passing_speed_note_comes_only_with_its_column() {
+        let points = (0..=30).map(|i| [i as f64, 0.0]).collect();
+        let leg = Leg { speed_mps: Some(1.0), ..Leg::new("gravel", points, SourcePosition::Feature(0)) };
+        let route = Route { name: "r".into(), source: "r.csv".into(), origin: None, legs: vec![leg], warnings: vec![] };
+        let run = crate::check::check_routes(vec![route], &Profile::demo(), true);
+        assert!(run.routes[0].report.legs[0].max_passing_speed_mps.is_some());
+        let note = "\"passes up to\":";
+        let wide = check_table(&run, &TableOptions { max_width: None, ..TableOptions::default() });
+        assert!(wide.contains(note), "{wide}");
+        // A terminal too narrow for the column leaves it out, and the note with it.
+        let narrow = check_table(&run, &TableOptions { max_width: Some(40), ..TableOptions::default() });
+        assert!(narrow.contains("left out to fit the terminal: ") && narrow.contains("passes up to m/s"), "{narrow}");
+        assert!(!narrow.contains(note), "{narrow}");
+    }
 }
