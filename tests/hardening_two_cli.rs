@@ -284,6 +284,27 @@ fn work_beyond_the_run_budget_is_refused_up_front_for_every_simulating_command()
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
 }
 
+/// `relax` charges the check of the relaxed routes before it writes them: with a budget that
+/// holds the first rollout (3201 steps for the 40 m straight, derived in the test below) but not
+/// the second, it exits 2 and leaves no relaxed file behind.
+#[test]
+fn relax_is_refused_before_it_writes_anything() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let route = straight_csv(dir.path(), "r.csv", 5, 10.0);
+    let out = dir.path().join("relaxed.csv");
+    let rollout = ((3.0 * 40.0 / 1.2 + 60.0) * 20.0_f64).ceil() + 1.0;
+    let budget = (rollout + 1.0).to_string();
+    let o = run(bin().args(["relax", "--max-work-steps", &budget]).arg(&route).arg("--out").arg(&out));
+    let e = one_error_line(&o);
+    assert!(e.contains("--max-work-steps or SKIDROUTE_MAX_WORK_STEPS"), "{e}");
+    assert!(!out.exists(), "the relaxed file was written before the refusal");
+    // With room for both checks it runs and writes.
+    let o =
+        run(bin().args(["relax", "--max-work-steps", &(2.0 * rollout).to_string()]).arg(&route).arg("--out").arg(&out));
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    assert!(out.exists());
+}
+
 /// The margin search (each leg's highest passing speed) is charged up front with the check: the
 /// 40 m straight on the demo profile (cruise 1.2 m/s, top side speed 2 m/s, 20 Hz) has a rollout
 /// bound of (3 x 40 / 1.2 + 60) s x 20 Hz + 1 = 3201 steps, and each simulation of the search

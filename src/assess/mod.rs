@@ -584,7 +584,14 @@ fn judge_turns(leg: &mut LegReport, turns: &TurnCheck, drive: &RouteDrive) {
 /// The motion rules (docs/method.md, Verdicts): deviation against the corridor where it happens,
 /// planned speed above the top side speed, and a simulation that stalled, timed out or ran out of
 /// budget.
-fn judge_motion(leg: &mut LegReport, drive: &RouteDrive, trace: &TraceSummary, i: usize, dev: &Deviation, varies: bool) {
+fn judge_motion(
+    leg: &mut LegReport,
+    drive: &RouteDrive,
+    trace: &TraceSummary,
+    i: usize,
+    dev: &Deviation,
+    varies: bool,
+) {
     // With a corridor profile the place and the corridor there are named.
     let (at, there) =
         if varies { (format!(" ({:.0} m along the route)", dev.worst_at_m), " there") } else { (String::new(), "") };

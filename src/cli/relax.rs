@@ -140,8 +140,9 @@ pub fn run_relax(a: RelaxArgs) -> Result<ExitCode> {
         _ => report::relaxed::relaxed_csv(&text, &as_read, &to_write),
     }
     .map_err(|what| report::ReportError::Output { file: a.route.clone(), what })?;
-    report::write_atomic(&a.out, written.as_bytes())?;
+    // Charged before anything is written: a refusal leaves no relaxed file behind.
     let search_after = skidroute::check::charge_check(&budget, &new_routes, &profile, &limits, "checking the relaxed")?;
+    report::write_atomic(&a.out, written.as_bytes())?;
     let before =
         skidroute::check::check_routes_searching(routes.clone(), &profile, demo, &limits, true, &search_before);
     let mut after = skidroute::check::check_routes_searching(new_routes, &profile, demo, &limits, true, &search_after);

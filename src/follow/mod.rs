@@ -270,8 +270,9 @@ impl<'a> Follower<'a> {
         self.state.speed_mps += (target - self.state.speed_mps).clamp(-dv, dv);
         let omega = (kappa * self.state.speed_mps).clamp(-lim.max_yaw_rate_radps, lim.max_yaw_rate_radps);
         let half = 0.5 * omega * lim.track_width_m;
-        let (l, r) =
-            controller.inverse(self.state.speed_mps, omega).unwrap_or((self.state.speed_mps - half, self.state.speed_mps + half));
+        let (l, r) = controller
+            .inverse(self.state.speed_mps, omega)
+            .unwrap_or((self.state.speed_mps - half, self.state.speed_mps + half));
         let (l, r) = saturate_sides(l, r, lim.max_side_speed_mps);
         self.state.left_mps += (l - self.state.left_mps).clamp(-dv, dv);
         self.state.right_mps += (r - self.state.right_mps).clamp(-dv, dv);
@@ -295,7 +296,8 @@ impl<'a> Follower<'a> {
         let dir = self.plan.direction_at(total);
         let (ex, ey) = (pose.x_m - end[0], pose.y_m - end[1]);
         let passed = ex * dir[0] + ey * dir[1] >= 0.0;
-        let stopped_near = self.state.left_mps.abs().max(self.state.right_mps.abs()) < 1e-3 && (ex * ex + ey * ey).sqrt() < 0.2;
+        let stopped_near =
+            self.state.left_mps.abs().max(self.state.right_mps.abs()) < 1e-3 && (ex * ex + ey * ey).sqrt() < 0.2;
         passed || stopped_near
     }
 }

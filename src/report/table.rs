@@ -148,8 +148,8 @@ pub fn check_table(run: &CheckRun, opts: &TableOptions) -> String {
         let r = &cr.report;
         let _ = writeln!(out, "\nroute '{}' from {}", r.route, crate::limits::printable(&r.source));
         let fitted = route_table(r, opts);
-        passing_shown |= r.legs.iter().any(|l| l.max_passing_speed_mps.is_some())
-            && !fitted.hidden.contains(&PASSING_HEADER);
+        passing_shown |=
+            r.legs.iter().any(|l| l.max_passing_speed_mps.is_some()) && !fitted.hidden.contains(&PASSING_HEADER);
         let _ = writeln!(out, "{}", fitted.table);
         if !fitted.hidden.is_empty() {
             let _ = writeln!(out, "  (left out to fit the terminal: {}; --wide shows all)", fitted.hidden_list());

@@ -891,7 +891,10 @@ mod tests {
             let p = [s * 0.9, 1.0];
             let plain = plan.nearest_within(p, s - 1.5, s + 1.5);
             assert_eq!(plan.nearest_within_at(p, s - 1.5, s + 1.5, &mut cursor), plain);
-            assert_eq!(plan.pursuit_goal_within(p, s, 1.5, 4.5, cursor, &mut Cursor::default()), plan.pursuit_goal(p, s, 1.5, 4.5));
+            assert_eq!(
+                plan.pursuit_goal_within(p, s, 1.5, 4.5, cursor, &mut Cursor::default()),
+                plan.pursuit_goal(p, s, 1.5, 4.5)
+            );
         }
         for k in 0..400 {
             let s = k as f64 * 0.37;
@@ -950,8 +953,9 @@ mod tests {
                 assert_eq!(plan.pursuit_goal_within(p, s, l, 3.0 * l, cursor, &mut Cursor { segment: 5999 }), {
                     // The same goal from a search over every segment: blocks never skipped.
                     let (first, last) = (plan.segment_at(s), plan.segment_at((s + 3.0 * l).min(plan.length_m())));
-                    plan.goal_on_segments(p, first, last, s, (s + 3.0 * l).min(plan.length_m()), l * l)
-                        .unwrap_or_else(|| plan.pursuit_goal_within(p, s, l, 3.0 * l, cursor, &mut Cursor { segment: 5999 }))
+                    plan.goal_on_segments(p, first, last, s, (s + 3.0 * l).min(plan.length_m()), l * l).unwrap_or_else(
+                        || plan.pursuit_goal_within(p, s, l, 3.0 * l, cursor, &mut Cursor { segment: 5999 }),
+                    )
                 });
             }
             for hint in [0, k, 5999, (k * 31) % 6000] {
