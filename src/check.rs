@@ -441,6 +441,25 @@ mod tests {
         assert_eq!(streamed.steps_simulated, kept.steps_simulated);
         assert_eq!(format!("{:?}", streamed.report), format!("{:?}", kept.report));
         assert_eq!(kept.report.legs[1].verdict, Verdict::Fail, "{:?}", kept.report.legs[1].reasons);
+        // A 30 % climb on deep snow stalls the vehicle (f_r + tan g = 0.45 > mu = 0.25; Wong
+        // 2008, grade resistance), so the asphalt leg after it is never driven: no steps at all.
+        let climb = Leg {
+            speed_mps: Some(1.0),
+            altitude_m: Some((0..=20).map(|i| 0.3 * i as f64).collect()),
+            ..Leg::new("deep-snow", (0..=20).map(|i| [i as f64, 0.0]).collect(), SourcePosition::Feature(0))
+        };
+        let after = Leg {
+            speed_mps: Some(1.0),
+            altitude_m: Some(vec![6.0; 11]),
+            ..Leg::new("asphalt", (20..=30).map(|i| [i as f64, 0.0]).collect(), SourcePosition::Feature(1))
+        };
+        let legs = vec![climb, after];
+        let kept = check_route_keeping(route(legs.clone()), &p, &Limits::default(), true, true);
+        let streamed = check_route_keeping(route(legs), &p, &Limits::default(), true, false);
+        assert!(matches!(kept.trace.outcome, crate::rollout::Outcome::Stalled { .. }), "{:?}", kept.trace.outcome);
+        assert!(kept.trace.steps.iter().all(|s| s.leg == 0));
+        assert_eq!(streamed.trace.outcome, kept.trace.outcome);
+        assert_eq!(format!("{:?}", streamed.report), format!("{:?}", kept.report));
     }
 
     #[test]
