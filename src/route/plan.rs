@@ -748,6 +748,8 @@ impl Default for LegSpan {
 }
 
 impl LegSpan {
+    /// [`PlanPath::terrain_share`] of `plan`, searched only when the patch leaves the remembered
+    /// stretch (then the stretch of the new rear leg is remembered). Same answer for any `s_m`.
     #[inline]
     pub fn terrain_share(&mut self, plan: &PlanPath, s_m: f64, contact_length_m: f64) -> TerrainShare {
         let half = 0.5 * contact_length_m.max(0.0);
