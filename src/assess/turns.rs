@@ -87,7 +87,6 @@ impl LegPlan {
         let ground = &drive.legs[leg].ground;
         let veh = &drive.vehicle;
         let (start_m, end_m) = plan.leg_bounds_m(leg);
-        let grade = |s: f64| if plan.has_altitude() { plan.grade_at(s) } else { 0.0 };
         let mut turns = Vec::new();
         let (mut tightest, mut tightest_at_m) = (0.0, start_m);
         let mut tightest_point: Option<TurnPoint> = None;
@@ -117,10 +116,12 @@ impl LegPlan {
         if let Some(tp) = tightest_point.filter(|tp| tp.curvature_per_m < TURN_FLOOR_PER_M) {
             turns.push(tp);
         }
+        // The turns come in plan order: the slope and ground lookups walk along with them (the
+        // same values as the plain lookups).
+        let (mut cursor, mut span) = (crate::route::Cursor::default(), crate::route::LegSpan::default());
         for t in &mut turns {
-            t.grade_rad = grade(t.s_m);
-            t.cross_slope = plan.cross_slope_at(t.s_m);
-            t.ground = drive.ground_at(t.s_m);
+            (t.grade_rad, t.cross_slope) = plan.slope_at_cursor(t.s_m, &mut cursor);
+            t.ground = drive.ground_in(t.s_m, &mut span);
         }
         let mut p = LegPlan {
             speed_mps: drive.legs[leg].speed_mps,
@@ -161,17 +162,23 @@ impl LegPlan {
         if plan.has_cross_slope() {
             // Cross slopes at the plan's own points (where the raster was sampled).
             let (first, last) = plan.leg_point_range(leg);
+            let mut cursor = crate::route::Cursor::default();
             for i in first..=last {
                 let s = plan.point_s_m(i);
-                let slope = Slope::new(grade(s), plan.cross_slope_at(s));
+                let (g, c) = plan.slope_at_cursor(s, &mut cursor);
+                let slope = Slope::new(g, c);
                 p.slopes.sample_cross(veh, ground, slope, s);
                 need(traction_coefficient_needed(veh, ground, 0.0, slope), s, &mut p);
             }
         }
-        for t in p.turns.clone() {
-            let k = t.sign() * t.curvature_per_m;
-            need(traction_coefficient_needed(veh, &t.ground, k, t.slope()), t.s_m, &mut p);
+        let mut most = (p.traction_needed, p.traction_needed_at_m);
+        for t in &p.turns {
+            let mu = traction_coefficient_needed(veh, &t.ground, t.sign() * t.curvature_per_m, t.slope());
+            if mu > most.0 {
+                most = (mu, t.s_m);
+            }
         }
+        (p.traction_needed, p.traction_needed_at_m) = most;
         p
     }
 }
