@@ -11,7 +11,7 @@ use crate::drift::{run_drift, DriftSettings};
 use crate::limits::Limits;
 use crate::margin::max_passing_speeds;
 use crate::progress::Progress;
-use crate::rollout::{roll_out_observing, roll_out_with_resumes, step_bound, Resume, RouteDrive, Trace};
+use crate::rollout::{reserved_trace, roll_out_observing, step_bound, Resume, RouteDrive, Trace};
 use crate::route::{Route, RouteError};
 use crate::site::{Site, TerrainMap};
 use crate::vehicle::Profile;
@@ -209,14 +209,7 @@ pub fn check_route_keeping(
         route.warnings.push(NO_COG_HEIGHT.to_string());
     }
     let plans = leg_plans(&drive);
-    let (trace, summary, resumes) = if keep_trace {
-        let (trace, resumes) = roll_out_with_resumes(&drive, limits.max_rollout_steps);
-        let summary = TraceSummary::of_trace(&drive, &trace);
-        (trace, summary, resumes)
-    } else {
-        let (summary, resumes) = summarize_rollout(&drive, limits.max_rollout_steps);
-        (Trace { steps: Vec::new(), outcome: summary.outcome() }, summary, resumes)
-    };
+    let (trace, summary, resumes) = summarize_rollout(&drive, limits.max_rollout_steps, keep_trace);
     let mut report = assess_summary(&route, &drive, &summary, profile.vehicle.battery_wh, &plans);
     let mut steps_simulated = summary.steps();
     if search_margins {
@@ -271,17 +264,28 @@ pub fn screen_route(route: &Route, profile: &Profile) -> Result<RouteReport, Err
     crate::route::check_terrains(route, &profile.terrain_names())?;
     check_step_bound(route, profile, &limits)?;
     let drive = RouteDrive::new(route, profile);
-    let (summary, _) = summarize_rollout(&drive, limits.max_rollout_steps);
+    let (_, summary, _) = summarize_rollout(&drive, limits.max_rollout_steps, false);
     let plans = leg_plans(&drive);
     Ok(assess_summary(route, &drive, &summary, profile.vehicle.battery_wh, &plans))
 }
 
-/// Simulates `drive` and gathers what the assessment needs as the steps come, keeping no trace.
-fn summarize_rollout(drive: &RouteDrive, max_steps: u64) -> (TraceSummary, Vec<Option<Resume>>) {
+/// Simulates `drive`, gathering what the assessment needs as the steps come; the trace keeps
+/// the steps only when `keep_trace` (else it holds just the outcome).
+fn summarize_rollout(
+    drive: &RouteDrive,
+    max_steps: u64,
+    keep_trace: bool,
+) -> (Trace, TraceSummary, Vec<Option<Resume>>) {
     let mut summary = TraceSummary::new(drive);
-    let (outcome, resumes) = roll_out_observing(drive, max_steps, |s| summary.add(drive, s));
+    let mut steps = if keep_trace { reserved_trace(drive) } else { Vec::new() };
+    let (outcome, resumes) = roll_out_observing(drive, max_steps, |s| {
+        summary.add(drive, s);
+        if keep_trace {
+            steps.push(*s);
+        }
+    });
     summary.end(outcome);
-    (summary, resumes)
+    (Trace { steps, outcome }, summary, resumes)
 }
 
 /// The checks a route read from a file has passed, for one built in memory: legs of at least two

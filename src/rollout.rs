@@ -433,13 +433,17 @@ pub fn leg_influence_m(drive: &RouteDrive) -> f64 {
 /// [`leg_influence_m`] of the leg's start; the start for the first leg). Legs the simulation
 /// never came near get `None`.
 pub fn roll_out_with_resumes(drive: &RouteDrive, max_steps: u64) -> (Trace, Vec<Option<Resume>>) {
-    let limit_s = drive.time_limit_s();
-    // The planned time plus 20 s, as steps, and a tenth more for the slower driving in turns,
-    // so a normal rollout never reallocates its trace; `as` saturates a huge or NaN estimate.
-    let expected_steps = (1.1 * (limit_s / 3.0) / drive.limits.dt_s) as usize;
-    let mut steps = Vec::with_capacity(expected_steps.min(MAX_RESERVED_STEPS) + 64);
+    let mut steps = reserved_trace(drive);
     let (outcome, resumes) = roll_out_observing(drive, max_steps, |s| steps.push(*s));
     (Trace { steps, outcome }, resumes)
+}
+
+/// An empty trace with room for a normal rollout of `drive`: the planned time plus 20 s, as
+/// steps, and a tenth more for the slower driving in turns, so it is never reallocated (at most
+/// [`MAX_RESERVED_STEPS`]; `as` saturates a huge or NaN estimate).
+pub fn reserved_trace(drive: &RouteDrive) -> Vec<Step> {
+    let expected_steps = (1.1 * (drive.time_limit_s() / 3.0) / drive.limits.dt_s) as usize;
+    Vec::with_capacity(expected_steps.min(MAX_RESERVED_STEPS) + 64)
 }
 
 /// [`roll_out_with_resumes`] handing every step to `on_step` as it is simulated instead of

@@ -362,11 +362,6 @@ impl TraceSummary {
     pub fn steps(&self) -> u64 {
         self.steps
     }
-
-    /// How the rollout ended.
-    pub fn outcome(&self) -> Outcome {
-        self.outcome
-    }
 }
 
 /// The speed-independent plan facts of every leg of a drive.
@@ -470,7 +465,8 @@ pub(crate) fn assess_leg(
     speed_mps: f64,
 ) -> LegReport {
     let ld = &drive.legs[i];
-    let tally = trace.legs.get(i).cloned().unwrap_or_default();
+    let never_driven = LegTally::default();
+    let tally = trace.legs.get(i).unwrap_or(&never_driven);
     let effort = tally.effort;
     let (start_m, end_m) = drive.plan.leg_bounds_m(i);
     let turns = check_turns(drive, i, plan, speed_mps);
