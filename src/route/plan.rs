@@ -335,12 +335,10 @@ impl PlanPath {
         if self.s_m.get(i).is_some_and(|&s_i| s_m >= s_i) {
             // Forward a few segments by a scan (the end of a lookahead window): the last segment
             // starting at or before `s_m`, as the search gives it.
-            let mut j = i;
-            for _ in 0..8 {
+            for j in i..i + 8 {
                 if j >= last || self.s_m.get(j + 1).is_none_or(|&s_j| s_m < s_j) {
                     return j;
                 }
-                j += 1;
             }
         }
         self.segment_search(s_m, hint)
