@@ -603,7 +603,12 @@ impl PlanPath {
                     if i == seed {
                         continue;
                     }
-                    if let Some((d2, s, side)) = self.segment_distance(p, i, from_m, to_m) {
+                    let measured = if i == first || i == last {
+                        self.segment_distance(p, i, from_m, to_m)
+                    } else {
+                        self.interior_distance(p, i)
+                    };
+                    if let Some((d2, s, side)) = measured {
                         if d2 < best_d2 || (d2 == best_d2 && i < best_i) {
                             (best_d2, best_s, best_side, best_i) = (d2, s, side, i);
                             best_m = d2.sqrt();
@@ -636,6 +641,29 @@ impl PlanPath {
         let off_ends =
             (i == 0 && raw_s < 0.0 && s0 <= 0.0) || (i + 2 == self.points.len() && raw_s > s1 && s1 >= self.length_m());
         let gap = if off_ends { 0.0 } else { raw_s - s };
+        Some((lateral * lateral + gap * gap, s, lateral))
+    }
+
+    /// [`PlanPath::segment_distance`] of a segment strictly between the first and last segment
+    /// of the window: it lies wholly inside the window and is at neither end of the plan, so the
+    /// window's clamps and the end rules change nothing, and this is the same arithmetic without
+    /// them.
+    #[inline(always)]
+    fn interior_distance(&self, p: [f64; 2], i: usize) -> Option<(f64, f64, f64)> {
+        let (Some(&[s_i, s_j]), Some(&a), Some(&d)) =
+            (self.s_m.get(i..i + 2).and_then(|w| <&[f64; 2]>::try_from(w).ok()), self.points.get(i), self.dir.get(i))
+        else {
+            return None;
+        };
+        if s_j <= s_i {
+            return None;
+        }
+        let (px, py) = (p[0] - a[0], p[1] - a[1]);
+        let along = px * d[0] + py * d[1];
+        let lateral = d[0] * py - d[1] * px;
+        let raw_s = s_i + along;
+        let s = raw_s.clamp(s_i, s_j);
+        let gap = raw_s - s;
         Some((lateral * lateral + gap * gap, s, lateral))
     }
 
@@ -705,9 +733,15 @@ impl PlanPath {
     /// distance `l2` from `p` where the segment leaves the circle (the pursuit goal's test).
     #[inline]
     fn goal_on_segments(&self, p: [f64; 2], lo: usize, hi: usize, from_m: f64, to_m: f64, l2: f64) -> Option<[f64; 2]> {
+        // A segment whose end lies inside the circle by the slack leaves it only past that end
+        // (by about the slack, far above the rounding of the root): no goal, and no root taken.
+        let inner_m = l2.sqrt() - BLOCK_SLACK_M;
+        let inner2 = if inner_m > 0.0 { inner_m * inner_m } else { -1.0 };
         for i in lo..=hi {
             let (s_i, s_j) = (self.s_m[i], self.s_m[i + 1]);
-            if s_j <= s_i {
+            let b = self.points[i + 1];
+            let (bx, by) = (b[0] - p[0], b[1] - p[1]);
+            if s_j <= s_i || bx * bx + by * by < inner2 {
                 continue;
             }
             // Points a + u d of the segment at distance L from p: u^2 + 2 u (f.d) + |f|^2 - L^2 = 0
@@ -920,6 +954,29 @@ mod tests {
         Nearest { s_m: best_s, distance_m: d, signed_offset_m: if best_side >= 0.0 { d } else { -d } }
     }
 
+    /// The pursuit goal's root test on every segment of the window in order, nothing skipped:
+    /// the larger root of |a + u d - p| = L on the searched part of each segment.
+    fn goal_by_scan(plan: &PlanPath, p: [f64; 2], from_m: f64, to_m: f64, l: f64) -> Option<[f64; 2]> {
+        for i in plan.segment_at(from_m)..=plan.segment_at(to_m) {
+            let (s_i, s_j) = (plan.s_m[i], plan.s_m[i + 1]);
+            if s_j <= s_i {
+                continue;
+            }
+            let (a, d) = (plan.points[i], plan.dir[i]);
+            let (fx, fy) = (a[0] - p[0], a[1] - p[1]);
+            let fd = fx * d[0] + fy * d[1];
+            let disc = fd * fd - (fx * fx + fy * fy - l * l);
+            if disc < 0.0 {
+                continue;
+            }
+            let u = -fd + disc.sqrt();
+            if u >= from_m.max(s_i) - s_i && u <= to_m.min(s_j) - s_i {
+                return Some([a[0] + u * d[0], a[1] + u * d[1]]);
+            }
+        }
+        None
+    }
+
     #[test]
     fn block_skipping_and_galloping_give_the_answers_of_a_full_scan() {
         // A dense wavy plan (points every 0.1 m) that doubles back on itself, with a repeated
@@ -950,13 +1007,16 @@ mod tests {
                 }
             }
             for l in [0.3, 1.5, 4.0] {
-                assert_eq!(plan.pursuit_goal_within(p, s, l, 3.0 * l, cursor, &mut Cursor { segment: 5999 }), {
-                    // The same goal from a search over every segment: blocks never skipped.
-                    let (first, last) = (plan.segment_at(s), plan.segment_at((s + 3.0 * l).min(plan.length_m())));
-                    plan.goal_on_segments(p, first, last, s, (s + 3.0 * l).min(plan.length_m()), l * l).unwrap_or_else(
-                        || plan.pursuit_goal_within(p, s, l, 3.0 * l, cursor, &mut Cursor { segment: 5999 }),
-                    )
-                });
+                let to_m = (s + 3.0 * l).min(plan.length_m());
+                for q in [p, plan.point_at(s + 0.5 * l), plan.points()[plan.segment_at(s + l) + 1]] {
+                    assert_eq!(plan.pursuit_goal_within(q, s, l, 3.0 * l, cursor, &mut Cursor { segment: 5999 }), {
+                        // The same goal from the root test on every segment in order: no block
+                        // and no segment skipped.
+                        goal_by_scan(&plan, q, s, to_m, l).unwrap_or_else(|| {
+                            plan.pursuit_goal_within(q, s, l, 3.0 * l, cursor, &mut Cursor { segment: 5999 })
+                        })
+                    });
+                }
             }
             for hint in [0, k, 5999, (k * 31) % 6000] {
                 assert_eq!(plan.segment_from(s, hint), plan.segment_at(s), "at {s} from {hint}");
