@@ -1,5 +1,7 @@
 //! Benchmark of the route check: a 20 km synthetic route at 20 Hz control on the demo profile,
-//! reporting simulated controller steps per second on one core, and the wall time of checking
+//! reporting simulated controller steps per second on one core (the rollout keeping its trace,
+//! and streamed into the per-leg tallies as `check` runs it when no output needs the trace),
+//! and the wall time of checking
 //! each example route (reading, simulating, assessing and the margins' extra simulations;
 //! median of 21 runs; the target is under 100 ms each). Run with
 //! `cargo run --release --example bench_check [SPACING_M] [--write ROUTE.csv]`: the plan's
@@ -14,9 +16,10 @@
 use std::path::PathBuf;
 use std::time::Instant;
 
+use skidroute::assess::TraceSummary;
 use skidroute::check::{check_route, check_routes, load_routes};
 use skidroute::kinematics::{MotionModel, Pose};
-use skidroute::rollout::{roll_out, RouteDrive};
+use skidroute::rollout::{roll_out, roll_out_observing, RouteDrive};
 use skidroute::route::{Leg, Route, SourcePosition};
 use skidroute::vehicle::Profile;
 
@@ -116,15 +119,32 @@ fn main() {
         assert_eq!(trace.steps.len(), steps);
     }
     rolls.sort_by(f64::total_cmp);
+    // The rollout as `check` runs it when no output needs the trace: every step tallied into the
+    // per-leg summary as it comes, nothing kept.
+    let mut streamed = Vec::new();
+    for _ in 0..7 {
+        let t0 = Instant::now();
+        let mut summary = TraceSummary::new(&drive);
+        let (outcome, _) =
+            roll_out_observing(&drive, skidroute::limits::DEFAULT_MAX_ROLLOUT_STEPS, |s| summary.add(&drive, s));
+        summary.end(outcome);
+        streamed.push(t0.elapsed().as_secs_f64());
+        assert_eq!(summary.steps() as usize, steps);
+    }
+    streamed.sort_by(f64::total_cmp);
     let rate = |t: f64| steps as f64 / t / 1e6;
     println!("20 km synthetic route, points every {step_m} m, at 20 Hz: {steps} controller steps (one core)");
-    println!(
-        "  rollout only: median {:.3} s, {:.2} million steps per second (fastest {:.2}, slowest {:.2}; 7 runs)",
-        rolls[3],
-        rate(rolls[3]),
-        rate(rolls[0]),
-        rate(rolls[6])
-    );
+    for (label, times) in
+        [("rollout keeping the trace", &rolls), ("rollout streamed into the leg tallies (as check runs it)", &streamed)]
+    {
+        println!(
+            "  {label}: median {:.3} s, {:.2} million steps per second (fastest {:.2}, slowest {:.2}; 7 runs)",
+            times[3],
+            rate(times[3]),
+            rate(times[0]),
+            rate(times[6])
+        );
+    }
     println!("  whole check (rollout + assessment, no margins): best of 5 {:.3} s", best);
     let mut bare = Vec::new();
     let mut bare_steps = 0;
@@ -136,9 +156,10 @@ fn main() {
     bare.sort_by(f64::total_cmp);
     let bare_rate = bare_steps as f64 / bare[3] / 1e6;
     println!(
-        "  bare loop (pursuit goal, model, SE(2) step; {bare_steps} steps): median {:.2} million steps per second; rollout at {:.0} % of it",
+        "  bare loop (pursuit goal, model, SE(2) step; {bare_steps} steps): median {:.2} million steps per second; rollout at {:.0} % of it keeping the trace, {:.0} % streamed",
         bare_rate,
-        100.0 * rate(rolls[3]) / bare_rate
+        100.0 * rate(rolls[3]) / bare_rate,
+        100.0 * rate(streamed[3]) / bare_rate
     );
 
     let files: Vec<PathBuf> = std::fs::read_dir("example-routes")

@@ -208,8 +208,10 @@ pub fn check_route_keeping(
     if drive.plan.has_cross_slope() && profile.vehicle.cog_height_m.is_none() {
         route.warnings.push(NO_COG_HEIGHT.to_string());
     }
-    let plans = leg_plans(&drive);
-    let (trace, summary, resumes) = summarize_rollout(&drive, limits.max_rollout_steps, keep_trace);
+    // The legs' plan facts (curvature, turns, slopes) do not depend on the simulation: read
+    // them on another thread while it runs.
+    let (plans, (trace, summary, resumes)) =
+        rayon::join(|| leg_plans(&drive), || summarize_rollout(&drive, limits.max_rollout_steps, keep_trace));
     let mut report = assess_summary(&route, &drive, &summary, profile.vehicle.battery_wh, &plans);
     let mut steps_simulated = summary.steps();
     if search_margins {
