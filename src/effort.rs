@@ -400,6 +400,20 @@ pub fn effort_step(
     slope: Slope,
 ) -> EffortStep {
     let f = SideForces::new(veh, ground, twist_curvature(vx_mps, omega_radps), accel_mps2, slope);
+    effort_from_forces(veh, &f, omega_radps, left_mps, right_mps, slope)
+}
+
+/// [`effort_step`] from the side forces `f` already worked out for its curvature and
+/// acceleration (the step's traction check has them): the same values.
+#[inline]
+pub fn effort_from_forces(
+    veh: &EffortVehicle,
+    f: &SideForces,
+    omega_radps: f64,
+    left_mps: f64,
+    right_mps: f64,
+    slope: Slope,
+) -> EffortStep {
     let (dl, dr) = (motion_direction(left_mps), motion_direction(right_mps));
     let turn = turn_sign(omega_radps);
     let (left, right) = (f.left_n(dl, turn), f.right_n(dr, turn));

@@ -10,11 +10,11 @@
 //! Units: seconds, metres, radians, local frame. The step loop allocates nothing (the trace is
 //! reserved up front from the time bound).
 
-use crate::effort::{effort_step, EffortStep, EffortVehicle, Ground, Slope};
+use crate::effort::{effort_from_forces, effort_step, EffortStep, EffortVehicle, Ground, SideForces, Slope};
 use crate::follow::{driven_speed_mps, segment_time_s, Follower, FollowerLimits, FollowerState, SpeedPlan, SpeedView};
 use crate::kinematics::{Model, MotionModel, Pose, Twist};
 use crate::route::{Cursor, Leg, LegSpan, PlanPath, Route, TerrainShare};
-use crate::turn_limit::{limit_step, turn_speed_limit_mps, StepLimit};
+use crate::turn_limit::{limit_step_keeping_forces, turn_speed_limit_mps, StepLimit};
 use crate::vehicle::Profile;
 
 /// How one leg is driven: the terrain's actual model, the model the controller inverts, and
@@ -380,7 +380,9 @@ fn simulate(
         };
         let mut twist = ground_twist(&rear.actual, &front.actual, under.front_share, cmd.left_mps, cmd.right_mps);
         let (mut left, mut right) = (cmd.left_mps, cmd.right_mps);
-        step.limit = limit_step(&drive.vehicle, &ground, slope, &mut twist, &mut left, &mut right);
+        let forces;
+        (step.limit, forces) =
+            limit_step_keeping_forces(&drive.vehicle, &ground, slope, &mut twist, &mut left, &mut right);
         if step.limit == StepLimit::Stall {
             (step.effort.grade_rad, step.effort.cross_slope) = (grade, cross);
             if on_step(&step) == Flow::Stop {
@@ -393,8 +395,16 @@ fn simulate(
         step.twist = twist;
         step.accel_mps2 = (twist.vx_mps - prev_vx) / dt;
         prev_vx = twist.vx_mps;
-        step.effort =
-            effort_step(&drive.vehicle, &ground, twist.vx_mps, twist.omega_radps, left, right, step.accel_mps2, slope);
+        let veh = &drive.vehicle;
+        step.effort = match forces {
+            // The traction check's forces at this twist, with this step's acceleration: what
+            // effort_step would work out again.
+            Some(f) => {
+                let f = SideForces { accel_n: 0.5 * veh.mass_kg * step.accel_mps2, ..f };
+                effort_from_forces(veh, &f, twist.omega_radps, left, right, slope)
+            }
+            None => effort_step(veh, &ground, twist.vx_mps, twist.omega_radps, left, right, step.accel_mps2, slope),
+        };
         if on_step(&step) == Flow::Stop {
             return None;
         }

@@ -347,8 +347,24 @@ pub fn limit_step(
     left_mps: &mut f64,
     right_mps: &mut f64,
 ) -> StepLimit {
+    limit_step_keeping_forces(veh, ground, slope, twist, left_mps, right_mps).0
+}
+
+/// [`limit_step`], also returning the side forces of the steady turn (no acceleration) at the
+/// twist's curvature when traction and the ratings left the twist as it was
+/// ([`StepLimit::Free`]), so the step's effort need not work them out again
+/// ([`crate::effort::effort_from_forces`]).
+#[inline]
+pub fn limit_step_keeping_forces(
+    veh: &EffortVehicle,
+    ground: &Ground,
+    slope: Slope,
+    twist: &mut Twist,
+    left_mps: &mut f64,
+    right_mps: &mut f64,
+) -> (StepLimit, Option<SideForces>) {
     if slope.cross_slope != 0.0 && slope.side_ratio().abs() > cross_slope_limit(veh, ground).0 {
-        return StepLimit::Sideways;
+        return (StepLimit::Sideways, None);
     }
     let (dl, dr) = (crate::effort::motion_direction(*left_mps), crate::effort::motion_direction(*right_mps));
     // Turning left, the right side is outer.
@@ -356,15 +372,15 @@ pub fn limit_step(
     let (outer_dir, inner_dir) = if turn > 0.0 { (dr, dl) } else { (dl, dr) };
     let Some(budget_n) = turning_budget_n(veh, ground, slope, turn, outer_dir, inner_dir) else {
         if SideForces::new(veh, ground, 0.0, 0.0, slope).grade_n > 0.0 {
-            return StepLimit::Stall;
+            return (StepLimit::Stall, None);
         }
         scale_yaw(twist, 0.0);
-        return StepLimit::Slide;
+        return (StepLimit::Slide, None);
     };
     let k = twist_curvature(twist.vx_mps, twist.omega_radps);
-    let turning_n = SideForces::new(veh, ground, k, 0.0, slope).turning_n;
+    let forces = SideForces::new(veh, ground, k, 0.0, slope);
     let mut limit = StepLimit::Free;
-    if turning_n > budget_n {
+    if forces.turning_n > budget_n {
         let k_max = curvature_for_turning_term(veh, ground, slope, budget_n);
         scale_yaw(twist, k_max * twist.vx_mps.abs() / twist.omega_radps.abs());
         limit = StepLimit::Turn;
@@ -373,8 +389,14 @@ pub fn limit_step(
         let e = crate::effort::effort_step(veh, ground, t.vx_mps, t.omega_radps, *left_mps, *right_mps, 0.0, slope);
         e.drawn_power_w
     };
-    if power(twist) <= veh.max_power_w {
-        return limit;
+    if limit == StepLimit::Free {
+        // The twist is as it came: the forces above are the ones its effort takes.
+        let e = crate::effort::effort_from_forces(veh, &forces, twist.omega_radps, *left_mps, *right_mps, slope);
+        if e.drawn_power_w <= veh.max_power_w {
+            return (limit, Some(forces));
+        }
+    } else if power(twist) <= veh.max_power_w {
+        return (limit, None);
     }
     let full = *twist;
     let mut straight = full;
@@ -386,7 +408,7 @@ pub fn limit_step(
         *twist = Twist { vx_mps: straight.vx_mps * f, vy_mps: straight.vy_mps * f, omega_radps: 0.0 };
         *left_mps *= f;
         *right_mps *= f;
-        return StepLimit::Power;
+        return (StepLimit::Power, None);
     }
     let (mut lo, mut hi) = (0.0, 1.0);
     for _ in 0..40 {
@@ -400,7 +422,7 @@ pub fn limit_step(
         }
     }
     scale_yaw(twist, lo);
-    StepLimit::Power
+    (StepLimit::Power, None)
 }
 
 /// Scales the yaw rate (and the lateral velocity that comes with it) by `f`.
@@ -422,6 +444,36 @@ mod tests {
         let veh = EffortVehicle::from_profile(&crate::vehicle::Profile::demo());
         let deep = &crate::vehicle::Profile::demo().terrain["deep-snow"];
         (veh, Ground::from_terrain(deep))
+    }
+
+    #[test]
+    fn forces_kept_by_a_free_step_give_the_effort_of_a_fresh_computation() {
+        // Where traction and the ratings leave the twist alone, the forces handed on with the
+        // step's acceleration must give effort_step's values to the bit; elsewhere none are
+        // handed on. Gentle and tight turns, both directions, level and on a grade.
+        let (veh, ground) = demo();
+        let (mut free, mut bound) = (0, 0);
+        for (vx, omega) in [(1.0, 0.0), (1.0, 0.05), (1.2, -0.1), (0.8, 0.6), (1.5, -0.9), (0.3, 0.4)] {
+            for slope in [Slope::LEVEL, Slope::grade(0.05), Slope::new(-0.03, 0.02)] {
+                let half = 0.5 * omega * veh.track_width_m;
+                let (mut l, mut r) = (vx - half, vx + half);
+                let mut twist = Twist { vx_mps: vx, vy_mps: 0.0, omega_radps: omega };
+                let (limit, forces) = limit_step_keeping_forces(&veh, &ground, slope, &mut twist, &mut l, &mut r);
+                assert_eq!(forces.is_some(), limit == StepLimit::Free, "{vx} {omega} {slope:?}");
+                let Some(f) = forces else {
+                    bound += 1;
+                    continue;
+                };
+                free += 1;
+                let accel = 0.37;
+                let kept = SideForces { accel_n: 0.5 * veh.mass_kg * accel, ..f };
+                assert_eq!(
+                    crate::effort::effort_from_forces(&veh, &kept, twist.omega_radps, l, r, slope),
+                    crate::effort::effort_step(&veh, &ground, twist.vx_mps, twist.omega_radps, l, r, accel, slope)
+                );
+            }
+        }
+        assert!(free > 0 && bound > 0, "free {free}, bound {bound}");
     }
 
     #[test]
