@@ -232,6 +232,8 @@ pub struct SideForces {
     pub accel_n: f64,
     /// M_r / B, with M_r from the total normal load N.
     pub turning_n: f64,
+    /// The total normal load N.
+    pub normal_n: f64,
 }
 
 /// The sign of a turn: +1 left (anticlockwise), -1 right, 0 straight.
@@ -259,7 +261,17 @@ impl SideForces {
             grade_n: slope.grade_force_per_side_n(w),
             accel_n: 0.5 * veh.mass_kg * accel_mps2,
             turning_n: turning_moment(mu_t, n, veh.contact_length_m, veh.running_gear) / veh.track_width_m,
+            normal_n: n,
         }
+    }
+
+    /// These forces at curvature `curvature_per_m` instead: only the turning term depends on
+    /// it (the same values as [`SideForces::new`] at that curvature).
+    #[inline]
+    pub fn at_curvature(&self, veh: &EffortVehicle, ground: &Ground, curvature_per_m: f64) -> Self {
+        let mu_t = lateral_resistance(ground.lateral_resistance_max, curvature_per_m, veh.track_width_m);
+        let turning_n = turning_moment(mu_t, self.normal_n, veh.contact_length_m, veh.running_gear) / veh.track_width_m;
+        SideForces { turning_n, ..*self }
     }
 
     /// Thrust of the left side moving in direction `dir` in a turn of sign `turn` (+1 left: the
@@ -453,6 +465,24 @@ pub(crate) mod tests {
         };
         let ground = Ground { rolling_resistance: 0.05, traction_coefficient: 0.7, lateral_resistance_max: 0.6 };
         (veh, ground)
+    }
+
+    #[test]
+    fn forces_moved_to_another_curvature_are_those_worked_out_there() {
+        // Only the turning term depends on the curvature: moving the forces of a straight to a
+        // curvature must give SideForces::new there to the bit, on level ground, a grade and a
+        // cross slope, for tracks and wheels, gentle turns to a pivot.
+        let (mut veh, ground) = wong_example();
+        veh.cog_height_m = Some(0.9);
+        for gear in [RunningGear::Tracks, RunningGear::Wheels] {
+            veh.running_gear = gear;
+            for slope in [Slope::LEVEL, Slope::grade(0.08), Slope::new(-0.05, 0.12)] {
+                let straight = SideForces::new(&veh, &ground, 0.0, 0.0, slope);
+                for k in [0.0, 0.01, -0.2, 0.9, -1.25, 3.0] {
+                    assert_eq!(straight.at_curvature(&veh, &ground, k), SideForces::new(&veh, &ground, k, 0.0, slope));
+                }
+            }
+        }
     }
 
     #[test]

@@ -109,9 +109,24 @@ fn turning_budget_n(
     outer_dir: f64,
     inner_dir: f64,
 ) -> Option<f64> {
+    let straight = SideForces::new(veh, ground, 0.0, 0.0, slope);
+    turning_budget_from(veh, ground, slope, &straight, turn, outer_dir, inner_dir)
+}
+
+/// [`turning_budget_n`] given the side forces of going straight on `slope` (curvature and
+/// acceleration 0).
+#[inline]
+fn turning_budget_from(
+    veh: &EffortVehicle,
+    ground: &Ground,
+    slope: Slope,
+    straight: &SideForces,
+    turn: f64,
+    outer_dir: f64,
+    inner_dir: f64,
+) -> Option<f64> {
     let (limit_left, limit_right) = side_thrust_limits_n(veh, ground, slope);
-    let f = SideForces::new(veh, ground, 0.0, 0.0, slope);
-    let (b_o, b_i) = f.outer_inner_n(turn, outer_dir, inner_dir);
+    let (b_o, b_i) = straight.outer_inner_n(turn, outer_dir, inner_dir);
     let (limit_o, limit_i) = if turn >= 0.0 { (limit_right, limit_left) } else { (limit_left, limit_right) };
     // Outer thrust b_o + D and inner b_i - D must both lie within their limits, D >= 0.
     if b_o.abs() > limit_o || b_i.abs() > limit_i {
@@ -370,15 +385,16 @@ pub fn limit_step_keeping_forces(
     // Turning left, the right side is outer.
     let turn = if twist.omega_radps >= 0.0 { 1.0 } else { -1.0 };
     let (outer_dir, inner_dir) = if turn > 0.0 { (dr, dl) } else { (dl, dr) };
-    let Some(budget_n) = turning_budget_n(veh, ground, slope, turn, outer_dir, inner_dir) else {
-        if SideForces::new(veh, ground, 0.0, 0.0, slope).grade_n > 0.0 {
+    let straight = SideForces::new(veh, ground, 0.0, 0.0, slope);
+    let Some(budget_n) = turning_budget_from(veh, ground, slope, &straight, turn, outer_dir, inner_dir) else {
+        if straight.grade_n > 0.0 {
             return (StepLimit::Stall, None);
         }
         scale_yaw(twist, 0.0);
         return (StepLimit::Slide, None);
     };
     let k = twist_curvature(twist.vx_mps, twist.omega_radps);
-    let forces = SideForces::new(veh, ground, k, 0.0, slope);
+    let forces = straight.at_curvature(veh, ground, k);
     let mut limit = StepLimit::Free;
     if forces.turning_n > budget_n {
         let k_max = curvature_for_turning_term(veh, ground, slope, budget_n);

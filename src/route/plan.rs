@@ -586,7 +586,7 @@ impl PlanPath {
             }
             let mut best_m = best_d2.sqrt();
             let end_segment = self.points.len().saturating_sub(2);
-            for b in first / BLOCK_SEGMENTS..=last / BLOCK_SEGMENTS {
+            for b in first / BLOCK_SEGMENTS..last / BLOCK_SEGMENTS + 1 {
                 let (lo, hi) = (b * BLOCK_SEGMENTS, b * BLOCK_SEGMENTS + BLOCK_SEGMENTS - 1);
                 // The end segments measure only the lateral offset beyond the plan's ends, which
                 // the circle does not bound: their blocks are always searched.
@@ -599,7 +599,7 @@ impl PlanPath {
                         }
                     }
                 }
-                for i in lo.max(first)..=hi.min(last) {
+                for i in lo.max(first)..hi.min(last) + 1 {
                     if i == seed {
                         continue;
                     }
@@ -696,7 +696,7 @@ impl PlanPath {
         let last = self.segment_from(to_m, reach.segment.max(first));
         reach.segment = last;
         let l2 = lookahead_m * lookahead_m;
-        for b in first / BLOCK_SEGMENTS..=last / BLOCK_SEGMENTS {
+        for b in first / BLOCK_SEGMENTS..last / BLOCK_SEGMENTS + 1 {
             // A block wholly inside or wholly outside the circle of radius L round `p` has no
             // point at distance L.
             if let Some(block) = self.blocks.get(b) {
@@ -737,7 +737,7 @@ impl PlanPath {
         // (by about the slack, far above the rounding of the root): no goal, and no root taken.
         let inner_m = l2.sqrt() - BLOCK_SLACK_M;
         let inner2 = if inner_m > 0.0 { inner_m * inner_m } else { -1.0 };
-        for i in lo..=hi {
+        for i in lo..hi + 1 {
             let (s_i, s_j) = (self.s_m[i], self.s_m[i + 1]);
             let b = self.points[i + 1];
             let (bx, by) = (b[0] - p[0], b[1] - p[1]);
