@@ -236,6 +236,12 @@ pub struct SideForces {
     pub normal_n: f64,
 }
 
+/// m a / 2: the thrust each side adds for the forward acceleration `accel_mps2`.
+#[inline]
+fn accel_force_per_side_n(veh: &EffortVehicle, accel_mps2: f64) -> f64 {
+    0.5 * veh.mass_kg * accel_mps2
+}
+
 /// The sign of a turn: +1 left (anticlockwise), -1 right, 0 straight.
 #[inline]
 pub fn turn_sign(x: f64) -> f64 {
@@ -259,10 +265,17 @@ impl SideForces {
             rolling_left_n: ground.rolling_resistance * n_left,
             rolling_right_n: ground.rolling_resistance * n_right,
             grade_n: slope.grade_force_per_side_n(w),
-            accel_n: 0.5 * veh.mass_kg * accel_mps2,
+            accel_n: accel_force_per_side_n(veh, accel_mps2),
             turning_n: turning_moment(mu_t, n, veh.contact_length_m, veh.running_gear) / veh.track_width_m,
             normal_n: n,
         }
+    }
+
+    /// These forces with the forward acceleration `accel_mps2` instead (the same values as
+    /// [`SideForces::new`] with it).
+    #[inline]
+    pub fn with_acceleration(self, veh: &EffortVehicle, accel_mps2: f64) -> Self {
+        SideForces { accel_n: accel_force_per_side_n(veh, accel_mps2), ..self }
     }
 
     /// These forces at curvature `curvature_per_m` instead: only the turning term depends on

@@ -10,7 +10,7 @@
 //! Units: seconds, metres, radians, local frame. The step loop allocates nothing (the trace is
 //! reserved up front from the time bound).
 
-use crate::effort::{effort_from_forces, effort_step, EffortStep, EffortVehicle, Ground, SideForces, Slope};
+use crate::effort::{effort_from_forces, effort_step, EffortStep, EffortVehicle, Ground, Slope};
 use crate::follow::{driven_speed_mps, segment_time_s, Follower, FollowerLimits, FollowerState, SpeedPlan, SpeedView};
 use crate::kinematics::{Model, MotionModel, Pose, Twist};
 use crate::route::{Cursor, Leg, LegSpan, PlanPath, Route, TerrainShare};
@@ -399,10 +399,14 @@ fn simulate(
         step.effort = match forces {
             // The traction check's forces at this twist, with this step's acceleration: what
             // effort_step would work out again.
-            Some(f) => {
-                let f = SideForces { accel_n: 0.5 * veh.mass_kg * step.accel_mps2, ..f };
-                effort_from_forces(veh, &f, twist.omega_radps, left, right, slope)
-            }
+            Some(f) => effort_from_forces(
+                veh,
+                &f.with_acceleration(veh, step.accel_mps2),
+                twist.omega_radps,
+                left,
+                right,
+                slope,
+            ),
             None => effort_step(veh, &ground, twist.vx_mps, twist.omega_radps, left, right, step.accel_mps2, slope),
         };
         if on_step(&step) == Flow::Stop {

@@ -482,7 +482,7 @@ mod tests {
                 };
                 free += 1;
                 let accel = 0.37;
-                let kept = SideForces { accel_n: 0.5 * veh.mass_kg * accel, ..f };
+                let kept = f.with_acceleration(&veh, accel);
                 assert_eq!(
                     crate::effort::effort_from_forces(&veh, &kept, twist.omega_radps, l, r, slope),
                     crate::effort::effort_step(&veh, &ground, twist.vx_mps, twist.omega_radps, l, r, accel, slope)
