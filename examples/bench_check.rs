@@ -6,7 +6,8 @@
 //! median of 21 runs; the target is under 100 ms each). Run with
 //! `cargo run --release --example bench_check [SPACING_M] [--write ROUTE.csv]`: the plan's
 //! points are SPACING_M apart (1 m unless given; 0.1 m is a planner-dense path); `--write`
-//! also writes the route as CSV, to time the whole `skidroute check` process on it.
+//! also writes the route as CSV, to time the whole `skidroute check` process on it;
+//! `--rollouts N` only runs N streamed rollouts of the route, for instruction counts.
 //!
 //! The yardstick is a bare loop over the same route doing only the irreducible work of a control
 //! step (pursuit goal from a forward-only index, one terrain-model evaluation, one exact SE(2)
@@ -101,6 +102,22 @@ fn main() {
             std::fs::write(path, route_csv(&route)).expect("writing the route");
             println!("wrote {path}");
         }
+    }
+    if let Some(i) = args.iter().position(|a| a == "--rollouts") {
+        // For instruction counts (valgrind --tool=cachegrind --cache-sim=no): N streamed
+        // rollouts and nothing else; the count with 1 less the count with 0, over the steps, is
+        // the cost of a step.
+        let n: usize = args.get(i + 1).and_then(|s| s.parse().ok()).unwrap_or(1);
+        let drive = RouteDrive::new(&route, &profile);
+        let (mut steps, mut sum_m) = (0u64, 0.0);
+        for _ in 0..n {
+            roll_out_observing(&drive, skidroute::limits::DEFAULT_MAX_ROLLOUT_STEPS, |s| {
+                steps += 1;
+                sum_m += s.deviation_m + s.offset_m;
+            });
+        }
+        println!("{n} streamed rollouts: {steps} steps (deviations summed: {sum_m:.6} m)");
+        return;
     }
     let mut best = f64::INFINITY;
     let mut steps = 0;
