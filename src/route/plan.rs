@@ -696,6 +696,10 @@ impl PlanPath {
         let last = self.segment_from(to_m, reach.segment.max(first));
         reach.segment = last;
         let l2 = lookahead_m * lookahead_m;
+        // A segment whose end lies inside the circle by the slack leaves it only past that end
+        // (by about the slack, far above the rounding of the root): no goal, and no root taken.
+        let inner_m = lookahead_m - BLOCK_SLACK_M;
+        let inner2 = if inner_m > 0.0 { inner_m * inner_m } else { -1.0 };
         for b in first / BLOCK_SEGMENTS..last / BLOCK_SEGMENTS + 1 {
             // A block wholly inside or wholly outside the circle of radius L round `p` has no
             // point at distance L.
@@ -708,7 +712,7 @@ impl PlanPath {
                 }
             }
             let (lo, hi) = ((b * BLOCK_SEGMENTS).max(first), (b * BLOCK_SEGMENTS + BLOCK_SEGMENTS - 1).min(last));
-            if let Some(goal) = self.goal_on_segments(p, lo, hi, from_m, to_m, l2) {
+            if let Some(goal) = self.goal_on_segments(p, lo, hi, from_m, to_m, (l2, inner2)) {
                 return goal;
             }
         }
@@ -730,13 +734,18 @@ impl PlanPath {
     }
 
     /// The first point of segments `lo..=hi` with arc length in `[from_m, to_m]` at squared
-    /// distance `l2` from `p` where the segment leaves the circle (the pursuit goal's test).
+    /// distance `l2` from `p` where the segment leaves the circle (the pursuit goal's test);
+    /// `inner2` is the square of the lookahead less the slack (-1 when that is not positive).
     #[inline]
-    fn goal_on_segments(&self, p: [f64; 2], lo: usize, hi: usize, from_m: f64, to_m: f64, l2: f64) -> Option<[f64; 2]> {
-        // A segment whose end lies inside the circle by the slack leaves it only past that end
-        // (by about the slack, far above the rounding of the root): no goal, and no root taken.
-        let inner_m = l2.sqrt() - BLOCK_SLACK_M;
-        let inner2 = if inner_m > 0.0 { inner_m * inner_m } else { -1.0 };
+    fn goal_on_segments(
+        &self,
+        p: [f64; 2],
+        lo: usize,
+        hi: usize,
+        from_m: f64,
+        to_m: f64,
+        (l2, inner2): (f64, f64),
+    ) -> Option<[f64; 2]> {
         for i in lo..hi + 1 {
             let (s_i, s_j) = (self.s_m[i], self.s_m[i + 1]);
             let b = self.points[i + 1];
