@@ -150,7 +150,11 @@ fn main() {
     }
     streamed.sort_by(f64::total_cmp);
     let rate = |t: f64| steps as f64 / t / 1e6;
-    println!("20 km synthetic route, points every {step_m} m, at 20 Hz: {steps} controller steps (one core)");
+    let cores = std::thread::available_parallelism().map_or(0, |n| n.get());
+    println!(
+        "20 km synthetic route, points every {step_m} m, at 20 Hz: {steps} controller steps (timed on one core of \
+         {cores})"
+    );
     for (label, times) in
         [("rollout keeping the trace", &rolls), ("rollout streamed into the leg tallies (as check runs it)", &streamed)]
     {

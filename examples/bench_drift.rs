@@ -2,9 +2,11 @@
 //! arcs, plan points every metre, four terrains of the demo profile) at the demo's 20 Hz
 //! control rate, with 1 and 2 rayon threads.
 //!
-//! Run with `cargo run --release --example bench_drift [SAMPLES] [gyro]`. With the environment
-//! variable `BENCH_DRIFT_JSON=FILE` the 2-thread report is also written to FILE as JSON, to
-//! compare the output of two builds byte for byte.
+//! Run with `cargo run --release --example bench_drift [SAMPLES] [gyro] [--runs N]`: each thread
+//! count is timed over N runs (3 unless given), printing the median, the fastest and the
+//! slowest, with the machine's core count. With the environment variable
+//! `BENCH_DRIFT_JSON=FILE` the 2-thread report is also written to FILE as JSON, to compare the
+//! output of two builds byte for byte.
 
 use std::time::Instant;
 
@@ -44,14 +46,20 @@ fn main() {
     let profile = Profile::demo();
     // Heading from odometry: the same work as before the gyro existed (the demo profile's [imu]
     // would make the gyro the default); pass `gyro` as the second argument to time that.
-    let heading = match std::env::args().nth(2).as_deref() {
+    let args: Vec<String> = std::env::args().collect();
+    let runs: usize =
+        args.iter().position(|a| a == "--runs").and_then(|i| args.get(i + 1)).and_then(|n| n.parse().ok()).unwrap_or(3);
+    let runs = runs.max(1);
+    let heading = match args.get(2).map(String::as_str) {
         Some("gyro") => HeadingSource::Gyro,
         _ => HeadingSource::Odometry,
     };
     let settings =
         DriftSettings { samples, seed: 7, lost_from_leg: 1, odometry: Odometry::Calibrated, heading, paths_kept: 50 };
+    let cores = std::thread::available_parallelism().map_or(0, |n| n.get());
     println!(
-        "drift benchmark: {samples} samples, {:.0} m route, {} legs, {:.0} Hz control",
+        "drift benchmark: {samples} samples, {:.0} m route, {} legs, {:.0} Hz control; {cores} cores; {runs} runs \
+         per thread count",
         route
             .legs
             .iter()
@@ -81,26 +89,43 @@ fn main() {
                 return;
             }
         };
-        let t0 = Instant::now();
-        let report = match pool.install(|| run_drift(&route, &profile, &settings, &NoProgress)) {
-            Ok(r) => r,
-            Err(e) => {
-                eprintln!("drift failed: {e}");
-                return;
+        let mut secs_each = Vec::with_capacity(runs);
+        let mut last_report = None;
+        for _ in 0..runs {
+            let t0 = Instant::now();
+            let report = match pool.install(|| run_drift(&route, &profile, &settings, &NoProgress)) {
+                Ok(r) => r,
+                Err(e) => {
+                    eprintln!("drift failed: {e}");
+                    return;
+                }
+            };
+            secs_each.push(t0.elapsed().as_secs_f64());
+            let json = serde_json::to_string(&report).unwrap_or_default();
+            // Every run of a seeded drift gives the same report.
+            if let Some((_, earlier)) = &last_report {
+                if *earlier != json {
+                    println!("  runs on {threads} thread(s) gave different reports");
+                }
             }
-        };
-        let secs = t0.elapsed().as_secs_f64();
+            last_report = Some((report, json));
+        }
+        let Some((report, json)) = last_report else { return };
+        secs_each.sort_by(f64::total_cmp);
+        let secs = secs_each[secs_each.len() / 2];
         let last = report.legs.last().and_then(|l| l.cep95_m()).unwrap_or(f64::NAN);
         println!(
-            "{threads} thread(s): {secs:.2} s, {} steps, {:.1} M steps/s ({:.0} ns per step per thread), timed out {}, \
-             CEP95 at the end {last:.2} m",
+            "{threads} thread(s): median {secs:.2} s (fastest {:.2}, slowest {:.2}), {} steps, {:.1} M steps/s ({:.0} ns \
+             per step per thread), timed out {}, CEP95 at the end {last:.2} m",
+            secs_each[0],
+            secs_each[secs_each.len() - 1],
             report.steps,
             report.steps as f64 / secs / 1e6,
             secs * threads as f64 / report.steps as f64 * 1e9,
             report.timed_out
         );
         times.push(secs);
-        outputs.push(serde_json::to_string(&report).unwrap_or_default());
+        outputs.push(json);
     }
     println!("speed-up 1 -> 2 threads: {:.2}x", times[0] / times[1]);
     if let Some(path) = std::env::var_os("BENCH_DRIFT_JSON") {
