@@ -72,7 +72,10 @@ const SMOOTH_MISMATCH: f64 = 0.5;
 /// segment is straight.
 pub(super) fn segment_bends(points: &[[f64; 2]]) -> Vec<f64> {
     let n = points.len();
-    let vertex = |i: usize| if i >= 1 && i + 1 < n { sampled_curve_curvature(points, i) } else { None };
+    // Each vertex's reading once (every segment looks at four vertices).
+    let readings: Vec<Option<f64>> =
+        (0..n).map(|i| if i >= 1 && i + 1 < n { sampled_curve_curvature(points, i) } else { None }).collect();
+    let vertex = |i: usize| readings.get(i).copied().flatten();
     let mismatch = |a: f64, b: f64| (a - b).abs() / (a.abs().max(b.abs()) + STRAIGHT_FLOOR_PER_M);
     // (curvature, mismatch with the vertex beyond) of the candidate from vertex v, looking away
     // from the segment towards `beyond`.
