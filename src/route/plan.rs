@@ -41,6 +41,11 @@ pub struct PlanPath {
     /// searches skip a block that cannot hold their answer, so a dense plan costs them O(1)
     /// segments per query instead of one per point in the window.
     blocks: Vec<BlockBound>,
+    /// Sum of the absolute turning angles at points `1..=i`, rad (0 at the first point; pi for a
+    /// turn next to a zero-length segment): the directions of segments `first..=last` lie within
+    /// `turn_sum_rad[last] - turn_sum_rad[first]` of one another, which bounds how close two far
+    /// apart points of that stretch can be (see [`PlanPath::nearest_near_seed`]).
+    turn_sum_rad: Vec<f64>,
     /// The planner's own vertices, when points were added after reading (map cuts, raster
     /// spacing): the plan's curvature is read on them alone (docs/method.md, Plan curvature).
     own: Option<OwnVertices>,
@@ -60,6 +65,40 @@ const BLOCK_SEGMENTS: usize = 4;
 /// Slack, metres, by which a bounding circle must clear a query before its block is skipped, far
 /// above the rounding of the per-segment arithmetic, so skipping never changes an answer.
 const BLOCK_SLACK_M: f64 = 1e-6;
+
+/// Smallest `1 - theta^2 / 8` (the lower bound of `cos(theta / 2)` for a window whose segment
+/// directions spread over `theta`) for which [`PlanPath::nearest_near_seed`] is tried: a window
+/// turning by more than about 115 degrees is searched by blocks.
+const NEAR_SEED_MIN_SPREAD: f64 = 0.5;
+
+/// Largest reach of [`PlanPath::nearest_near_seed`] as a share of the window's length: beyond
+/// it the block search measures fewer segments.
+const NEAR_SEED_MAX_REACH_SHARE: f64 = 0.25;
+
+/// The running sums of the absolute turning angle at each point, given the unit direction of
+/// every segment (see `PlanPath::turn_sum_rad`): 0 at the first point, at an inner point a bound
+/// of the angle between the directions of the segments on either side, nothing added at the
+/// last. The bound is `2 tan(theta / 2) = 2 |cross| / (1 + dot)` (at least theta, and above it
+/// by about theta^3 / 12: no arc tangent), at most pi, and pi next to a zero-length segment.
+fn turn_sums(dir: &[[f64; 2]]) -> Vec<f64> {
+    use std::f64::consts::PI;
+    let mut sums = Vec::with_capacity(dir.len() + 1);
+    let mut sum = 0.0;
+    sums.push(sum);
+    for w in dir.windows(2) {
+        let (a, b) = (w[0], w[1]);
+        let zero = |d: [f64; 2]| d[0] == 0.0 && d[1] == 0.0;
+        let (cross, dot) = (a[0] * b[1] - a[1] * b[0], a[0] * b[0] + a[1] * b[1]);
+        let turn = 2.0 * cross.abs() / (1.0 + dot);
+        // Also pi for a reversal (1 + dot = 0: infinite or NaN).
+        sum += if zero(a) || zero(b) || turn.is_nan() || turn >= PI { PI } else { turn };
+        sums.push(sum);
+    }
+    if !dir.is_empty() {
+        sums.push(sum);
+    }
+    sums
+}
 
 /// A circle holding every point of a block of segments (so every point between them).
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -208,7 +247,7 @@ impl PlanPath {
                 (start, end)
             })
             .collect();
-        let dir = points
+        let dir: Vec<[f64; 2]> = points
             .windows(2)
             .map(|w| {
                 let len = dist(w[0], w[1]);
@@ -219,6 +258,7 @@ impl PlanPath {
                 }
             })
             .collect();
+        let turn_sum_rad = turn_sums(&dir);
         let segment_leg = (0..points.len().saturating_sub(1))
             .map(|i| leg_first_index.partition_point(|&first| first <= i).saturating_sub(1) as u32)
             .collect();
@@ -242,6 +282,7 @@ impl PlanPath {
             leg_first_point,
             bend_per_m,
             blocks,
+            turn_sum_rad,
             own: None,
         }
     }
@@ -552,6 +593,11 @@ impl PlanPath {
     /// The search of the window `[from_m, to_m]`, segments `first..=last`, from `hint`.
     #[inline(always)]
     fn nearest_between(&self, p: [f64; 2], from_m: f64, to_m: f64, hint: usize, first: usize, last: usize) -> Nearest {
+        if last > first {
+            if let Some(near) = self.nearest_near_seed(p, from_m, to_m, hint, first, last) {
+                return near;
+            }
+        }
         if last >= first + BLOCK_SEGMENTS {
             return self.nearest_in_blocks(p, from_m, to_m, hint, first, last);
         }
@@ -564,6 +610,75 @@ impl PlanPath {
             }
         }
         Nearest::new(best_d2, best_s, best_side)
+    }
+
+    /// The window search measuring only the segments near the seed, when a bound proves that no
+    /// other segment of the window can hold the answer; `None` when it cannot (then the window is
+    /// searched by blocks). The answer is the one a scan of every segment in order gives.
+    ///
+    /// The bound: the directions of the window's segments lie within an angle `theta` of one
+    /// another (the turning summed over the window), so two of its points `a` apart along the
+    /// plan are at least `a cos(theta / 2)` apart in the plane (each step along the plan advances
+    /// at least `cos(theta / 2)` along the middle direction), and `cos(x) >= 1 - x^2 / 2`. With
+    /// `q` the seed's nearest point at distance `d` from `p`, every point at least
+    /// `r = (2 d + slack) / (1 - theta^2 / 8)` from `q` along the plan is, by the triangle
+    /// inequality, farther than `d` from `p` by the slack: only the segments within `r` of `q`
+    /// are measured. A vehicle near the plan (small `d`) measures one or two segments a query.
+    /// The plan's end segments measure only the lateral offset beyond the ends, which the bound
+    /// does not cover: windows holding them are left to the block search.
+    #[inline(always)]
+    fn nearest_near_seed(
+        &self,
+        p: [f64; 2],
+        from_m: f64,
+        to_m: f64,
+        hint: usize,
+        first: usize,
+        last: usize,
+    ) -> Option<Nearest> {
+        let end_segment = self.points.len().checked_sub(2)?;
+        if first == 0 || last >= end_segment {
+            return None;
+        }
+        let theta = self.turn_sum_rad.get(last)? - self.turn_sum_rad.get(first)?;
+        let spread = 1.0 - theta * theta / 8.0;
+        if spread.is_nan() || spread < NEAR_SEED_MIN_SPREAD {
+            return None;
+        }
+        let seed = hint.clamp(first, last);
+        let (seed_d2, seed_s, seed_side) = self.segment_distance(p, seed, from_m, to_m)?;
+        let reach_m = (2.0 * seed_d2.sqrt() + BLOCK_SLACK_M) / spread;
+        // Measuring most of the window this way costs more than the blocks.
+        if reach_m > NEAR_SEED_MAX_REACH_SHARE * (to_m - from_m) {
+            return None;
+        }
+        let (lo_m, hi_m) = (seed_s - reach_m, seed_s + reach_m);
+        let (mut best_d2, mut best_s, mut best_side, mut best_i) = (seed_d2, seed_s, seed_side, seed);
+        let mut consider = |i: usize| {
+            let measured = if i == first || i == last {
+                self.segment_distance(p, i, from_m, to_m)
+            } else {
+                self.interior_distance(p, i)
+            };
+            if let Some((d2, s, side)) = measured {
+                if d2 < best_d2 || (d2 == best_d2 && i < best_i) {
+                    (best_d2, best_s, best_side, best_i) = (d2, s, side, i);
+                }
+            }
+        };
+        // Back while the segment before reaches past `lo_m` (it ends where this one starts).
+        let mut i = seed;
+        while i > first && self.s_m[i] > lo_m {
+            i -= 1;
+            consider(i);
+        }
+        // Ahead while the next segment starts before `hi_m`.
+        let mut j = seed;
+        while j < last && self.s_m[j + 1] < hi_m {
+            j += 1;
+            consider(j);
+        }
+        Some(Nearest::new(best_d2, best_s, best_side))
     }
 
     /// The long-window search of [`PlanPath::nearest_within_at`], segments `first..=last`.
@@ -1032,6 +1147,88 @@ mod tests {
             }
             plan.segment_at_cursor(s, &mut cursor);
         }
+    }
+
+    #[test]
+    fn the_search_near_the_seed_gives_the_answers_of_a_full_scan() {
+        // Three plans, points every 0.1 m: gentle waves; a hairpin whose return runs 0.6 m from
+        // its way out (a window across it turns by more than the bound allows); and a zigzag of
+        // sharp corners. Query points on the plan and off it by up to 0.5 m, seeds at and near
+        // the segment of the query's arc length, windows ahead and around.
+        let waves: Vec<[f64; 2]> = (0..600).map(|i| [i as f64 * 0.1, (i as f64 * 0.02).sin() * 1.5]).collect();
+        let mut hairpin: Vec<[f64; 2]> = (0..60).map(|i| [i as f64 * 0.1, 0.0]).collect();
+        hairpin.extend((1..10).map(|k| {
+            let a = std::f64::consts::PI * k as f64 / 10.0;
+            [5.9 + 0.3 * a.sin(), 0.3 - 0.3 * a.cos()]
+        }));
+        hairpin.extend((0..60).rev().map(|i| [i as f64 * 0.1, 0.6]));
+        let zigzag: Vec<[f64; 2]> = (0..400)
+            .map(|i| [i as f64 * 0.1, if (i / 7) % 2 == 0 { (i % 7) as f64 * 0.1 } else { 0.7 - (i % 7) as f64 * 0.1 }])
+            .collect();
+        let (mut near_plan, mut taken) = (0, 0);
+        for (plan_index, pts) in [waves, hairpin, zigzag].into_iter().enumerate() {
+            let plan = PlanPath::from_parts(pts, &[0], None);
+            let n_seg = plan.segment_count();
+            for k in 0..700 {
+                let s = 0.3 + (k as f64 * 0.0917) % (plan.length_m() - 0.6);
+                let on = plan.point_at(s);
+                let d = plan.direction_at(s);
+                for offset_m in [0.0, 0.01, -0.03, 0.05, 0.2, -0.5] {
+                    let p = [on[0] - offset_m * d[1], on[1] + offset_m * d[0]];
+                    for (back_m, ahead_m) in [(0.0, 1.5), (1.5, 1.5), (3.0, 3.0), (0.0, 0.5)] {
+                        let (from_m, to_m) = (s - back_m, s + ahead_m);
+                        let reference = nearest_by_scan(&plan, p, from_m, to_m);
+                        let (first, last) = (plan.segment_at(from_m), plan.segment_at(to_m));
+                        let at = plan.segment_at(s);
+                        for seed in [at, at.saturating_sub(1), (at + 3).min(n_seg - 1), first, last] {
+                            let (mut a, mut b) = (Cursor { segment: first }, Cursor { segment: last });
+                            assert_eq!(
+                                plan.nearest_in_window(p, from_m, to_m, seed, &mut a, &mut b),
+                                reference,
+                                "{p:?} in [{from_m}, {to_m}] from {seed}"
+                            );
+                            if last > first {
+                                if let Some(near) = plan.nearest_near_seed(p, from_m, to_m, seed, first, last) {
+                                    assert_eq!(near, reference, "{p:?} in [{from_m}, {to_m}] from {seed}");
+                                    if plan_index == 0 && seed == at && offset_m.abs() <= 0.05 && ahead_m >= 1.5 {
+                                        taken += 1;
+                                    }
+                                }
+                                if plan_index == 0 && seed == at && offset_m.abs() <= 0.05 && ahead_m >= 1.5 {
+                                    near_plan += 1;
+                                }
+                            }
+                        }
+                    }
+                }
+            }
+        }
+        // On the gentle waves the bound holds for nearly every query near the plan from the
+        // progress point's segment (it fails only at the plan's ends): the search measures a few
+        // segments there, not the window.
+        assert!(taken * 10 >= near_plan * 9, "near the seed in {taken} of {near_plan} queries");
+    }
+
+    #[test]
+    fn turn_sums_bound_the_turning_of_a_circle() {
+        // Points every 0.1 rad on a circle of radius 2 m: each inner point turns by 0.1 rad (the
+        // chord directions of a regular polygon, from plane geometry), so the sums grow by the
+        // bound 2 tan(0.1 / 2) each, which is at least the turn of 0.1.
+        let pts: Vec<[f64; 2]> =
+            (0..40).map(|i| [2.0 * (i as f64 * 0.1).cos(), 2.0 * (i as f64 * 0.1).sin()]).collect();
+        let plan = PlanPath::from_parts(pts, &[0], None);
+        let sums = &plan.turn_sum_rad;
+        assert_eq!(sums.len(), 40);
+        assert_eq!(sums[0], 0.0);
+        assert_eq!(sums[39], sums[38]);
+        for w in sums[..39].windows(2) {
+            let step = w[1] - w[0];
+            assert!((step - 2.0 * 0.05_f64.tan()).abs() < 1e-12 && step >= 0.1, "{step}");
+        }
+        // A reversal and a repeated point each count as half a turn.
+        let back = PlanPath::from_parts(vec![[0.0, 0.0], [1.0, 0.0], [0.5, 0.0], [0.5, 0.0], [0.5, 1.0]], &[0], None);
+        let pi = std::f64::consts::PI;
+        assert_eq!(back.turn_sum_rad, vec![0.0, pi, 2.0 * pi, 3.0 * pi, 3.0 * pi]);
     }
 
     #[test]
