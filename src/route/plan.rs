@@ -492,6 +492,10 @@ impl PlanPath {
     /// little between calls. Same values as the two plain queries.
     #[inline]
     pub fn slope_at_cursor(&self, s_m: f64, cursor: &mut Cursor) -> (f64, f64) {
+        // A level plan (no altitude, no cross slope) needs no lookup.
+        if self.altitude_m.is_none() && self.cross_slope.is_none() {
+            return (0.0, 0.0);
+        }
         let hint = cursor.segment;
         let i = self.segment_at_cursor(s_m, cursor);
         let cross = self.value_on_segment(self.cross_slope.as_deref(), i, s_m);
