@@ -66,6 +66,37 @@ const BLOCK_SEGMENTS: usize = 4;
 /// above the rounding of the per-segment arithmetic, so skipping never changes an answer.
 const BLOCK_SLACK_M: f64 = 1e-6;
 
+/// The nearest segment a window search has found so far: its squared distance, the arc length
+/// and side of its nearest point, and its index (ties go to the earliest segment, as in a scan
+/// of the window in order).
+#[derive(Debug, Clone, Copy)]
+struct Best {
+    d2: f64,
+    s_m: f64,
+    side: f64,
+    segment: usize,
+}
+
+impl Best {
+    /// Takes segment `i`'s measurement when it is nearer, or as near and earlier; says whether
+    /// it did.
+    #[inline(always)]
+    fn offer(&mut self, i: usize, measured: Option<(f64, f64, f64)>) -> bool {
+        match measured {
+            Some((d2, s_m, side)) if d2 < self.d2 || (d2 == self.d2 && i < self.segment) => {
+                *self = Best { d2, s_m, side, segment: i };
+                true
+            }
+            _ => false,
+        }
+    }
+
+    #[inline(always)]
+    fn nearest(&self) -> Nearest {
+        Nearest::new(self.d2, self.s_m, self.side)
+    }
+}
+
 /// Smallest `1 - theta^2 / 8` (the lower bound of `cos(theta / 2)` for a window whose segment
 /// directions spread over `theta`) for which [`PlanPath::nearest_near_seed`] is tried: a window
 /// turning by more than about 115 degrees is searched by blocks.
@@ -657,32 +688,39 @@ impl PlanPath {
             return None;
         }
         let (lo_m, hi_m) = (seed_s - reach_m, seed_s + reach_m);
-        let (mut best_d2, mut best_s, mut best_side, mut best_i) = (seed_d2, seed_s, seed_side, seed);
-        let mut consider = |i: usize| {
-            let measured = if i == first || i == last {
-                self.segment_distance(p, i, from_m, to_m)
-            } else {
-                self.interior_distance(p, i)
-            };
-            if let Some((d2, s, side)) = measured {
-                if d2 < best_d2 || (d2 == best_d2 && i < best_i) {
-                    (best_d2, best_s, best_side, best_i) = (d2, s, side, i);
-                }
-            }
-        };
+        let mut best = Best { d2: seed_d2, s_m: seed_s, side: seed_side, segment: seed };
         // Back while the segment before reaches past `lo_m` (it ends where this one starts).
         let mut i = seed;
         while i > first && self.s_m[i] > lo_m {
             i -= 1;
-            consider(i);
+            best.offer(i, self.window_distance(p, i, (first, last), from_m, to_m));
         }
         // Ahead while the next segment starts before `hi_m`.
         let mut j = seed;
         while j < last && self.s_m[j + 1] < hi_m {
             j += 1;
-            consider(j);
+            best.offer(j, self.window_distance(p, j, (first, last), from_m, to_m));
         }
-        Some(Nearest::new(best_d2, best_s, best_side))
+        Some(best.nearest())
+    }
+
+    /// [`PlanPath::segment_distance`] of segment `i` of the window `[from_m, to_m]` whose
+    /// segments are `first..=last`: the plain arithmetic of [`PlanPath::interior_distance`]
+    /// strictly inside it.
+    #[inline(always)]
+    fn window_distance(
+        &self,
+        p: [f64; 2],
+        i: usize,
+        (first, last): (usize, usize),
+        from_m: f64,
+        to_m: f64,
+    ) -> Option<(f64, f64, f64)> {
+        if i == first || i == last {
+            self.segment_distance(p, i, from_m, to_m)
+        } else {
+            self.interior_distance(p, i)
+        }
     }
 
     /// The long-window search of [`PlanPath::nearest_within_at`], segments `first..=last`.
@@ -696,14 +734,13 @@ impl PlanPath {
         first: usize,
         last: usize,
     ) -> Nearest {
-        let (mut best_d2, mut best_s, mut best_side) = (f64::INFINITY, from_m, 0.0);
+        let mut best = Best { d2: f64::INFINITY, s_m: from_m, side: 0.0, segment: usize::MAX };
         {
             let seed = hint.clamp(first, last);
-            let mut best_i = usize::MAX;
-            if let Some((d2, s, side)) = self.segment_distance(p, seed, from_m, to_m) {
-                (best_d2, best_s, best_side, best_i) = (d2, s, side, seed);
+            if let Some((d2, s_m, side)) = self.segment_distance(p, seed, from_m, to_m) {
+                best = Best { d2, s_m, side, segment: seed };
             }
-            let mut best_m = best_d2.sqrt();
+            let mut best_m = best.d2.sqrt();
             let end_segment = self.points.len().saturating_sub(2);
             for b in first / BLOCK_SEGMENTS..last / BLOCK_SEGMENTS + 1 {
                 let (lo, hi) = (b * BLOCK_SEGMENTS, b * BLOCK_SEGMENTS + BLOCK_SEGMENTS - 1);
@@ -722,21 +759,13 @@ impl PlanPath {
                     if i == seed {
                         continue;
                     }
-                    let measured = if i == first || i == last {
-                        self.segment_distance(p, i, from_m, to_m)
-                    } else {
-                        self.interior_distance(p, i)
-                    };
-                    if let Some((d2, s, side)) = measured {
-                        if d2 < best_d2 || (d2 == best_d2 && i < best_i) {
-                            (best_d2, best_s, best_side, best_i) = (d2, s, side, i);
-                            best_m = d2.sqrt();
-                        }
+                    if best.offer(i, self.window_distance(p, i, (first, last), from_m, to_m)) {
+                        best_m = best.d2.sqrt();
                     }
                 }
             }
         }
-        Nearest::new(best_d2, best_s, best_side)
+        best.nearest()
     }
 
     /// Squared distance from `p` to the part of segment `i` with arc length in `[from_m, to_m]`,
