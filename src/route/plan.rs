@@ -683,8 +683,9 @@ impl PlanPath {
         let seed = hint.clamp(first, last);
         let (seed_d2, seed_s, seed_side) = self.segment_distance(p, seed, from_m, to_m)?;
         let reach_m = (2.0 * seed_d2.sqrt() + BLOCK_SLACK_M) / spread;
-        // Measuring most of the window this way costs more than the blocks.
-        if reach_m > NEAR_SEED_MAX_REACH_SHARE * (to_m - from_m) {
+        // Measuring most of the window this way costs more than the blocks (and a query that is
+        // not a number is left to them too).
+        if reach_m.is_nan() || reach_m > NEAR_SEED_MAX_REACH_SHARE * (to_m - from_m) {
             return None;
         }
         let (lo_m, hi_m) = (seed_s - reach_m, seed_s + reach_m);
