@@ -11,7 +11,7 @@ mod speed_plan;
 
 use crate::kinematics::{Model, MotionModel, Pose};
 use crate::route::plan::Nearest;
-use crate::route::{Cursor, PlanPath};
+use crate::route::{Cursor, GoalCursors, PlanPath};
 
 pub use speed_plan::{driven_speed_mps, segment_time_s, ScaledLeg, SegmentPlan, SpeedPlan, SpeedView, CREEP_SPEED_MPS};
 
@@ -108,7 +108,7 @@ pub struct FollowerState {
     /// point so no window query searches for its ends. Results never depend on them.
     behind: Cursor,
     ahead: Cursor,
-    reach: Cursor,
+    goal: GoalCursors,
 }
 
 impl FollowerState {
@@ -141,7 +141,7 @@ impl<'a> Follower<'a> {
             leg: 0,
             behind: Cursor::default(),
             ahead: Cursor::default(),
-            reach: Cursor::default(),
+            goal: GoalCursors::default(),
         };
         Follower { plan, speeds, limits, state }
     }
@@ -257,7 +257,7 @@ impl<'a> Follower<'a> {
             lim.lookahead_m,
             3.0 * lim.lookahead_m,
             st.cursor,
-            &mut st.reach,
+            &mut st.goal,
         );
         let (gx, gy) = pose.to_body_with(goal[0], goal[1], sin_cos_yaw);
         let kappa = pursuit_curvature(gx, gy);

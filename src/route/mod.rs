@@ -14,7 +14,7 @@ use std::path::{Path, PathBuf};
 use crate::limits::{clip, read_stream_text_limited, read_text_limited, Limits, ReadLimitedError};
 
 pub use enu::GeoOrigin;
-pub use plan::{Cursor, LegSpan, PlanPath, TerrainShare};
+pub use plan::{Cursor, GoalCursors, LegSpan, PlanPath, TerrainShare};
 
 /// Where in the input file a leg came from, for error messages and reports.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]

@@ -823,12 +823,13 @@ impl PlanPath {
     #[inline]
     pub fn pursuit_goal(&self, p: [f64; 2], from_m: f64, lookahead_m: f64, search_m: f64) -> [f64; 2] {
         let cursor = Cursor { segment: self.segment_at(from_m) };
-        let mut reach = cursor;
-        self.pursuit_goal_within(p, from_m, lookahead_m, search_m, cursor, &mut reach)
+        let mut walk = GoalCursors { inside: cursor, reach: cursor };
+        self.pursuit_goal_within(p, from_m, lookahead_m, search_m, cursor, &mut walk)
     }
 
-    /// [`PlanPath::pursuit_goal`] searching from a cursor near `from_m` and a second cursor for
-    /// the end of the search, moved to its segment (the follower walks it along). Same answer.
+    /// [`PlanPath::pursuit_goal`] searching from a cursor near `from_m`, with the cursors of
+    /// `walk` (see [`GoalCursors`]) moved to their segments (the follower walks them along).
+    /// Same answer.
     #[inline]
     pub fn pursuit_goal_within(
         &self,
@@ -837,19 +838,20 @@ impl PlanPath {
         lookahead_m: f64,
         search_m: f64,
         cursor: Cursor,
-        reach: &mut Cursor,
+        walk: &mut GoalCursors,
     ) -> [f64; 2] {
         let total = self.length_m();
         let to_m = (from_m + search_m).min(total);
         let first = self.segment_from(from_m, cursor.segment);
-        let last = self.segment_from(to_m, reach.segment.max(first));
-        reach.segment = last;
+        let last = self.segment_from(to_m, walk.reach.segment.max(first));
+        walk.reach.segment = last;
         let l2 = lookahead_m * lookahead_m;
         // A segment whose end lies inside the circle by the slack leaves it only past that end
         // (by about the slack, far above the rounding of the root): no goal, and no root taken.
         let inner_m = lookahead_m - BLOCK_SLACK_M;
         let inner2 = if inner_m > 0.0 { inner_m * inner_m } else { -1.0 };
-        for b in first / BLOCK_SEGMENTS..last / BLOCK_SEGMENTS + 1 {
+        let start = self.goal_search_start(p, from_m, lookahead_m, (first, last), &mut walk.inside);
+        for b in start / BLOCK_SEGMENTS..last / BLOCK_SEGMENTS + 1 {
             // A block wholly inside or wholly outside the circle of radius L round `p` has no
             // point at distance L.
             if let Some(block) = self.blocks.get(b) {
@@ -860,7 +862,7 @@ impl PlanPath {
                     continue;
                 }
             }
-            let (lo, hi) = ((b * BLOCK_SEGMENTS).max(first), (b * BLOCK_SEGMENTS + BLOCK_SEGMENTS - 1).min(last));
+            let (lo, hi) = ((b * BLOCK_SEGMENTS).max(start), (b * BLOCK_SEGMENTS + BLOCK_SEGMENTS - 1).min(last));
             if let Some(goal) = self.goal_on_segments(p, lo, hi, from_m, to_m, (l2, inner2)) {
                 return goal;
             }
@@ -880,6 +882,39 @@ impl PlanPath {
             }
         }
         self.point_at((from_m + lookahead_m).min(total))
+    }
+
+    /// The first segment the pursuit goal's search of segments `first..=last` (the window from
+    /// arc length `from_m`) needs to look at: every point within `L - d` of the progress point
+    /// `q` along the plan (`d` its distance from `p`, `L` the lookahead) is within `L` of `p`,
+    /// since a chord is never longer than its arc, so a segment ending there lies inside the
+    /// circle (by twice the slack) and holds no goal. The search starts at the segment of
+    /// arc length `from_m + L - d - 2 slack`, found from `inside` (moved there).
+    #[inline(always)]
+    fn goal_search_start(
+        &self,
+        p: [f64; 2],
+        from_m: f64,
+        lookahead_m: f64,
+        (first, last): (usize, usize),
+        inside: &mut Cursor,
+    ) -> usize {
+        let (Some(&a), Some(&d), Some(&[s_a, s_b])) = (
+            self.points.get(first),
+            self.dir.get(first),
+            self.s_m.get(first..first + 2).and_then(|w| <&[f64; 2]>::try_from(w).ok()),
+        ) else {
+            return first;
+        };
+        let u = (from_m - s_a).clamp(0.0, s_b - s_a);
+        let (qx, qy) = (a[0] + u * d[0] - p[0], a[1] + u * d[1] - p[1]);
+        let inside_m = lookahead_m - (qx * qx + qy * qy).sqrt() - 2.0 * BLOCK_SLACK_M;
+        if inside_m > 0.0 {
+            inside.segment = self.segment_from(from_m + inside_m, inside.segment.max(first));
+            inside.segment.clamp(first, last)
+        } else {
+            first
+        }
     }
 
     /// The first point of segments `lo..=hi` with arc length in `[from_m, to_m]` at squared
@@ -918,6 +953,15 @@ impl PlanPath {
         }
         None
     }
+}
+
+/// The cursors a follower walks along for its pursuit goal ([`PlanPath::pursuit_goal_within`]):
+/// at the point ahead of the progress point before which the goal cannot lie, and at the end of
+/// the search. Results never depend on them.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct GoalCursors {
+    pub inside: Cursor,
+    pub reach: Cursor,
 }
 
 /// The stretch of arc length where [`PlanPath::leg_at`] gives the leg `leg`, remembered from
@@ -1084,7 +1128,7 @@ mod tests {
             let plain = plan.nearest_within(p, s - 1.5, s + 1.5);
             assert_eq!(plan.nearest_within_at(p, s - 1.5, s + 1.5, &mut cursor), plain);
             assert_eq!(
-                plan.pursuit_goal_within(p, s, 1.5, 4.5, cursor, &mut Cursor::default()),
+                plan.pursuit_goal_within(p, s, 1.5, 4.5, cursor, &mut GoalCursors::default()),
                 plan.pursuit_goal(p, s, 1.5, 4.5)
             );
         }
@@ -1167,12 +1211,13 @@ mod tests {
             for l in [0.3, 1.5, 4.0] {
                 let to_m = (s + 3.0 * l).min(plan.length_m());
                 for q in [p, plan.point_at(s + 0.5 * l), plan.points()[plan.segment_at(s + l) + 1]] {
-                    assert_eq!(plan.pursuit_goal_within(q, s, l, 3.0 * l, cursor, &mut Cursor { segment: 5999 }), {
+                    let far = Cursor { segment: 5999 };
+                    let mut far_cursors = GoalCursors { inside: far, reach: far };
+                    assert_eq!(plan.pursuit_goal_within(q, s, l, 3.0 * l, cursor, &mut far_cursors), {
                         // The same goal from the root test on every segment in order: no block
                         // and no segment skipped.
-                        goal_by_scan(&plan, q, s, to_m, l).unwrap_or_else(|| {
-                            plan.pursuit_goal_within(q, s, l, 3.0 * l, cursor, &mut Cursor { segment: 5999 })
-                        })
+                        goal_by_scan(&plan, q, s, to_m, l)
+                            .unwrap_or_else(|| plan.pursuit_goal_within(q, s, l, 3.0 * l, cursor, &mut far_cursors))
                     });
                 }
             }
