@@ -72,35 +72,36 @@ const SMOOTH_MISMATCH: f64 = 0.5;
 /// segment is straight.
 pub(super) fn segment_bends(points: &[[f64; 2]]) -> Vec<f64> {
     let n = points.len();
-    // Each vertex's reading once (every segment looks at four vertices).
-    let readings: Vec<Option<f64>> =
-        (0..n).map(|i| if i >= 1 && i + 1 < n { sampled_curve_curvature(points, i) } else { None }).collect();
-    let vertex = |i: usize| readings.get(i).copied().flatten();
+    let reading = |i: usize| if i >= 1 && i + 1 < n { sampled_curve_curvature(points, i) } else { None };
     let mismatch = |a: f64, b: f64| (a - b).abs() / (a.abs().max(b.abs()) + STRAIGHT_FLOOR_PER_M);
-    // (curvature, mismatch with the vertex beyond) of the candidate from vertex v, looking away
-    // from the segment towards `beyond`.
-    let candidate = |v: usize, beyond: Option<usize>| {
-        let k = vertex(v)?;
-        let m = mismatch(k, vertex(beyond?)?);
+    // The candidate of a vertex reading `k`, looking away from the segment to the reading
+    // `beyond` of the next vertex that way.
+    let candidate = |k: Option<f64>, beyond: Option<f64>| {
+        let k = k?;
+        let m = mismatch(k, beyond?);
         (m < SMOOTH_MISMATCH).then_some(k)
     };
-    (0..n.saturating_sub(1))
-        .map(|j| {
-            let before = candidate(j, j.checked_sub(1));
-            let after = candidate(j + 1, Some(j + 2));
-            match (before, after) {
-                (Some(a), Some(b)) => {
-                    if a.abs() >= b.abs() {
-                        a
-                    } else {
-                        b
-                    }
+    // The readings of vertices j - 1 ..= j + 2 for segment j, each worked out once as the
+    // window moves along (there is no vertex before the first).
+    let mut near = [None, reading(0), reading(1), reading(2)];
+    let mut bends = Vec::with_capacity(n.saturating_sub(1));
+    for j in 0..n.saturating_sub(1) {
+        let before = candidate(near[1], near[0]);
+        let after = candidate(near[2], near[3]);
+        bends.push(match (before, after) {
+            (Some(a), Some(b)) => {
+                if a.abs() >= b.abs() {
+                    a
+                } else {
+                    b
                 }
-                (Some(k), None) | (None, Some(k)) => k,
-                (None, None) => 0.0,
             }
-        })
-        .collect()
+            (Some(k), None) | (None, Some(k)) => k,
+            (None, None) => 0.0,
+        });
+        near = [near[1], near[2], near[3], reading(j + 3)];
+    }
+    bends
 }
 
 impl PlanPath {
