@@ -911,7 +911,8 @@ impl PlanPath {
         let inside_m = lookahead_m - (qx * qx + qy * qy).sqrt() - 2.0 * BLOCK_SLACK_M;
         if inside_m > 0.0 {
             inside.segment = self.segment_from(from_m + inside_m, inside.segment.max(first));
-            inside.segment.clamp(first, last)
+            // Within the window (`max` before `min`: an empty window, last < first, gives first).
+            inside.segment.min(last).max(first)
         } else {
             first
         }
@@ -1286,6 +1287,17 @@ mod tests {
         // progress point's segment (it fails only at the plan's ends): the search measures a few
         // segments there, not the window.
         assert!(taken * 10 >= near_plan * 9, "near the seed in {taken} of {near_plan} queries");
+    }
+
+    #[test]
+    fn a_pursuit_search_ending_before_it_starts_falls_back_to_the_point_ahead() {
+        // A negative search length (a caller's mistake) leaves an empty window: no panic, and the
+        // goal is the point a lookahead ahead of the progress point, as the documentation says
+        // for a search that finds no point at the lookahead.
+        let pts: Vec<[f64; 2]> = (0..200).map(|i| [i as f64 * 0.1, 0.0]).collect();
+        let plan = PlanPath::from_parts(pts, &[0], None);
+        let goal = plan.pursuit_goal([5.0, 0.0], 5.0, 1.5, -3.0);
+        assert!((goal[0] - 6.5).abs() < 1e-9 && goal[1] == 0.0, "{goal:?}");
     }
 
     #[test]
