@@ -104,8 +104,8 @@ pub struct FollowerState {
     /// Leg of the progress point.
     leg: usize,
     /// Segments of the far ends of the lookahead windows (one lookahead behind and ahead of the
-    /// progress point, and the end of the goal search), each walked along with the progress
-    /// point so no window query searches for its ends. Results never depend on them.
+    /// progress point, and where the goal search starts and ends), each walked along with the
+    /// progress point so no window query searches for its ends. Results never depend on them.
     behind: Cursor,
     ahead: Cursor,
     goal: GoalCursors,
