@@ -13,6 +13,7 @@ pub mod batch;
 pub mod check;
 pub mod compare;
 pub mod csv_line;
+pub mod decimal;
 pub mod drift;
 pub mod effort;
 pub mod error;

@@ -281,7 +281,7 @@ fn number(text: &str) -> Result<f64, String> {
     if text.is_empty() {
         return Err("is empty".to_string());
     }
-    match text.parse::<f64>() {
+    match crate::decimal::parse_f64(text) {
         Ok(v) if v.is_finite() => Ok(v),
         Ok(_) => Err(format!("'{}' is not a finite number", crate::limits::clip(text))),
         Err(_) => Err(format!("'{}' is not a number", crate::limits::clip(text))),

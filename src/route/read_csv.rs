@@ -240,7 +240,7 @@ fn required_cell<'r>(record: &'r StringRecord, index: Option<usize>, column: &st
 }
 
 fn number(text: &str, column: &str) -> Result<f64, String> {
-    match text.parse::<f64>() {
+    match crate::decimal::parse_f64(text) {
         Ok(value) if value.is_finite() => Ok(value),
         Ok(_) => Err(format!("column {column}: '{}' is not a finite number", clip(text))),
         Err(_) => Err(format!("column {column}: '{}' is not a number", clip(text))),
