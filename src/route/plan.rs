@@ -899,16 +899,11 @@ impl PlanPath {
         (first, last): (usize, usize),
         inside: &mut Cursor,
     ) -> usize {
-        let (Some(&a), Some(&d), Some(&[s_a, s_b])) = (
-            self.points.get(first),
-            self.dir.get(first),
-            self.s_m.get(first..first + 2).and_then(|w| <&[f64; 2]>::try_from(w).ok()),
-        ) else {
+        if first + 1 >= self.points.len() {
             return first;
-        };
-        let u = (from_m - s_a).clamp(0.0, s_b - s_a);
-        let (qx, qy) = (a[0] + u * d[0] - p[0], a[1] + u * d[1] - p[1]);
-        let inside_m = lookahead_m - (qx * qx + qy * qy).sqrt() - 2.0 * BLOCK_SLACK_M;
+        }
+        let q = self.point_on_segment(first, from_m);
+        let inside_m = lookahead_m - dist(p, q) - 2.0 * BLOCK_SLACK_M;
         if inside_m > 0.0 {
             inside.segment = self.segment_from(from_m + inside_m, inside.segment.max(first));
             // Within the window (`max` before `min`: an empty window, last < first, gives first).
